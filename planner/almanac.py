@@ -1,0 +1,300 @@
+"""The almanac of a night: sunset, sunrise, twilights, the Moon.
+
+Conventions (DESIGN.md): sunset and sunrise when the Sun's centre is at
+−0.833° geometric altitude (upper limb on the horizon with standard
+refraction, the almanac convention); twilights end/begin at −6° (civil),
+−12° (nautical) and −18° (astronomical); moonrise and moonset when the
+topocentric Moon's centre is at −0.833° (refraction 34′ plus a mean
+semi-diameter of about 15.5′).  Events that do not happen in a night — the
+midnight sun, polar night, a summer night that never gets astronomically
+dark, a night without a moonrise — are NaN here and ``null`` in JSON.
+
+Two paths give the same :class:`Almanac`:
+
+* :func:`almanac_for_nights` — the fast path for any number of nights: the Sun
+  and Moon come from one :class:`~planner.ephemeris.Ephemeris`, evaluated on a
+  10-minute grid over each night; crossings are bracketed on the grid and
+  refined by regula falsi (Illinois variant) to well under a second.
+* :func:`night_almanac_astroplan` — one night through astroplan's ``Observer``
+  (exact, but about 0.02 s per twilight and 0.08 s per moonrise).  Tests hold
+  the fast path to it within a minute; ``gcplan night`` uses the fast path so
+  that one night and a semester never disagree.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass
+from types import MappingProxyType
+from typing import Mapping
+
+import numpy as np
+
+from planner.ephemeris import (
+    Ephemeris,
+    SiteGeometry,
+    build_ephemeris,
+    local_sidereal_deg,
+    moon_phase,
+    moon_radec_deg,
+    site_geometry,
+    sun_radec_deg,
+)
+from planner.nights import night_spans_jd
+from planner.sidereal import altitude_deg
+from planner.sites import TWILIGHTS, SiteProfile
+
+#: Sun's centre at sunset/sunrise, degrees (upper limb + 34′ refraction).
+SUNRISE_ALTITUDE_DEG = -0.833
+#: Moon's topocentric centre at moonrise/moonset, degrees (see module docstring).
+MOONRISE_ALTITUDE_DEG = -0.833
+#: Sun's altitude at the end of evening twilight / start of morning twilight.
+TWILIGHT_ALTITUDE_DEG = MappingProxyType({"civil": -6.0, "nautical": -12.0, "astronomical": -18.0})
+
+#: Grid step for bracketing crossings, days.  Ten minutes cannot hide two
+#: crossings of one level except at grazing incidence, where the event time
+#: is ill-defined anyway.
+_GRID_STEP_D = 10.0 / 1440.0
+_REFINE_ITERATIONS = 8
+
+
+@dataclass(frozen=True)
+class Almanac:
+    """Events of one or more nights, as arrays over the nights (JD UTC, NaN = none)."""
+
+    nights: tuple[dt.date, ...]
+    timezone: str
+    span_start_jd: np.ndarray  # local noon
+    span_end_jd: np.ndarray  # next local noon
+    sunset_jd: np.ndarray
+    sunrise_jd: np.ndarray
+    evening_jd: Mapping[str, np.ndarray]  # twilight name -> end of evening twilight
+    morning_jd: Mapping[str, np.ndarray]  # twilight name -> start of morning twilight
+    moonrise_jd: np.ndarray
+    moonset_jd: np.ndarray
+    middle_jd: np.ndarray  # middle of the night (sunset..sunrise, else solar midnight)
+    moon_illumination: np.ndarray  # at the middle of the night
+    moon_phase_angle_deg: np.ndarray  # 0 = full, 180 = new
+    sun_min_altitude_deg: np.ndarray  # lowest Sun of the night
+    sun_max_altitude_deg: np.ndarray  # highest Sun within the span
+
+    def __len__(self) -> int:
+        return len(self.nights)
+
+    def dark_window_jd(self, twilight: str) -> tuple[np.ndarray, np.ndarray]:
+        """Start and end of the time with the Sun below the twilight's altitude.
+
+        Polar night (the Sun below the level all span long) gives the whole
+        span; a night that never gets that dark gives NaN for both.
+        """
+        if twilight not in TWILIGHT_ALTITUDE_DEG:
+            raise ValueError(f"twilight must be one of {', '.join(TWILIGHTS)} (got {twilight!r})")
+        level = TWILIGHT_ALTITUDE_DEG[twilight]
+        start = np.array(self.evening_jd[twilight], dtype=float)
+        end = np.array(self.morning_jd[twilight], dtype=float)
+        always_dark = self.sun_max_altitude_deg < level
+        never_dark = self.sun_min_altitude_deg >= level
+        start = np.where(np.isnan(start) & ~never_dark, self.span_start_jd, start)
+        end = np.where(np.isnan(end) & ~never_dark, self.span_end_jd, end)
+        start = np.where(always_dark, self.span_start_jd, start)
+        end = np.where(always_dark, self.span_end_jd, end)
+        start = np.where(never_dark, np.nan, start)
+        end = np.where(never_dark, np.nan, end)
+        return start, end
+
+    def dark_hours(self, twilight: str = "astronomical") -> np.ndarray:
+        start, end = self.dark_window_jd(twilight)
+        return np.nan_to_num((end - start) * 24.0, nan=0.0)
+
+
+def sun_altitude_deg(eph: Ephemeris, geo: SiteGeometry, jd_utc) -> np.ndarray:
+    """Geometric altitude of the Sun's centre (its 8.8″ parallax neglected)."""
+    ra, dec = sun_radec_deg(eph, jd_utc)
+    lst = local_sidereal_deg(eph, jd_utc, geo.longitude_deg)
+    return altitude_deg(geo.latitude_deg, dec, lst - ra)
+
+
+def moon_altitude_deg(eph: Ephemeris, geo: SiteGeometry, jd_utc) -> np.ndarray:
+    """Geometric altitude of the topocentric Moon's centre."""
+    lst = local_sidereal_deg(eph, jd_utc, geo.longitude_deg)
+    ra, dec, _ = moon_radec_deg(eph, geo, jd_utc, lst)
+    return altitude_deg(geo.latitude_deg, dec, lst - ra)
+
+
+def night_grid_jd(start_jd: np.ndarray, end_jd: np.ndarray, step_d: float) -> np.ndarray:
+    """Per-night sample times, shape (nights, K): each row from its start to its end."""
+    length = np.nanmax(end_jd - start_jd) if len(start_jd) else 0.0
+    k = max(int(np.ceil(length / step_d)) + 1, 2)
+    frac = np.linspace(0.0, 1.0, k)
+    return start_jd[:, None] + (end_jd - start_jd)[:, None] * frac[None, :]
+
+
+def _refine(func, lo, hi, f_lo, f_hi):
+    """Roots of func in brackets [lo, hi] (sign change), Illinois regula falsi, vectorised."""
+    lo, hi, f_lo, f_hi = (np.array(a, dtype=float) for a in (lo, hi, f_lo, f_hi))
+    side = np.zeros(lo.shape, dtype=int)
+    for _ in range(_REFINE_ITERATIONS):
+        denom = f_hi - f_lo
+        mid = np.where(denom != 0, (lo * f_hi - hi * f_lo) / np.where(denom == 0, 1, denom), lo)
+        f_mid = func(mid)
+        same_lo = np.sign(f_mid) == np.sign(f_lo)
+        # Illinois: halve the retained end's value when the same side is kept twice.
+        f_hi = np.where(same_lo & (side == -1), f_hi / 2.0, f_hi)
+        f_lo = np.where(~same_lo & (side == 1), f_lo / 2.0, f_lo)
+        lo, f_lo = np.where(same_lo, mid, lo), np.where(same_lo, f_mid, f_lo)
+        hi, f_hi = np.where(same_lo, hi, mid), np.where(same_lo, f_hi, f_mid)
+        side = np.where(same_lo, -1, 1)
+    denom = f_hi - f_lo
+    return np.where(denom != 0, (lo * f_hi - hi * f_lo) / np.where(denom == 0, 1, denom), lo)
+
+
+def _first_crossing(grid_jd, values, level, func, direction: int, after_jd=None):
+    """First crossing of ``level`` per row (direction −1 descending, +1 ascending); NaN if none."""
+    above = values >= level
+    if direction < 0:
+        cross = above[:, :-1] & ~above[:, 1:]
+    else:
+        cross = ~above[:, :-1] & above[:, 1:]
+    if after_jd is not None:
+        cross &= ~(grid_jd[:, 1:] <= np.nan_to_num(after_jd, nan=-np.inf)[:, None])
+    has = cross.any(axis=1)
+    idx = np.argmax(cross, axis=1)
+    rows = np.nonzero(has)[0]
+    out = np.full(grid_jd.shape[0], np.nan)
+    if rows.size:
+        k = idx[rows]
+        lo, hi = grid_jd[rows, k], grid_jd[rows, k + 1]
+        f_lo, f_hi = values[rows, k] - level, values[rows, k + 1] - level
+        out[rows] = _refine(lambda t: func(t) - level, lo, hi, f_lo, f_hi)
+    return out
+
+
+def almanac_for_nights(
+    site: SiteProfile, nights: list[dt.date], eph: Ephemeris | None = None
+) -> Almanac:
+    """The almanac of every night in ``nights`` in one vectorised pass (the fast path)."""
+    loc = site.location
+    geo = site_geometry(loc.latitude_deg, loc.longitude_deg, loc.elevation_m)
+    span_start, span_end = night_spans_jd(list(nights), loc.timezone)
+    if eph is None:
+        eph = build_ephemeris(float(span_start.min()), float(span_end.max()))
+    grid = night_grid_jd(span_start, span_end, _GRID_STEP_D)
+    sun_fn = lambda t: sun_altitude_deg(eph, geo, t)  # noqa: E731
+    moon_fn = lambda t: moon_altitude_deg(eph, geo, t)  # noqa: E731
+    sun_alt = sun_fn(grid)
+    moon_alt = moon_fn(grid)
+
+    def evening_morning(level):
+        evening = _first_crossing(grid, sun_alt, level, sun_fn, -1)
+        morning_after = _first_crossing(grid, sun_alt, level, sun_fn, +1, after_jd=evening)
+        # With no evening crossing (e.g. the Sun already below at noon), the
+        # morning event is the last ascending crossing of the span.
+        morning_last = _last_ascending(grid, sun_alt, level, sun_fn)
+        morning = np.where(np.isnan(evening), morning_last, morning_after)
+        return evening, morning
+
+    sunset, sunrise = evening_morning(SUNRISE_ALTITUDE_DEG)
+    evening, morning = {}, {}
+    for name in TWILIGHTS:
+        evening[name], morning[name] = evening_morning(TWILIGHT_ALTITUDE_DEG[name])
+    moonrise = _first_crossing(grid, moon_alt, MOONRISE_ALTITUDE_DEG, moon_fn, +1)
+    moonset = _first_crossing(grid, moon_alt, MOONRISE_ALTITUDE_DEG, moon_fn, -1)
+
+    rows = np.arange(len(grid))
+    solar_midnight = grid[rows, np.argmin(sun_alt, axis=1)]
+    middle = np.where(np.isfinite(sunset) & np.isfinite(sunrise), (sunset + sunrise) / 2.0, solar_midnight)
+    illumination, phase_angle = moon_phase(eph, middle)
+    return Almanac(
+        nights=tuple(nights),
+        timezone=loc.timezone,
+        span_start_jd=span_start,
+        span_end_jd=span_end,
+        sunset_jd=sunset,
+        sunrise_jd=sunrise,
+        evening_jd=MappingProxyType(evening),
+        morning_jd=MappingProxyType(morning),
+        moonrise_jd=moonrise,
+        moonset_jd=moonset,
+        middle_jd=middle,
+        moon_illumination=illumination,
+        moon_phase_angle_deg=phase_angle,
+        sun_min_altitude_deg=sun_alt.min(axis=1),
+        sun_max_altitude_deg=sun_alt.max(axis=1),
+    )
+
+
+def _last_ascending(grid, values, level, func):
+    flipped = _first_crossing(grid[:, ::-1], values[:, ::-1], level, func, -1)
+    return flipped
+
+
+def dark_windows_jd(
+    site: SiteProfile, first_night: dt.date, n_nights: int, twilight: str = "nautical"
+) -> np.ndarray:
+    """Dark windows of consecutive nights, shape (n_nights, 2), JD UTC; NaN rows: no darkness."""
+    nights = [first_night + dt.timedelta(days=i) for i in range(n_nights)]
+    start, end = almanac_for_nights(site, nights).dark_window_jd(twilight)
+    return np.column_stack([start, end])
+
+
+def night_almanac_astroplan(site: SiteProfile, night: dt.date) -> Almanac:
+    """One night through astroplan's Observer: the slow, independent path.
+
+    astroplan's rise/set horizon defaults to 0°; the almanac's −0.833° is
+    passed explicitly.  Its ``Observer`` uses no refraction unless given a
+    pressure, so altitudes are geometric, as in the fast path.
+    """
+    import astropy.units as u
+    from astroplan import Observer
+    from astropy.coordinates import EarthLocation
+    from astropy.time import Time
+
+    loc = site.location
+    observer = Observer(
+        location=EarthLocation.from_geodetic(loc.longitude_deg * u.deg, loc.latitude_deg * u.deg, loc.elevation_m * u.m),
+        timezone=loc.timezone,
+    )
+    span_start, span_end = night_spans_jd([night], loc.timezone)
+    t0 = Time(span_start[0], format="jd", scale="utc")
+
+    def within(t):
+        jd = float(np.ma.filled(np.ma.masked_invalid(np.atleast_1d(t.jd)), np.nan)[0]) if t is not None else np.nan
+        return jd if span_start[0] <= jd <= span_end[0] else np.nan
+
+    horizon = SUNRISE_ALTITUDE_DEG * u.deg
+    sunset = within(observer.sun_set_time(t0, which="next", horizon=horizon))
+    after = Time(sunset, format="jd") if np.isfinite(sunset) else t0
+    sunrise = within(observer.sun_rise_time(after, which="next", horizon=horizon))
+    evening, morning = {}, {}
+    for name in TWILIGHTS:
+        h = TWILIGHT_ALTITUDE_DEG[name] * u.deg
+        ev = within(observer.sun_set_time(t0, which="next", horizon=h))
+        start = Time(ev, format="jd") if np.isfinite(ev) else t0
+        mo = within(observer.sun_rise_time(start, which="next", horizon=h))
+        evening[name], morning[name] = np.array([ev]), np.array([mo])
+    m_h = MOONRISE_ALTITUDE_DEG * u.deg
+    moonrise = within(observer.moon_rise_time(t0, which="next", horizon=m_h))
+    moonset = within(observer.moon_set_time(t0, which="next", horizon=m_h))
+    middle = (sunset + sunrise) / 2.0 if np.isfinite(sunset) and np.isfinite(sunrise) else np.nan
+    if not np.isfinite(middle):
+        middle = float(observer.midnight(t0, which="next").jd)
+    t_mid = Time(middle, format="jd")
+    grid = Time(np.linspace(span_start[0], span_end[0], 289), format="jd")
+    sun_alt = observer.sun_altaz(grid).alt.degree
+    return Almanac(
+        nights=(night,),
+        timezone=loc.timezone,
+        span_start_jd=span_start,
+        span_end_jd=span_end,
+        sunset_jd=np.array([sunset]),
+        sunrise_jd=np.array([sunrise]),
+        evening_jd=MappingProxyType(evening),
+        morning_jd=MappingProxyType(morning),
+        moonrise_jd=np.array([moonrise]),
+        moonset_jd=np.array([moonset]),
+        middle_jd=np.array([middle]),
+        moon_illumination=np.array([float(observer.moon_illumination(t_mid))]),
+        moon_phase_angle_deg=np.array([float(observer.moon_phase(t_mid).to_value(u.deg))]),
+        sun_min_altitude_deg=np.array([sun_alt.min()]),
+        sun_max_altitude_deg=np.array([sun_alt.max()]),
+    )

@@ -1,0 +1,91 @@
+"""The ``gcplan`` command line: argument parsing, dispatch and error reporting.
+
+Each sub-command lives in its own module under :mod:`planner.commands` and
+exposes ``register(subparsers)``; the module's ``run(args)`` returns the exit
+status.  Bad input of any kind (:class:`planner.errors.InputError`) becomes one
+line on stderr and exit status 2 — never a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+
+from planner import __version__
+from planner.errors import InputError
+
+# Sub-command modules, in the order ``gcplan --help`` lists them.
+COMMAND_MODULES = (
+    "planner.commands.night",
+    "planner.commands.observability",
+    "planner.commands.demo",
+)
+
+# Options whose values may start with "-" (a southern latitude, a western
+# longitude): "--site -30.2,-70.8,2200" must work as well as "--site=...".
+DASH_VALUE_OPTIONS = ("--site",)
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse, but usage errors follow gcplan's one-line form (exit 2)."""
+
+    def error(self, message: str):  # noqa: D401 - argparse API
+        self.exit(2, f"gcplan: error: {message} (see '{self.prog} --help')\n")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog="gcplan",
+        description=(
+            "Plan photometric campaigns on Galactic globular clusters: the night's "
+            "almanac, what is up and for how long, over a night and a semester."
+        ),
+        epilog=(
+            "Times are UTC internally; text output shows the site's local time and UTC. "
+            "A night is named by its local evening date. The telescope's and the "
+            "observatory's own limits and rules always come before any plan."
+        ),
+    )
+    parser.add_argument("--version", action="version", version=f"gcplan {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    for name in COMMAND_MODULES:
+        importlib.import_module(name).register(sub)
+    return parser
+
+
+def join_dash_values(argv: list[str]) -> list[str]:
+    """Glue ``--site -30,-70`` into ``--site=-30,-70`` so argparse keeps the value."""
+    out: list[str] = []
+    i = 0
+    while i < len(argv):
+        token = argv[i]
+        if token in DASH_VALUE_OPTIONS and i + 1 < len(argv) and argv[i + 1].startswith("-"):
+            out.append(f"{token}={argv[i + 1]}")
+            i += 2
+            continue
+        out.append(token)
+        i += 1
+    return out
+
+
+def main(argv: list[str] | None = None) -> int:
+    argv = list(sys.argv[1:] if argv is None else argv)
+    parser = build_parser()
+    args = parser.parse_args(join_dash_values(argv))
+    if args.command is None:
+        parser.print_help()
+        return 0
+    from planner.config import configure_runtime
+
+    configure_runtime()
+    try:
+        return int(args.run(args) or 0)
+    except InputError as exc:
+        print(f"gcplan: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("gcplan: interrupted", file=sys.stderr)
+        return 130
+    except BrokenPipeError:  # e.g. `gcplan night ... | head`
+        return 0

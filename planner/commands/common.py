@@ -1,0 +1,115 @@
+"""Arguments and output helpers shared by the sub-commands (shell code)."""
+
+from __future__ import annotations
+
+import argparse
+import datetime as dt
+import json
+import math
+import sys
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from planner.errors import DateError, OutputError
+
+
+def add_site_arguments(parser: argparse.ArgumentParser, required: bool = True) -> None:
+    parser.add_argument(
+        "--site",
+        required=required,
+        metavar="SITE",
+        help="site profile: a .toml path, a bundled profile's name (e.g. demo), "
+        "or LAT,LON[,ELEV_M] in degrees, east-positive longitude",
+    )
+    parser.add_argument(
+        "--timezone",
+        metavar="ZONE",
+        help="IANA time zone for a LAT,LON site (default UTC), e.g. America/Santiago",
+    )
+
+
+def site_from_args(args: argparse.Namespace):
+    from planner.sites import resolve_site
+
+    return resolve_site(args.site, getattr(args, "timezone", None))
+
+
+def add_target_arguments(parser: argparse.ArgumentParser, required: bool = True) -> None:
+    parser.add_argument(
+        "--targets",
+        metavar="FILE|all",
+        help="target list (ECSV, CSV or TOML) or 'all' for the bundled cluster catalog",
+    )
+    parser.add_argument(
+        "--target",
+        action="append",
+        default=[],
+        metavar="NAME",
+        help="a cluster by catalog name or alias (repeatable; case and spaces ignored)",
+    )
+
+
+def targets_from_args(args: argparse.Namespace):
+    from planner.catalog import load_catalog
+    from planner.targets import resolve_targets
+
+    return resolve_targets(args.targets, args.target, load_catalog())
+
+
+def add_json_argument(parser: argparse.ArgumentParser) -> None:
+    parser.add_argument("--json", action="store_true", help="machine-readable JSON on stdout")
+
+
+def parse_night_date(text: str, option: str = "--date") -> dt.date:
+    """A night's local evening date, YYYY-MM-DD."""
+    try:
+        return dt.date.fromisoformat(text.strip())
+    except (ValueError, AttributeError):
+        raise DateError(f"{option} must be a date YYYY-MM-DD (got {text!r})") from None
+
+
+def date_range(start: dt.date, end: dt.date, start_option="--start", end_option="--end") -> list[dt.date]:
+    if end < start:
+        raise DateError(f"{end_option} {end} is before {start_option} {start}")
+    n = (end - start).days + 1
+    if n > 3700:
+        raise DateError(f"{start_option}..{end_option} spans {n} nights; at most ten years (3700) at a time")
+    return [start + dt.timedelta(days=i) for i in range(n)]
+
+
+def to_jsonable(obj: Any) -> Any:
+    """Turn core results into JSON: NaN and None become null, numpy scalars become floats."""
+    if isinstance(obj, dict):
+        return {str(k): to_jsonable(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [to_jsonable(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return [to_jsonable(v) for v in obj.tolist()]
+    if isinstance(obj, (np.floating, float)):
+        value = float(obj)
+        return None if math.isnan(value) or math.isinf(value) else value
+    if isinstance(obj, (np.integer,)):
+        return int(obj)
+    if isinstance(obj, np.bool_):
+        return bool(obj)
+    if isinstance(obj, (dt.date, dt.datetime)):
+        return obj.isoformat()
+    return obj
+
+
+def print_json(obj: Any) -> None:
+    json.dump(to_jsonable(obj), sys.stdout, indent=2, ensure_ascii=False, allow_nan=False)
+    sys.stdout.write("\n")
+
+
+def check_output_path(path: str, suffixes: tuple[str, ...], option: str) -> Path:
+    """An output file we can write, with one of the given suffixes."""
+    p = Path(path)
+    if p.suffix.lower() not in suffixes:
+        raise OutputError(f"{option} {path!r} must end in one of {', '.join(suffixes)}")
+    parent = p.parent if str(p.parent) else Path(".")
+    if not parent.is_dir():
+        raise OutputError(f"{option} {path!r}: folder {str(parent)!r} does not exist")
+    return p

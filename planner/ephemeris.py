@@ -1,0 +1,187 @@
+"""Sun, Moon and Earth rotation sampled once over a span, then interpolated.
+
+astropy's ``get_body`` and frame transforms are exact but slow (about 0.2 ms
+per Sun position and 0.5 ms per Moon position); a semester at one-minute
+resolution would take minutes.  Instead we sample, once per site and span:
+
+* the Sun's and the Moon's geocentric apparent places (true equator and
+  equinox of date, astropy's ``TETE`` frame) and distances,
+* UT1 − UTC and the equation of the equinoxes (GAST − GMST),
+
+every :data:`SAMPLE_STEP_D` days, and interpolate them with four-point
+Lagrange polynomials.  Local sidereal time then comes from Meeus eq. 12.4 in
+numpy (:mod:`planner.sidereal`), and the Moon is made topocentric with the
+observer's geocentric vector (its parallax reaches 1°).  Tests hold every
+quantity here to astropy's full AltAz transform and to skyfield/DE421.
+
+The :class:`Ephemeris` object *is* the cache: build it once per site and span
+and pass it in.  Nothing here reads a clock or a file.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from planner.sidereal import SIDEREAL_DEG_PER_DAY, gmst_deg, wrap_180
+
+#: Spacing of the astropy samples, days.  The Moon's largest periodic terms
+#: (the equation of the centre, 6.3° over 27.55 d; the variation, 0.66° over
+#: 14.8 d) leave a four-point interpolation error of about 1e-3° at this step
+#: — 0.3 s of a moonrise; the Sun's error is far smaller.  Tests hold it.
+SAMPLE_STEP_D = 1.0
+
+#: Equatorial radius of the Earth (WGS84), km.
+EARTH_RADIUS_KM = 6378.137
+
+
+@dataclass(frozen=True)
+class SiteGeometry:
+    """The observer, for the kernels: geodetic latitude and the geocentric vector."""
+
+    latitude_deg: float
+    longitude_deg: float  # east-positive
+    rho_cos_phi_km: float  # distance from the Earth's axis
+    rho_sin_phi_km: float  # height above the equatorial plane
+
+
+def site_geometry(latitude_deg: float, longitude_deg: float, elevation_m: float) -> SiteGeometry:
+    """Geocentric components of a geodetic position on the WGS84 ellipsoid (Meeus ch. 11)."""
+    f = 1.0 / 298.257223563
+    phi = np.radians(latitude_deg)
+    b_over_a = 1.0 - f
+    u = np.arctan(b_over_a * np.tan(phi))
+    h_km = elevation_m / 1000.0
+    rho_sin = EARTH_RADIUS_KM * b_over_a * np.sin(u) + h_km * np.sin(phi)
+    rho_cos = EARTH_RADIUS_KM * np.cos(u) + h_km * np.cos(phi)
+    return SiteGeometry(float(latitude_deg), float(longitude_deg), float(rho_cos), float(rho_sin))
+
+
+@dataclass(frozen=True)
+class Ephemeris:
+    """Samples on a uniform grid ``jd0 + k * step_d`` (JD, UTC)."""
+
+    jd0: float
+    step_d: float
+    sun_ra_deg: np.ndarray  # unwrapped (continuous), true equator and equinox of date
+    sun_dec_deg: np.ndarray
+    sun_distance_km: np.ndarray
+    moon_ra_deg: np.ndarray  # geocentric, unwrapped
+    moon_dec_deg: np.ndarray
+    moon_distance_km: np.ndarray
+    dut1_s: np.ndarray  # UT1 − UTC
+    eqeq_deg: np.ndarray  # equation of the equinoxes, GAST − GMST
+
+    @property
+    def jd_end(self) -> float:
+        return self.jd0 + self.step_d * (len(self.dut1_s) - 1)
+
+
+def build_ephemeris(jd_start: float, jd_end: float, step_d: float = SAMPLE_STEP_D) -> Ephemeris:
+    """Sample the Sun, the Moon and the Earth's rotation with astropy over [jd_start, jd_end].
+
+    Two extra samples on each side keep the four-point interpolation centred
+    at the ends.  Dates beyond the bundled IERS table work (astropy warns once,
+    see :func:`planner.config.configure_runtime`).
+    """
+    from astropy.coordinates import TETE, get_body
+    from astropy.time import Time
+
+    n = int(np.ceil((jd_end - jd_start) / step_d)) + 5
+    jd0 = jd_start - 2 * step_d
+    jd = jd0 + step_d * np.arange(n)
+    t = Time(jd, format="jd", scale="utc")
+    frame = TETE(obstime=t)
+    sun = get_body("sun", t).transform_to(frame)
+    moon = get_body("moon", t).transform_to(frame)
+    gmst_astropy = t.sidereal_time("mean", "greenwich").degree
+    gast_astropy = t.sidereal_time("apparent", "greenwich").degree
+    dut1 = (t.ut1.jd1 - t.jd1) + (t.ut1.jd2 - t.jd2)
+    return Ephemeris(
+        jd0=float(jd0),
+        step_d=float(step_d),
+        sun_ra_deg=np.unwrap(sun.ra.degree, period=360.0),
+        sun_dec_deg=sun.dec.degree,
+        sun_distance_km=sun.distance.to_value("km"),
+        moon_ra_deg=np.unwrap(moon.ra.degree, period=360.0),
+        moon_dec_deg=moon.dec.degree,
+        moon_distance_km=moon.distance.to_value("km"),
+        dut1_s=dut1 * 86400.0,
+        eqeq_deg=wrap_180(gast_astropy - gmst_astropy),
+    )
+
+
+def _interpolate(eph: Ephemeris, samples: np.ndarray, jd) -> np.ndarray:
+    """Four-point Lagrange interpolation on the uniform sample grid."""
+    x = (np.asarray(jd, dtype=float) - eph.jd0) / eph.step_d
+    n = len(samples)
+    if np.any((x < 1.0) | (x > n - 2.0)):
+        raise ValueError("time outside the ephemeris span; build it over the whole range")
+    i = np.clip(np.floor(x).astype(int), 1, n - 3)
+    p = x - i
+    # Lagrange weights for nodes i-1, i, i+1, i+2 at offset p from node i.
+    w0 = -p * (p - 1.0) * (p - 2.0) / 6.0
+    w1 = (p + 1.0) * (p - 1.0) * (p - 2.0) / 2.0
+    w2 = -(p + 1.0) * p * (p - 2.0) / 2.0
+    w3 = (p + 1.0) * p * (p - 1.0) / 6.0
+    return w0 * samples[i - 1] + w1 * samples[i] + w2 * samples[i + 1] + w3 * samples[i + 2]
+
+
+def local_sidereal_deg(eph: Ephemeris, jd_utc, longitude_deg: float) -> np.ndarray:
+    """Local apparent sidereal time, degrees [0, 360): Meeus 12.4 + equation of the equinoxes."""
+    jd_utc = np.asarray(jd_utc, dtype=float)
+    jd_ut1 = jd_utc + _interpolate(eph, eph.dut1_s, jd_utc) / 86400.0
+    gast = gmst_deg(jd_ut1) + _interpolate(eph, eph.eqeq_deg, jd_utc)
+    return np.mod(gast + longitude_deg, 360.0)
+
+
+def sun_radec_deg(eph: Ephemeris, jd_utc) -> tuple[np.ndarray, np.ndarray]:
+    """The Sun's geocentric apparent RA and Dec of date (degrees; RA not wrapped)."""
+    return _interpolate(eph, eph.sun_ra_deg, jd_utc), _interpolate(eph, eph.sun_dec_deg, jd_utc)
+
+
+def moon_radec_deg(eph: Ephemeris, geo: SiteGeometry, jd_utc, lst_deg=None):
+    """The Moon's topocentric apparent RA, Dec (degrees) and distance (km) of date.
+
+    The geocentric position minus the observer's geocentric vector, both in
+    the true equatorial frame of date (the observer's right ascension is the
+    local sidereal time).  Polar motion (< 0.5″) is neglected.
+    """
+    jd_utc = np.asarray(jd_utc, dtype=float)
+    if lst_deg is None:
+        lst_deg = local_sidereal_deg(eph, jd_utc, geo.longitude_deg)
+    ra = np.radians(_interpolate(eph, eph.moon_ra_deg, jd_utc))
+    dec = np.radians(_interpolate(eph, eph.moon_dec_deg, jd_utc))
+    dist = _interpolate(eph, eph.moon_distance_km, jd_utc)
+    lst = np.radians(lst_deg)
+    x = dist * np.cos(dec) * np.cos(ra) - geo.rho_cos_phi_km * np.cos(lst)
+    y = dist * np.cos(dec) * np.sin(ra) - geo.rho_cos_phi_km * np.sin(lst)
+    z = dist * np.sin(dec) - geo.rho_sin_phi_km
+    rho = np.sqrt(x * x + y * y + z * z)
+    return np.degrees(np.arctan2(y, x)), np.degrees(np.arcsin(z / rho)), rho
+
+
+def moon_phase(eph: Ephemeris, jd_utc) -> tuple[np.ndarray, np.ndarray]:
+    """Illuminated fraction and phase angle (degrees) of the Moon, geocentric (Meeus 48.2–48.4)."""
+    ra_s, dec_s = (np.radians(v) for v in sun_radec_deg(eph, jd_utc))
+    ra_m = np.radians(_interpolate(eph, eph.moon_ra_deg, jd_utc))
+    dec_m = np.radians(_interpolate(eph, eph.moon_dec_deg, jd_utc))
+    r_sun = _interpolate(eph, eph.sun_distance_km, jd_utc)
+    d_moon = _interpolate(eph, eph.moon_distance_km, jd_utc)
+    cos_psi = np.sin(dec_s) * np.sin(dec_m) + np.cos(dec_s) * np.cos(dec_m) * np.cos(ra_s - ra_m)
+    psi = np.arccos(np.clip(cos_psi, -1.0, 1.0))  # geocentric elongation
+    phase_angle = np.arctan2(r_sun * np.sin(psi), d_moon - r_sun * np.cos(psi))
+    return (1.0 + np.cos(phase_angle)) / 2.0, np.degrees(phase_angle)
+
+
+def hour_angle_deg(lst_deg, ra_deg) -> np.ndarray:
+    """Hour angle in [−180, 180) degrees."""
+    return wrap_180(np.asarray(lst_deg) - np.asarray(ra_deg))
+
+
+def transit_jd(eph: Ephemeris, jd_near, ra_deg, longitude_deg: float) -> np.ndarray:
+    """Upper meridian transit of a fixed RA nearest to ``jd_near`` (closed form, one step)."""
+    lst = local_sidereal_deg(eph, jd_near, longitude_deg)
+    ha = wrap_180(lst - np.asarray(ra_deg))
+    return np.asarray(jd_near) - ha / SIDEREAL_DEG_PER_DAY

@@ -1,0 +1,1 @@
+"""Figures and printed reports (matplotlib); shells over the core."""

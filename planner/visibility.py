@@ -1,0 +1,220 @@
+"""What is up, and for how long: targets × times in one vectorised computation.
+
+The pipeline for one site:
+
+1. :func:`apparent_places` — each target's ICRS position carried to the true
+   equator and equinox of date (precession, nutation, annual aberration) with
+   astropy, at a few epochs; a cluster's apparent place then changes so
+   slowly (aberration: 20″ a year around) that linear interpolation between
+   epochs 15 days apart is good to 0.1″.
+2. :func:`sky_grid` — altitude, azimuth, hour angle, airmass and Moon
+   separation for every target at every time, by spherical trigonometry of
+   the local sidereal time (:mod:`planner.sidereal`); the Sun and Moon come
+   from one :class:`~planner.ephemeris.Ephemeris`.
+3. :func:`constraint_margin_deg` — how far inside all constraints each
+   target-time is; :mod:`planner.windows` turns margins and closed forms into
+   observable hours and windows per night.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from planner.airmass import airmass_kasten_young, altitude_for_airmass
+from planner.almanac import MOONRISE_ALTITUDE_DEG, sun_altitude_deg
+from planner.ephemeris import Ephemeris, SiteGeometry, hour_angle_deg, local_sidereal_deg, moon_radec_deg
+from planner.sidereal import altaz_deg, altitude_deg
+from planner.sites import TWILIGHTS, SiteProfile
+
+#: Apparent places are computed at epochs this far apart (days) and interpolated.
+APPARENT_PLACE_STEP_D = 15.0
+
+
+@dataclass(frozen=True)
+class Constraints:
+    """What makes a target observable.  The altitude limit is the stricter of the two given."""
+
+    min_altitude_deg: float
+    max_airmass: float | None
+    twilight: str
+    min_moon_separation_deg: float
+    horizon_az_deg: tuple[float, ...] = ()
+    horizon_alt_deg: tuple[float, ...] = ()
+
+    @property
+    def altitude_limit_deg(self) -> float:
+        if self.max_airmass is None:
+            return float(self.min_altitude_deg)
+        return float(max(self.min_altitude_deg, altitude_for_airmass(self.max_airmass)))
+
+
+def constraints_for_site(
+    site: SiteProfile,
+    *,
+    twilight: str | None = None,
+    max_airmass: float | None = None,
+    min_altitude_deg: float | None = None,
+    min_moon_separation_deg: float | None = None,
+) -> Constraints:
+    """The site's limits, with any of them overridden (from the command line)."""
+    lim = site.limits
+    if twilight is not None and twilight not in TWILIGHTS:
+        raise ValueError(f"twilight must be one of {', '.join(TWILIGHTS)}")
+    return Constraints(
+        min_altitude_deg=lim.min_altitude_deg if min_altitude_deg is None else float(min_altitude_deg),
+        max_airmass=lim.max_airmass if max_airmass is None else float(max_airmass),
+        twilight=lim.twilight if twilight is None else twilight,
+        min_moon_separation_deg=(
+            lim.min_moon_separation_deg if min_moon_separation_deg is None else float(min_moon_separation_deg)
+        ),
+        horizon_az_deg=tuple(lim.horizon_az_deg),
+        horizon_alt_deg=tuple(lim.horizon_alt_deg),
+    )
+
+
+@dataclass(frozen=True)
+class ApparentPlaces:
+    """Targets' apparent RA/Dec of date (TETE, geocentric) at epochs, shape (targets, epochs)."""
+
+    epochs_jd: np.ndarray
+    ra_deg: np.ndarray  # unwrapped along the epoch axis
+    dec_deg: np.ndarray
+
+    def at(self, jd) -> tuple[np.ndarray, np.ndarray]:
+        """RA, Dec (targets, len(jd)) linearly interpolated to the given times (1-D)."""
+        jd = np.atleast_1d(np.asarray(jd, dtype=float))
+        if len(self.epochs_jd) == 1:
+            return (np.repeat(self.ra_deg, len(jd), axis=1), np.repeat(self.dec_deg, len(jd), axis=1))
+        x = np.clip(np.interp(jd, self.epochs_jd, np.arange(len(self.epochs_jd))), 0, len(self.epochs_jd) - 1)
+        i = np.minimum(np.floor(x).astype(int), len(self.epochs_jd) - 2)
+        p = x - i
+        ra = self.ra_deg[:, i] * (1 - p) + self.ra_deg[:, i + 1] * p
+        dec = self.dec_deg[:, i] * (1 - p) + self.dec_deg[:, i + 1] * p
+        return np.mod(ra, 360.0), dec
+
+
+def apparent_places(ra_icrs_deg, dec_icrs_deg, jd_start: float, jd_end: float) -> ApparentPlaces:
+    """ICRS → apparent place of date for all targets at epochs spanning [jd_start, jd_end]."""
+    import astropy.units as u
+    from astropy.coordinates import TETE, SkyCoord
+    from astropy.time import Time
+
+    n_epochs = max(int(np.ceil((jd_end - jd_start) / APPARENT_PLACE_STEP_D)) + 1, 1)
+    epochs = np.linspace(jd_start, jd_end, n_epochs) if n_epochs > 1 else np.array([0.5 * (jd_start + jd_end)])
+    coords = SkyCoord(np.atleast_1d(ra_icrs_deg) * u.deg, np.atleast_1d(dec_icrs_deg) * u.deg, frame="icrs")
+    t = Time(epochs, format="jd", scale="utc")
+    app = coords[:, None].transform_to(TETE(obstime=t[None, :]))
+    return ApparentPlaces(
+        epochs_jd=epochs,
+        ra_deg=np.unwrap(np.atleast_2d(app.ra.degree), period=360.0, axis=1),
+        dec_deg=np.atleast_2d(app.dec.degree),
+    )
+
+
+@dataclass(frozen=True)
+class SkyGrid:
+    """Targets × times.  Per-target arrays broadcast targets against times
+    (``sky_grid``: (targets, times)); Sun and Moon arrays have the times' shape."""
+
+    jd_utc: np.ndarray
+    altitude_deg: np.ndarray
+    azimuth_deg: np.ndarray  # from north through east
+    hour_angle_deg: np.ndarray  # [−180, 180), west positive
+    airmass: np.ndarray  # Kasten & Young 1989; NaN below the horizon
+    moon_separation_deg: np.ndarray  # from the topocentric Moon
+    sun_altitude_deg: np.ndarray  # (*times.shape)
+    moon_altitude_deg: np.ndarray
+
+
+@dataclass(frozen=True)
+class TimeTrack:
+    """What depends on time alone — sidereal time, Sun, Moon — computed once per set of times."""
+
+    jd_utc: np.ndarray
+    lst_deg: np.ndarray
+    moon_ra_deg: np.ndarray  # topocentric, of date
+    moon_dec_deg: np.ndarray
+    moon_altitude_deg: np.ndarray
+    sun_altitude_deg: np.ndarray
+
+    def rows(self, index) -> "TimeTrack":
+        """The track for a selection along the first axis (e.g. one row per target-night)."""
+        return TimeTrack(*(getattr(self, f)[index] for f in self.__dataclass_fields__))
+
+
+def time_track(eph: Ephemeris, geo: SiteGeometry, jd_utc) -> TimeTrack:
+    jd = np.asarray(jd_utc, dtype=float)
+    lst = local_sidereal_deg(eph, jd, geo.longitude_deg)
+    m_ra, m_dec, _ = moon_radec_deg(eph, geo, jd, lst)
+    return TimeTrack(
+        jd_utc=jd,
+        lst_deg=lst,
+        moon_ra_deg=m_ra,
+        moon_dec_deg=m_dec,
+        moon_altitude_deg=altitude_deg(geo.latitude_deg, m_dec, lst - m_ra),
+        sun_altitude_deg=sun_altitude_deg(eph, geo, jd),
+    )
+
+
+def sky_grid(eph: Ephemeris, geo: SiteGeometry, places: ApparentPlaces, jd_utc) -> SkyGrid:
+    """Everything about every target at every time (1-D ``jd_utc``), in one broadcast computation."""
+    jd = np.atleast_1d(np.asarray(jd_utc, dtype=float))
+    ra, dec = places.at(jd)  # (N, T)
+    return sky_at(time_track(eph, geo, jd), geo.latitude_deg, ra, dec)
+
+
+def sky_at(track: TimeTrack, latitude_deg: float, ra_deg, dec_deg) -> SkyGrid:
+    """Altitude, azimuth, hour angle, airmass and Moon separation where RA/Dec and the track broadcast.
+
+    ``ra_deg``/``dec_deg`` are apparent places of date.
+    """
+    ha = hour_angle_deg(track.lst_deg, ra_deg)
+    alt, az = altaz_deg(latitude_deg, dec_deg, ha)
+    return SkyGrid(
+        jd_utc=track.jd_utc,
+        altitude_deg=alt,
+        azimuth_deg=az,
+        hour_angle_deg=ha,
+        airmass=airmass_kasten_young(alt),
+        moon_separation_deg=angular_separation_deg(ra_deg, dec_deg, track.moon_ra_deg, track.moon_dec_deg),
+        sun_altitude_deg=track.sun_altitude_deg,
+        moon_altitude_deg=track.moon_altitude_deg,
+    )
+
+
+def angular_separation_deg(ra1, dec1, ra2, dec2):
+    """Great-circle separation (degrees), Vincenty's form (stable at all separations)."""
+    ra1, dec1, ra2, dec2 = (np.radians(a) for a in (ra1, dec1, ra2, dec2))
+    d_ra = ra2 - ra1
+    s1, c1, s2, c2 = np.sin(dec1), np.cos(dec1), np.sin(dec2), np.cos(dec2)
+    num = np.hypot(c2 * np.sin(d_ra), c1 * s2 - s1 * c2 * np.cos(d_ra))
+    den = s1 * s2 + c1 * c2 * np.cos(d_ra)
+    return np.degrees(np.arctan2(num, den))
+
+
+def horizon_altitude_deg(constraints: Constraints, azimuth_deg):
+    """The horizon mask's altitude at the given azimuths (0 where no mask is set)."""
+    if not constraints.horizon_az_deg:
+        return np.zeros_like(np.asarray(azimuth_deg, dtype=float))
+    az = np.asarray(constraints.horizon_az_deg, dtype=float)
+    alt = np.asarray(constraints.horizon_alt_deg, dtype=float)
+    return np.interp(np.mod(azimuth_deg, 360.0), az, alt, period=360.0)
+
+
+def constraint_margin_deg(grid: SkyGrid, constraints: Constraints) -> np.ndarray:
+    """How far inside all constraints each target-time is (degrees; ≥ 0 means observable).
+
+    The Moon term is the separation beyond the limit, or — while the Moon is
+    below the horizon — its depth below it, so that the margin stays
+    continuous as the Moon rises (edges are found by interpolating it).
+    """
+    margin = grid.altitude_deg - constraints.altitude_limit_deg
+    if constraints.horizon_az_deg:
+        margin = np.minimum(margin, grid.altitude_deg - horizon_altitude_deg(constraints, grid.azimuth_deg))
+    if constraints.min_moon_separation_deg > 0:
+        moon_down = -(grid.moon_altitude_deg - MOONRISE_ALTITUDE_DEG)
+        moon = np.maximum(grid.moon_separation_deg - constraints.min_moon_separation_deg, moon_down)
+        margin = np.minimum(margin, moon)
+    return margin
