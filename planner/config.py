@@ -2,8 +2,10 @@
 
 astropy's IERS handling is the one global setting gcplan needs: it must never
 download at run time (observers are often offline, and CI has no network), and
-dates beyond the bundled tables (astropy-iers-data) must still work with a
-warning rather than an error.
+dates beyond the bundled tables (astropy-iers-data) must still work.  astropy
+then warns many times per call (leap seconds "dubious year", polar motion
+"defaulting to the 50-yr mean"); gcplan silences those and says it once in
+its own words (see :func:`planner.ephemeris.iers_warning`).
 """
 
 from __future__ import annotations
@@ -12,20 +14,19 @@ import warnings
 
 
 def configure_runtime() -> None:
-    """Set astropy's IERS policy: no downloads; degrade with a warning past the table."""
+    """Set astropy's IERS policy (no downloads, degrade past the table) and quiet its repeats."""
     from astropy.utils import iers
 
     iers.conf.auto_download = False
     iers.conf.auto_max_age = None
     iers.conf.iers_degraded_accuracy = "warn"
-    # astropy repeats the same "beyond the table" warning for every transform;
-    # one per process is enough for a user.
-    warnings.filterwarnings("once", category=iers.IERSDegradedAccuracyWarning)
-    try:
-        from astropy.utils.exceptions import AstropyWarning
-        from erfa import ErfaWarning
+    quiet_astropy_time_warnings()
 
-        warnings.filterwarnings("ignore", message=".*dubious year.*", category=ErfaWarning)
-        del AstropyWarning
-    except ImportError:  # pragma: no cover - erfa always ships with astropy
-        pass
+
+def quiet_astropy_time_warnings() -> None:
+    from astropy.utils import iers
+    from astropy.utils.exceptions import AstropyWarning
+
+    warnings.filterwarnings("ignore", category=iers.IERSWarning)
+    warnings.filterwarnings("ignore", message=".*polar motion.*", category=AstropyWarning)
+    warnings.filterwarnings("ignore", message=".*dubious year.*")

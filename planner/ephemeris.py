@@ -24,6 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from planner.earth_rotation import UT1Table, load_ut1_table, ut1_minus_utc_s
 from planner.sidereal import SIDEREAL_DEG_PER_DAY, gmst_deg, wrap_180
 
 #: Spacing of the astropy samples, days.  The Moon's largest periodic terms
@@ -72,43 +73,75 @@ class Ephemeris:
     moon_distance_km: np.ndarray
     dut1_s: np.ndarray  # UT1 − UTC
     eqeq_deg: np.ndarray  # equation of the equinoxes, GAST − GMST
+    iers_end_jd: float = np.inf  # last date of the IERS table's UT1 values (predictions included)
 
     @property
     def jd_end(self) -> float:
         return self.jd0 + self.step_d * (len(self.dut1_s) - 1)
 
 
-def build_ephemeris(jd_start: float, jd_end: float, step_d: float = SAMPLE_STEP_D) -> Ephemeris:
-    """Sample the Sun, the Moon and the Earth's rotation with astropy over [jd_start, jd_end].
+def build_ephemeris(
+    jd_start: float, jd_end: float, step_d: float = SAMPLE_STEP_D, ut1_table: UT1Table | None = None
+) -> Ephemeris:
+    """Sample the Sun, the Moon and the Earth's rotation over [jd_start, jd_end].
 
     Two extra samples on each side keep the four-point interpolation centred
-    at the ends.  Dates beyond the bundled IERS table work (astropy warns once,
-    see :func:`planner.config.configure_runtime`).
+    at the ends.  The Sun and Moon come from astropy's ``get_body`` (its
+    built-in ephemeris) in the GCRS, rotated to the true equator and equinox
+    of date with ERFA's IAU 2006/2000A bias-precession-nutation matrix — the
+    rotation astropy's ``TETE`` frame applies, without the IERS table reader
+    astropy's transform would also start.  Dates beyond the bundled IERS
+    table work; :func:`iers_warning` says so.
     """
-    from astropy.coordinates import TETE, get_body
+    import erfa
+    from astropy.coordinates import get_body
     from astropy.time import Time
 
+    if ut1_table is None:
+        ut1_table = load_ut1_table()
     n = int(np.ceil((jd_end - jd_start) / step_d)) + 5
     jd0 = jd_start - 2 * step_d
     jd = jd0 + step_d * np.arange(n)
     t = Time(jd, format="jd", scale="utc")
-    frame = TETE(obstime=t)
-    sun = get_body("sun", t).transform_to(frame)
-    moon = get_body("moon", t).transform_to(frame)
-    gmst_astropy = t.sidereal_time("mean", "greenwich").degree
-    gast_astropy = t.sidereal_time("apparent", "greenwich").degree
-    dut1 = (t.ut1.jd1 - t.jd1) + (t.ut1.jd2 - t.jd2)
+    tt = t.tt
+    npb = erfa.pnm06a(tt.jd1, tt.jd2)  # GCRS -> true equator and equinox of date
+    sun_ra, sun_dec, sun_km = _of_date(get_body("sun", t), npb)
+    moon_ra, moon_dec, moon_km = _of_date(get_body("moon", t), npb)
     return Ephemeris(
         jd0=float(jd0),
         step_d=float(step_d),
-        sun_ra_deg=np.unwrap(sun.ra.degree, period=360.0),
-        sun_dec_deg=sun.dec.degree,
-        sun_distance_km=sun.distance.to_value("km"),
-        moon_ra_deg=np.unwrap(moon.ra.degree, period=360.0),
-        moon_dec_deg=moon.dec.degree,
-        moon_distance_km=moon.distance.to_value("km"),
-        dut1_s=dut1 * 86400.0,
-        eqeq_deg=wrap_180(gast_astropy - gmst_astropy),
+        sun_ra_deg=np.unwrap(sun_ra, period=360.0),
+        sun_dec_deg=sun_dec,
+        sun_distance_km=sun_km,
+        moon_ra_deg=np.unwrap(moon_ra, period=360.0),
+        moon_dec_deg=moon_dec,
+        moon_distance_km=moon_km,
+        dut1_s=ut1_minus_utc_s(ut1_table, jd),
+        eqeq_deg=np.degrees(erfa.ee06a(tt.jd1, tt.jd2)),
+        iers_end_jd=ut1_table.end_jd,
+    )
+
+
+def _of_date(coord, npb):
+    """RA, Dec (degrees) and distance (km) of a GCRS coordinate in the true frame of date."""
+    xyz = coord.cartesian.xyz.to_value("km").T  # (n, 3)
+    v = np.einsum("nij,nj->ni", npb, xyz)
+    dist = np.linalg.norm(v, axis=1)
+    ra = np.degrees(np.arctan2(v[:, 1], v[:, 0])) % 360.0
+    dec = np.degrees(np.arcsin(v[:, 2] / dist))
+    return ra, dec, dist
+
+
+def iers_warning(eph: Ephemeris, jd_end: float) -> str | None:
+    """One sentence for users when a span runs past the bundled IERS table, else None."""
+    if jd_end <= eph.iers_end_jd:
+        return None
+    from planner.nights import jd_to_datetime
+
+    end = jd_to_datetime(eph.iers_end_jd)
+    return (
+        f"dates after {end:%Y-%m-%d} are beyond the bundled IERS table: UT1 and polar motion are "
+        "extrapolated, so times may be off by up to a second (update astropy-iers-data)"
     )
 
 

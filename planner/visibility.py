@@ -23,8 +23,15 @@ from dataclasses import dataclass
 import numpy as np
 
 from planner.airmass import airmass_kasten_young, altitude_for_airmass
-from planner.almanac import MOONRISE_ALTITUDE_DEG, sun_altitude_deg
-from planner.ephemeris import Ephemeris, SiteGeometry, hour_angle_deg, local_sidereal_deg, moon_radec_deg
+from planner.almanac import MOONRISE_ALTITUDE_DEG
+from planner.ephemeris import (
+    Ephemeris,
+    SiteGeometry,
+    hour_angle_deg,
+    local_sidereal_deg,
+    moon_radec_deg,
+    sun_radec_deg,
+)
 from planner.sidereal import altaz_deg, altitude_deg
 from planner.sites import TWILIGHTS, SiteProfile
 
@@ -42,6 +49,7 @@ class Constraints:
     min_moon_separation_deg: float
     horizon_az_deg: tuple[float, ...] = ()
     horizon_alt_deg: tuple[float, ...] = ()
+    sun_avoidance_deg: float = 0.0  # never point closer than this to the Sun
 
     @property
     def altitude_limit_deg(self) -> float:
@@ -71,6 +79,7 @@ def constraints_for_site(
         ),
         horizon_az_deg=tuple(lim.horizon_az_deg),
         horizon_alt_deg=tuple(lim.horizon_alt_deg),
+        sun_avoidance_deg=lim.sun_avoidance_deg,
     )
 
 
@@ -96,21 +105,30 @@ class ApparentPlaces:
 
 
 def apparent_places(ra_icrs_deg, dec_icrs_deg, jd_start: float, jd_end: float) -> ApparentPlaces:
-    """ICRS → apparent place of date for all targets at epochs spanning [jd_start, jd_end]."""
+    """ICRS → apparent place of date for all targets at epochs spanning [jd_start, jd_end].
+
+    astropy's ICRS → GCRS transform (annual aberration, light deflection),
+    then ERFA's bias-precession-nutation rotation to the true equator and
+    equinox of date: what astropy's ``TETE`` frame does, without starting its
+    IERS table reader (the rotation needs none).
+    """
     import astropy.units as u
-    from astropy.coordinates import TETE, SkyCoord
+    import erfa
+    from astropy.coordinates import GCRS, SkyCoord
     from astropy.time import Time
 
     n_epochs = max(int(np.ceil((jd_end - jd_start) / APPARENT_PLACE_STEP_D)) + 1, 1)
     epochs = np.linspace(jd_start, jd_end, n_epochs) if n_epochs > 1 else np.array([0.5 * (jd_start + jd_end)])
     coords = SkyCoord(np.atleast_1d(ra_icrs_deg) * u.deg, np.atleast_1d(dec_icrs_deg) * u.deg, frame="icrs")
     t = Time(epochs, format="jd", scale="utc")
-    app = coords[:, None].transform_to(TETE(obstime=t[None, :]))
-    return ApparentPlaces(
-        epochs_jd=epochs,
-        ra_deg=np.unwrap(np.atleast_2d(app.ra.degree), period=360.0, axis=1),
-        dec_deg=np.atleast_2d(app.dec.degree),
-    )
+    gcrs = coords[:, None].transform_to(GCRS(obstime=t[None, :]))
+    xyz = np.moveaxis(gcrs.cartesian.xyz.value, 0, -1)  # (N, E, 3), unit vectors
+    tt = t.tt
+    npb = erfa.pnm06a(tt.jd1, tt.jd2)  # (E, 3, 3)
+    v = np.einsum("eij,nej->nei", npb, xyz)
+    ra = np.degrees(np.arctan2(v[..., 1], v[..., 0])) % 360.0
+    dec = np.degrees(np.arcsin(np.clip(v[..., 2] / np.linalg.norm(v, axis=-1), -1.0, 1.0)))
+    return ApparentPlaces(epochs_jd=epochs, ra_deg=np.unwrap(ra, period=360.0, axis=1), dec_deg=dec)
 
 
 @dataclass(frozen=True)
@@ -124,6 +142,7 @@ class SkyGrid:
     hour_angle_deg: np.ndarray  # [−180, 180), west positive
     airmass: np.ndarray  # Kasten & Young 1989; NaN below the horizon
     moon_separation_deg: np.ndarray  # from the topocentric Moon
+    sun_separation_deg: np.ndarray
     sun_altitude_deg: np.ndarray  # (*times.shape)
     moon_altitude_deg: np.ndarray
 
@@ -137,6 +156,8 @@ class TimeTrack:
     moon_ra_deg: np.ndarray  # topocentric, of date
     moon_dec_deg: np.ndarray
     moon_altitude_deg: np.ndarray
+    sun_ra_deg: np.ndarray
+    sun_dec_deg: np.ndarray
     sun_altitude_deg: np.ndarray
 
     def rows(self, index) -> "TimeTrack":
@@ -148,13 +169,16 @@ def time_track(eph: Ephemeris, geo: SiteGeometry, jd_utc) -> TimeTrack:
     jd = np.asarray(jd_utc, dtype=float)
     lst = local_sidereal_deg(eph, jd, geo.longitude_deg)
     m_ra, m_dec, _ = moon_radec_deg(eph, geo, jd, lst)
+    s_ra, s_dec = sun_radec_deg(eph, jd)
     return TimeTrack(
         jd_utc=jd,
         lst_deg=lst,
         moon_ra_deg=m_ra,
         moon_dec_deg=m_dec,
         moon_altitude_deg=altitude_deg(geo.latitude_deg, m_dec, lst - m_ra),
-        sun_altitude_deg=sun_altitude_deg(eph, geo, jd),
+        sun_ra_deg=s_ra,
+        sun_dec_deg=s_dec,
+        sun_altitude_deg=altitude_deg(geo.latitude_deg, s_dec, lst - s_ra),
     )
 
 
@@ -179,6 +203,7 @@ def sky_at(track: TimeTrack, latitude_deg: float, ra_deg, dec_deg) -> SkyGrid:
         hour_angle_deg=ha,
         airmass=airmass_kasten_young(alt),
         moon_separation_deg=angular_separation_deg(ra_deg, dec_deg, track.moon_ra_deg, track.moon_dec_deg),
+        sun_separation_deg=angular_separation_deg(ra_deg, dec_deg, track.sun_ra_deg, track.sun_dec_deg),
         sun_altitude_deg=track.sun_altitude_deg,
         moon_altitude_deg=track.moon_altitude_deg,
     )
@@ -217,4 +242,6 @@ def constraint_margin_deg(grid: SkyGrid, constraints: Constraints) -> np.ndarray
         moon_down = -(grid.moon_altitude_deg - MOONRISE_ALTITUDE_DEG)
         moon = np.maximum(grid.moon_separation_deg - constraints.min_moon_separation_deg, moon_down)
         margin = np.minimum(margin, moon)
+    if constraints.sun_avoidance_deg > 0:
+        margin = np.minimum(margin, grid.sun_separation_deg - constraints.sun_avoidance_deg)
     return margin

@@ -6,9 +6,10 @@ hour angle grows linearly with time, and it is above an altitude limit while
 hour-angle intervals with the night's dark window gives exact altitude
 windows for all targets × nights in a few array operations.
 
-Only two constraints have no closed form: the Moon (it moves, and rises and
-sets) and a horizon mask (an azimuth-dependent limit).  A cheap hourly check
-picks the target-nights where either could bite; only those are sampled on a
+Three constraints have no closed form here: the Moon (it moves, and rises and
+sets), a horizon mask (an azimuth-dependent limit) and sun avoidance (which
+binds only in twilight).  A cheap hourly check picks the target-nights where
+any of them could bite; only those are sampled on a
 fine grid (:data:`GRID_STEP_MIN`), with each edge placed where the straight
 line between a failing and a passing sample of the constraint margin crosses
 zero — within a few seconds of the exact edge for a 5-minute step.
@@ -21,8 +22,15 @@ from dataclasses import dataclass
 import numpy as np
 
 from planner.airmass import airmass_kasten_young
-from planner.almanac import MOONRISE_ALTITUDE_DEG, Almanac
-from planner.ephemeris import Ephemeris, SiteGeometry, local_sidereal_deg, moon_radec_deg, transit_jd
+from planner.almanac import MOONRISE_ALTITUDE_DEG, TWILIGHT_ALTITUDE_DEG, Almanac
+from planner.ephemeris import (
+    Ephemeris,
+    SiteGeometry,
+    local_sidereal_deg,
+    moon_radec_deg,
+    sun_radec_deg,
+    transit_jd,
+)
 from planner.sidereal import (
     SIDEREAL_DEG_PER_DAY,
     altitude_deg,
@@ -115,6 +123,15 @@ def visibility_for_nights(
     m_alt = altitude_deg(geo.latitude_deg, m_dec, lst_c - m_ra)
     sep_c = angular_separation_deg(ra[..., None], dec[..., None], m_ra[None], m_dec[None])  # (N, M, C)
     need = np.zeros(ra.shape, dtype=bool)
+    # A target above the altitude limit is at least limit − (Sun's altitude)
+    # from the Sun, and in the dark window the Sun is below the twilight's
+    # level: only a larger avoidance angle can ever bind.
+    sun_floor = limit - TWILIGHT_ALTITUDE_DEG[constraints.twilight]
+    if constraints.sun_avoidance_deg > sun_floor:
+        # The Sun moves about 1° a day against the stars: hourly samples need little slack.
+        s_ra, s_dec = sun_radec_deg(eph, coarse_jd)
+        sun_sep = angular_separation_deg(ra[..., None], dec[..., None], s_ra[None], s_dec[None])
+        need |= sun_sep.min(axis=-1) < constraints.sun_avoidance_deg + 1.0
     if constraints.min_moon_separation_deg > 0:
         moon_margin = np.maximum(sep_c - constraints.min_moon_separation_deg, -(m_alt - MOONRISE_ALTITUDE_DEG)[None])
         # Between hourly samples the Moon's altitude changes by up to ~15°,

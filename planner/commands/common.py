@@ -80,27 +80,34 @@ def date_range(start: dt.date, end: dt.date, start_option="--start", end_option=
 
 
 def to_jsonable(obj: Any) -> Any:
-    """Turn core results into JSON: NaN and None become null, numpy scalars become floats."""
-    if isinstance(obj, dict):
+    """Turn core results into JSON: NaN and None become null, numpy scalars plain numbers."""
+    t = type(obj)
+    if t is float:
+        return obj if math.isfinite(obj) else None
+    if obj is None or t in (str, int, bool):
+        return obj
+    if t is dict:
         return {str(k): to_jsonable(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
+    if t in (list, tuple):
         return [to_jsonable(v) for v in obj]
     if isinstance(obj, np.ndarray):
         return [to_jsonable(v) for v in obj.tolist()]
     if isinstance(obj, (np.floating, float)):
         value = float(obj)
-        return None if math.isnan(value) or math.isinf(value) else value
-    if isinstance(obj, (np.integer,)):
+        return value if math.isfinite(value) else None
+    if isinstance(obj, np.integer):
         return int(obj)
     if isinstance(obj, np.bool_):
         return bool(obj)
     if isinstance(obj, (dt.date, dt.datetime)):
         return obj.isoformat()
+    if isinstance(obj, dict):
+        return {str(k): to_jsonable(v) for k, v in obj.items()}
     return obj
 
 
 def print_json(obj: Any) -> None:
-    json.dump(to_jsonable(obj), sys.stdout, indent=2, ensure_ascii=False, allow_nan=False)
+    sys.stdout.write(json.dumps(to_jsonable(obj), indent=2, ensure_ascii=False, allow_nan=False))
     sys.stdout.write("\n")
 
 
@@ -113,3 +120,9 @@ def check_output_path(path: str, suffixes: tuple[str, ...], option: str) -> Path
     if not parent.is_dir():
         raise OutputError(f"{option} {path!r}: folder {str(parent)!r} does not exist")
     return p
+
+
+def warn_all(messages) -> None:
+    """Warnings for the user: one line each on stderr (stdout stays clean for --json)."""
+    for message in messages:
+        print(f"gcplan: warning: {message}", file=sys.stderr)

@@ -1,0 +1,67 @@
+"""UT1 − UTC from the IERS table that astropy-iers-data ships (never downloaded).
+
+astropy reads the same file (``finals2000A.all``) and merges it with the
+IERS-B series through its general table reader, which costs about 0.8 s per
+process — more than a whole semester of gcplan's visibility.  Sidereal time
+needs only UT1 − UTC, so gcplan reads just the two columns it needs with a
+fixed-width slice (the file's format is IERS's published one: MJD in columns
+8–15, Bulletin A UT1 − UTC in columns 59–68) and interpolates UT1 − TAI,
+which, unlike UT1 − UTC, has no leap-second steps.  Tests hold the result to
+astropy's ``Time.ut1``.
+
+Beyond the table's last value (predictions reach about a year ahead) UT1 − UTC
+is held at that value: the error grows by up to ~1 ms a day, under a second
+for a couple of years, and the commands say so once.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+
+@dataclass(frozen=True)
+class UT1Table:
+    mjd: np.ndarray  # days, UTC
+    ut1_minus_tai_s: np.ndarray  # smooth: UT1 − UTC − (TAI − UTC)
+
+    @property
+    def end_jd(self) -> float:
+        return float(self.mjd[-1] + 2400000.5)
+
+
+def tai_minus_utc_s(jd_utc) -> np.ndarray:
+    """TAI − UTC (leap seconds so far) at UTC Julian dates, from erfa's built-in table."""
+    from astropy.time import Time
+
+    t = Time(np.asarray(jd_utc, dtype=float), format="jd", scale="utc")
+    tai = t.tai
+    return ((tai.jd1 - t.jd1) + (tai.jd2 - t.jd2)) * 86400.0
+
+
+def load_ut1_table(path: str | Path | None = None) -> UT1Table:
+    """Read MJD and UT1 − UTC (Bulletin A) from the bundled ``finals2000A.all``."""
+    if path is None:
+        from astropy.utils import iers
+
+        path = iers.IERS_A_FILE
+    mjd, dut1 = [], []
+    with open(path, "rb") as f:
+        for line in f:
+            value = line[58:68].strip()
+            if not value:
+                continue  # rows past the predictions carry no UT1 value
+            mjd.append(float(line[7:15]))
+            dut1.append(float(value))
+    mjd_a = np.array(mjd)
+    dut1_a = np.array(dut1)
+    return UT1Table(mjd=mjd_a, ut1_minus_tai_s=dut1_a - tai_minus_utc_s(mjd_a + 2400000.5))
+
+
+def ut1_minus_utc_s(table: UT1Table, jd_utc) -> np.ndarray:
+    """UT1 − UTC (s) at UTC Julian dates; held at the last value past the table."""
+    jd = np.asarray(jd_utc, dtype=float)
+    smooth = np.interp(jd - 2400000.5, table.mjd, table.ut1_minus_tai_s)
+    return smooth + tai_minus_utc_s(jd)
