@@ -19,6 +19,7 @@ from planner.errors import InputError
 COMMAND_MODULES = (
     "planner.commands.night",
     "planner.commands.observability",
+    "planner.commands.expose",
     "planner.commands.demo",
 )
 
@@ -26,13 +27,11 @@ COMMAND_MODULES = (
 # longitude): "--site -30.2,-70.8,2200" must work as well as "--site=...".
 DASH_VALUE_OPTIONS = ("--site",)
 
-
 class _Parser(argparse.ArgumentParser):
     """argparse, but usage errors follow gcplan's one-line form (exit 2)."""
 
     def error(self, message: str):  # noqa: D401 - argparse API
         self.exit(2, f"gcplan: error: {message} (see '{self.prog} --help')\n")
-
 
 def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(
@@ -53,7 +52,6 @@ def build_parser() -> argparse.ArgumentParser:
         importlib.import_module(name).register(sub)
     return parser
 
-
 def join_dash_values(argv: list[str]) -> list[str]:
     """Glue ``--site -30,-70`` into ``--site=-30,-70`` so argparse keeps the value."""
     out: list[str] = []
@@ -67,7 +65,6 @@ def join_dash_values(argv: list[str]) -> list[str]:
         out.append(token)
         i += 1
     return out
-
 
 def main(argv: list[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)

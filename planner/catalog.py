@@ -1,0 +1,210 @@
+"""The bundled Milky Way globular cluster catalog and lookups by name.
+
+The catalog (``targets/globular_clusters.ecsv``) lists the 157 clusters of
+Harris 1996 (2010 edition) with Baumgardt & Vasiliev 2021 distances where
+available; its ECSV header says where every column comes from.  This module
+reads it into frozen dataclasses and answers "which cluster is this name?".
+
+Names are compared after :func:`normalize_name`, which ignores case, spaces,
+hyphens, underscores, dots and leading zeros, and reads a few long forms:
+"Messier 13" = "M13" = "m 13"; "NGC0104" = "NGC 104"; "47Tuc" = "47 Tucanae";
+"ω Cen" = "omega Centauri".
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import re
+import unicodedata
+from dataclasses import dataclass, field
+from pathlib import Path
+from types import MappingProxyType
+from typing import Any, Mapping
+
+from planner.errors import CatalogError
+from planner.resources import catalog_path
+
+#: Columns the catalog file must have (units in the names, as in the dataclass).
+REQUIRED_COLUMNS = (
+    "name",
+    "aliases",
+    "ra_deg",
+    "dec_deg",
+    "distance_kpc",
+    "distance_modulus_mag",
+    "ebv_mag",
+    "feh_dex",
+    "half_light_radius_arcmin",
+    "v_mag",
+)
+
+
+@dataclass(frozen=True)
+class ClusterEntry:
+    name: str  # primary identification as Harris writes it, e.g. "NGC 104", "Pal 5"
+    aliases: tuple[str, ...]  # e.g. ("M 13",), ("47 Tuc",); () if none
+    ra_deg: float  # ICRS
+    dec_deg: float
+    distance_kpc: float | None
+    distance_modulus_mag: float | None  # true modulus, 5 log10(d / 10 pc)
+    ebv_mag: float | None  # E(B-V)
+    feh_dex: float | None  # [Fe/H]
+    half_light_radius_arcmin: float | None
+    v_mag: float | None  # integrated V_t
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        """The primary name followed by the aliases."""
+        return (self.name, *self.aliases)
+
+
+@dataclass(frozen=True)
+class Catalog:
+    """Cluster entries and a lookup from normalised names to them.
+
+    ``index`` is built from ``entries`` when the catalog is made (by
+    :func:`load_catalog` or directly); two entries answering to the same
+    normalised name are an error.
+    """
+
+    entries: tuple[ClusterEntry, ...]
+    index: Mapping[str, ClusterEntry] = field(
+        default_factory=lambda: MappingProxyType({}), repr=False, compare=False
+    )
+
+    def __post_init__(self) -> None:
+        if self.index or not self.entries:
+            return
+        index: dict[str, ClusterEntry] = {}
+        for entry in self.entries:
+            for spelling in entry.names:
+                key = normalize_name(spelling)
+                other = index.get(key)
+                if other is not None and other is not entry:
+                    raise CatalogError(
+                        f"name {spelling!r} of {entry.name!r} is also a name of {other.name!r}; "
+                        "every name and alias must be unique"
+                    )
+                index[key] = entry
+        object.__setattr__(self, "index", MappingProxyType(index))
+
+    def lookup(self, name: str) -> ClusterEntry | None:
+        """The entry with this name or alias (spacing, case etc. ignored), or None."""
+        return self.index.get(normalize_name(name))
+
+    def suggestions(self, name: str, n: int = 3) -> list[str]:
+        """Up to ``n`` catalog names or aliases that look like ``name``, closest first."""
+        spellings: dict[str, str] = {}
+        for entry in self.entries:
+            for spelling in entry.names:
+                spellings.setdefault(normalize_name(spelling), spelling)
+        close = difflib.get_close_matches(normalize_name(name), list(spellings), n=n, cutoff=0.6)
+        return [spellings[key] for key in close]
+
+
+# Long forms read as the short forms Harris uses.  Genitives only for the two
+# clusters whose common names carry one ("47 Tuc", "omega Cen").
+_LONG_FORMS = (
+    (re.compile(r"^messier(?=\d)"), "m"),
+    (re.compile(r"centauri$"), "cen"),
+    (re.compile(r"tucanae$"), "tuc"),
+)
+_SEPARATORS = re.compile(r"[\s\-_.]+")
+_LEADING_ZEROS = re.compile(r"(?<!\d)0+(?=\d)")
+
+
+def normalize_name(name: str) -> str:
+    """A key for comparing cluster names.
+
+    Case, whitespace, hyphens, underscores and dots are ignored, as are leading
+    zeros of numbers; "Messier N" reads as "M N", "ω"/"Ω" as "omega", and the
+    genitives "Centauri"/"Tucanae" as "Cen"/"Tuc".
+
+    Examples
+    --------
+    >>> normalize_name("Messier 13") == normalize_name("m13")
+    True
+    >>> normalize_name("NGC0104") == normalize_name("NGC 104")
+    True
+    >>> normalize_name("ω Centauri") == normalize_name("omega Cen")
+    True
+    """
+    text = unicodedata.normalize("NFKC", str(name)).casefold().replace("ω", "omega")
+    text = _SEPARATORS.sub("", text)
+    text = _LEADING_ZEROS.sub("", text)
+    for pattern, short in _LONG_FORMS:
+        text = pattern.sub(short, text)
+    return text
+
+
+def _float_column(table: Any, column: str, source: str) -> list[float | None]:
+    """A numeric column as floats, None where masked or NaN."""
+    import numpy as np
+
+    try:
+        values = np.ma.filled(np.ma.asarray(table[column]).astype(float), np.nan)
+    except (TypeError, ValueError):
+        raise CatalogError(f"column {column}: values are not numbers", source=source) from None
+    return [None if math.isnan(v) else float(v) for v in values.tolist()]
+
+
+def _text_column(table: Any, column: str) -> list[str]:
+    """A text column as stripped strings, "" where masked."""
+    import numpy as np
+
+    return [str(v).strip() for v in np.ma.filled(np.ma.asarray(table[column]).astype(str), "").tolist()]
+
+
+def load_catalog(path: Path | None = None) -> Catalog:
+    """Read the cluster catalog (ECSV) into a :class:`Catalog`.
+
+    Parameters
+    ----------
+    path : pathlib.Path, optional
+        The ECSV file; default the bundled one (:func:`planner.resources.catalog_path`).
+
+    Raises
+    ------
+    planner.errors.CatalogError
+        If the file is missing or unreadable, lacks a required column, has a row
+        without a valid name or position, or two rows share a name or alias.
+    """
+    from astropy.table import Table
+
+    path = Path(path) if path is not None else catalog_path()
+    source = str(path)
+    if not path.is_file():
+        raise CatalogError("cluster catalog not found (expected an ECSV file)", source=source)
+    try:
+        table = Table.read(path, format="ascii.ecsv")
+    except Exception as exc:  # astropy raises many types for a malformed file
+        raise CatalogError(f"cannot read the cluster catalog as ECSV: {exc}", source=source) from None
+    missing = [c for c in REQUIRED_COLUMNS if c not in table.colnames]
+    if missing:
+        raise CatalogError(f"missing column(s) {', '.join(missing)}", source=source)
+
+    names = _text_column(table, "name")
+    aliases = _text_column(table, "aliases")
+    numbers = {c: _float_column(table, c, source) for c in REQUIRED_COLUMNS[2:]}
+    entries = []
+    for i, name in enumerate(names):
+        row = i + 1
+        if not name:
+            raise CatalogError(f"row {row}, column name: empty", source=source)
+        ra, dec = numbers["ra_deg"][i], numbers["dec_deg"][i]
+        if ra is None or not 0.0 <= ra < 360.0:
+            raise CatalogError(f"row {row} ({name}), column ra_deg: {ra} is outside 0..360", source=source)
+        if dec is None or not -90.0 <= dec <= 90.0:
+            raise CatalogError(f"row {row} ({name}), column dec_deg: {dec} is outside -90..90", source=source)
+        entries.append(
+            ClusterEntry(
+                name=name,
+                aliases=tuple(a.strip() for a in aliases[i].split(";") if a.strip()),
+                **{c: numbers[c][i] for c in REQUIRED_COLUMNS[2:]},
+            )
+        )
+    try:
+        return Catalog(tuple(entries))
+    except CatalogError as exc:
+        raise CatalogError(exc.detail, source=source) from None

@@ -1,0 +1,196 @@
+"""``gcplan expose``: how long to expose, in how many frames, to reach an S/N at a level."""
+
+from __future__ import annotations
+
+import dataclasses
+import textwrap
+
+import numpy as np
+
+from planner.commands import common
+from planner.photometry import LEVEL_NAMES, LEVELS, LevelError
+
+PLOT_SUFFIXES = (".png", ".pdf", ".svg")
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "expose",
+        help="exposure time and frames for an S/N at the RGB tip, the HB, the turnoff or a magnitude",
+        description="Exposure for a target S/N in one filter: the CCD equation with the site's "
+        "telescope, camera and sky, the Moon from Krisciunas & Schaefer (1991), frames kept "
+        "below the linearity limit of the level's brightest stars.  Twilight is not modelled: "
+        "the times assume astronomical night.",
+    )
+    common.add_site_arguments(p)
+    p.add_argument("--filter", required=True, metavar="F", help="filter name as in the site profile, e.g. V")
+    what = p.add_argument_group("what to reach (--mag, or --target with --level)")
+    what.add_argument("--mag", type=float, metavar="M", help="magnitude of the star, as observed (with extinction)")
+    what.add_argument("--target", metavar="NAME", help="cluster by catalog name or alias, e.g. 'NGC 6397'")
+    what.add_argument("--level", choices=LEVELS, help="science level of the cluster: tip, hb or turnoff")
+    p.add_argument("--snr", type=float, required=True, metavar="X", help="S/N goal for the stacked frames")
+    cond = p.add_argument_group("conditions (defaults: the site's typical seeing, airmass 1.2, no Moon)")
+    cond.add_argument("--seeing", type=float, metavar="FWHM", help="seeing FWHM on the frame, arcsec")
+    cond.add_argument("--airmass", type=float, default=1.2, metavar="X", help="airmass (default 1.2)")
+    cond.add_argument("--moon-illumination", type=float, default=0.0, metavar="0..1",
+                      help="illuminated fraction of the Moon (default 0)")
+    cond.add_argument("--moon-separation", type=float, default=90.0, metavar="DEG",
+                      help="Moon-target distance, degrees (default 90)")
+    cond.add_argument("--moon-altitude", type=float, default=-90.0, metavar="DEG",
+                      help="Moon's altitude, degrees (default -90: below the horizon)")
+    p.add_argument("--shortest-period", type=float, metavar="DAYS",
+                   help="flag frames longer than 1%% of this period (phase smearing); "
+                   "default 0.2 d for --level hb (the shortest RR Lyrae periods)")
+    common.add_json_argument(p)
+    p.add_argument("--plot", metavar="FILE", help="S/N against frame time, saturation marked (.png/.pdf/.svg)")
+    p.set_defaults(run=run)
+
+
+# Catelan & Cortés 2008: RR Lyrae periods lie within 0.2–1.0 d.
+SHORTEST_RR_LYRAE_PERIOD_D = 0.2
+
+
+def _level_from_args(args, band):
+    from planner.photometry import science_level, user_level
+
+    if args.mag is not None:
+        if args.level is not None:
+            raise LevelError("give either --mag or --level, not both")
+        return user_level(args.mag, band, args.target), None
+    if args.target is None or args.level is None:
+        raise LevelError("say what to reach: --mag M, or --target NAME with --level tip|hb|turnoff")
+    from planner.catalog import load_catalog
+    from planner.targets import targets_from_names
+
+    target = targets_from_names([args.target], load_catalog())[0]
+    return science_level(target, args.level, band), target
+
+
+def plan_from_args(args, site):
+    """The exposure plan (and extra JSON fields) for parsed ``args`` at ``site``."""
+    from planner.exposure import band_setup, exposure_for_level, saturation_time_s
+    from planner.photometry import science_level
+
+    setup = band_setup(site, args.filter)
+    level, target = _level_from_args(args, setup.band)
+    period = args.shortest_period
+    if period is None and level.level == "hb":
+        period = SHORTEST_RR_LYRAE_PERIOD_D
+    conditions = dict(airmass=args.airmass, seeing_fwhm_arcsec=args.seeing, moon_illumination=args.moon_illumination,
+                      moon_separation_deg=args.moon_separation, moon_altitude_deg=args.moon_altitude)
+    plan = exposure_for_level(site, args.filter, level, args.snr, shortest_period_d=period, **conditions)
+    extra = {"band": setup.band, "level_name": LEVEL_NAMES[level.level], "calibration": level.calibration,
+             "colour_source": level.colour_source, "absolute_mag": level.absolute_mag,
+             "interstellar_extinction_mag": level.extinction_mag, "rule_of_thumb": level.rule_of_thumb,
+             "shortest_period_d": period, "tip_saturation_s": None, "twilight": "not modelled (astronomical night)"}
+    if target is not None and level.level != "tip":
+        try:
+            tip = science_level(target, "tip", setup.band)
+        except LevelError:
+            tip = None
+        if tip is not None:
+            t_sat = float(saturation_time_s(site, args.filter, tip.magnitude, **conditions))
+            extra["tip_saturation_s"] = t_sat
+            if plan.frame_s > t_sat:
+                plan = dataclasses.replace(plan, warnings=plan.warnings + (
+                    f"the RGB tip stars ({setup.band} = {tip.magnitude:.1f}) saturate after {t_sat:.2g} s: "
+                    "the brightest giants will be saturated in these frames",))
+    return plan, level, target, extra
+
+
+def run(args) -> int:
+    site = common.site_from_args(args)
+    plot_path = common.check_output_path(args.plot, PLOT_SUFFIXES, "--plot") if args.plot else None
+    plan, level, target, extra = plan_from_args(args, site)
+    if args.json:
+        common.print_json({**dataclasses.asdict(plan), **extra})
+    else:
+        print(expose_text(plan, level, target, site))
+    if plot_path is not None:
+        write_plot(plot_path, plan, site, args)
+        if not args.json:
+            print(f"\nplot written to {plot_path}")
+    return 0
+
+
+def write_plot(path, plan, site, args):
+    from planner.exposure import snr_of_exposure
+    from planner.reports.exposure_plot import save_snr_plot
+
+    c = plan.inputs
+    lo = 0.1 * min(plan.frame_s, plan.saturation_s or plan.frame_s, c.min_exposure_s or plan.frame_s)
+    hi = 10.0 * max(plan.single_frame_s, plan.frame_s, plan.saturation_s or 0.0)
+    times = np.geomspace(max(lo, 1e-3), hi, 200)
+    snr = snr_of_exposure(site, plan.filter, plan.magnitude, times, airmass=c.airmass,
+                          seeing_fwhm_arcsec=c.seeing_fwhm_arcsec, moon_illumination=c.moon_illumination,
+                          moon_separation_deg=c.moon_separation_deg, moon_altitude_deg=c.moon_altitude_deg)
+    what = f"{plan.target}, {LEVEL_NAMES[plan.level]}" if plan.target else LEVEL_NAMES[plan.level]
+    return save_snr_plot(path, times, snr, snr_goal=plan.snr_goal, saturation_s=plan.saturation_s,
+                         frame_s=plan.frame_s, frames=plan.frames, min_exposure_s=c.min_exposure_s,
+                         title=f"{what}: {plan.filter} = {plan.magnitude:.2f}, {site.name}")
+
+
+# ------------------------------------------------------------------ the note
+
+def duration(seconds: float) -> str:
+    """45 s, 2.5 s, 4 min 07 s, 1 h 12 min."""
+    if seconds < 10:
+        return f"{seconds:.3g} s"
+    if seconds < 60:
+        return f"{seconds:.0f} s"
+    if seconds < 3600:
+        m, s = divmod(int(round(seconds)), 60)
+        return f"{m} min {s:02d} s"
+    h, m = divmod(int(round(seconds / 60)), 60)
+    return f"{h} h {m:02d} min"
+
+
+def _moon_words(c) -> str:
+    if c.moon_altitude_deg <= 0:
+        return "Moon below the horizon"
+    if c.moon_illumination == 0:
+        return "new Moon"
+    return (f"Moon {c.moon_illumination:.0%} lit, {c.moon_altitude_deg:.0f} deg up, "
+            f"{c.moon_separation_deg:.0f} deg away")
+
+
+def expose_text(plan, level, target, site, width: int = 78) -> str:
+    """The observer's note: the level, the sky, the frames to take, what to watch."""
+    c, f = plan.inputs, plan.filter
+    paragraphs = []
+    if level.level == "user":
+        paragraphs.append(f"{plan.target + ': ' if plan.target else ''}a star of {f} = {plan.magnitude:.2f} "
+                          "(as given).")
+    else:
+        thumb = " (rule of thumb)" if level.rule_of_thumb else ""
+        paragraphs.append(
+            f"{plan.target}, {LEVEL_NAMES[level.level]} in {f}: {f} = {plan.magnitude:.2f}{thumb}. "
+            f"M_{plan.band} = {level.absolute_mag:+.2f} ({level.calibration}; {level.colour_source}); "
+            f"(m-M)0 = {target.distance_modulus_mag:.2f}, E(B-V) = {target.ebv_mag:.2f}, "
+            f"A_{plan.band} = {level.extinction_mag:.2f} (Schlafly & Finkbeiner 2011).")
+    paragraphs.append(
+        f"Sky: {f} = {plan.sky_mag_arcsec2:.2f} mag/arcsec2 at airmass {c.airmass:.2f} ({_moon_words(c)}; "
+        f"dark zenith sky {c.dark_sky_mag_arcsec2:.2f}); seeing {c.seeing_fwhm_arcsec:.2f}\".")
+    paragraphs.append(
+        f"Take {plan.frames} x {plan.frame_s:g} s in {f}: {duration(plan.exposure_s)} on the star, "
+        f"{duration(plan.elapsed_s)} with readout; S/N {plan.snr_reached:.0f} (goal {plan.snr_goal:g}).")
+    if plan.saturation_s is not None:
+        who = "the star" if level.level == "user" else "the level's brightest stars"
+        if plan.saturation_magnitude != plan.magnitude:
+            who += f" ({f} = {plan.saturation_magnitude:.2f})"
+        paragraphs.append(f"Saturation: the peak pixel of {who} reaches the linearity limit "
+                          f"({c.linearity_limit_e:.0f} e-) after {duration(plan.saturation_s)}.")
+    paragraphs.append(
+        f"Aperture radius {plan.aperture_radius_arcsec:.2f}\" "
+        f"({plan.aperture_radius_arcsec / c.pixel_scale_arcsec:.1f} px) holds {plan.enclosed_fraction:.0%} "
+        f"of the light; star {plan.source_e_per_s:.3g} e-/s, sky {plan.sky_e_per_s_per_pixel:.3g} e-/s "
+        f"per pixel, peak pixel {plan.peak_fraction:.1%} of the star.")
+    paragraphs += [f"Note: {w}." for w in plan.warnings]
+    paragraphs.append(f"Site {site.name}; twilight is not included (astronomical night assumed).")
+    return "\n".join(_fill(p, width) for p in paragraphs)
+
+
+def _fill(paragraph: str, width: int) -> str:
+    # keep "E(B-V) = 0.04" and "goal 300" on one line: join them with no-break spaces while wrapping
+    glued = paragraph.replace(" = ", "\xa0=\xa0").replace("(goal ", "(goal\xa0")
+    return textwrap.fill(glued, width=width, subsequent_indent="  ").replace("\xa0", " ")
