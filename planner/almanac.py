@@ -16,9 +16,10 @@ Two paths give the same :class:`Almanac`:
   10-minute grid over each night; crossings are bracketed on the grid and
   refined by regula falsi (Illinois variant) to well under a second.
 * :func:`night_almanac_astroplan` — one night through astroplan's ``Observer``
-  (exact, but about 0.02 s per twilight and 0.08 s per moonrise).  Tests hold
-  the fast path to it within a minute; ``gcplan night`` uses the fast path so
-  that one night and a semester never disagree.
+  (slower: about 0.02 s per twilight and 0.08 s per moonrise at its default
+  resolution).  Tests hold the fast path to it within a minute; ``gcplan
+  night`` uses the fast path too, so that one night and a semester never
+  disagree.
 """
 
 from __future__ import annotations
@@ -242,7 +243,11 @@ def night_almanac_astroplan(site: SiteProfile, night: dt.date) -> Almanac:
 
     astroplan's rise/set horizon defaults to 0°; the almanac's −0.833° is
     passed explicitly.  Its ``Observer`` uses no refraction unless given a
-    pressure, so altitudes are geometric, as in the fast path.
+    pressure, so altitudes are geometric, as in the fast path.  Its default
+    150-point grid over 24 h interpolates linearly between samples 10 minutes
+    apart, which misplaces grazing events at high latitude by a minute or
+    more (a moonrise at 64° N rising 0.004°/min came out 72 s early): a
+    1-minute grid makes it a reference.
     """
     import astropy.units as u
     from astroplan import Observer
@@ -256,31 +261,32 @@ def night_almanac_astroplan(site: SiteProfile, night: dt.date) -> Almanac:
     )
     span_start, span_end = night_spans_jd([night], loc.timezone)
     t0 = Time(span_start[0], format="jd", scale="utc")
+    grid = {"n_grid_points": 1441}
 
     def within(t):
         jd = float(np.ma.filled(np.ma.masked_invalid(np.atleast_1d(t.jd)), np.nan)[0]) if t is not None else np.nan
         return jd if span_start[0] <= jd <= span_end[0] else np.nan
 
     horizon = SUNRISE_ALTITUDE_DEG * u.deg
-    sunset = within(observer.sun_set_time(t0, which="next", horizon=horizon))
+    sunset = within(observer.sun_set_time(t0, which="next", horizon=horizon, **grid))
     after = Time(sunset, format="jd") if np.isfinite(sunset) else t0
-    sunrise = within(observer.sun_rise_time(after, which="next", horizon=horizon))
+    sunrise = within(observer.sun_rise_time(after, which="next", horizon=horizon, **grid))
     evening, morning = {}, {}
     for name in TWILIGHTS:
         h = TWILIGHT_ALTITUDE_DEG[name] * u.deg
-        ev = within(observer.sun_set_time(t0, which="next", horizon=h))
+        ev = within(observer.sun_set_time(t0, which="next", horizon=h, **grid))
         start = Time(ev, format="jd") if np.isfinite(ev) else t0
-        mo = within(observer.sun_rise_time(start, which="next", horizon=h))
+        mo = within(observer.sun_rise_time(start, which="next", horizon=h, **grid))
         evening[name], morning[name] = np.array([ev]), np.array([mo])
     m_h = MOONRISE_ALTITUDE_DEG * u.deg
-    moonrise = within(observer.moon_rise_time(t0, which="next", horizon=m_h))
-    moonset = within(observer.moon_set_time(t0, which="next", horizon=m_h))
+    moonrise = within(observer.moon_rise_time(t0, which="next", horizon=m_h, **grid))
+    moonset = within(observer.moon_set_time(t0, which="next", horizon=m_h, **grid))
     middle = (sunset + sunrise) / 2.0 if np.isfinite(sunset) and np.isfinite(sunrise) else np.nan
     if not np.isfinite(middle):
         middle = float(observer.midnight(t0, which="next").jd)
     t_mid = Time(middle, format="jd")
-    grid = Time(np.linspace(span_start[0], span_end[0], 289), format="jd")
-    sun_alt = observer.sun_altaz(grid).alt.degree
+    samples = Time(np.linspace(span_start[0], span_end[0], 289), format="jd")
+    sun_alt = observer.sun_altaz(samples).alt.degree
     return Almanac(
         nights=(night,),
         timezone=loc.timezone,

@@ -31,7 +31,7 @@ from planner.sidereal import SIDEREAL_DEG_PER_DAY, gmst_deg, wrap_180
 #: (the equation of the centre, 6.3° over 27.55 d; the variation, 0.66° over
 #: 14.8 d) leave a four-point interpolation error of about 1e-3° at this step
 #: — 0.3 s of a moonrise; the Sun's error is far smaller.  Tests hold it.
-SAMPLE_STEP_D = 1.0
+SAMPLE_STEP_D = 0.5
 
 #: Equatorial radius of the Earth (WGS84), km.
 EARTH_RADIUS_KM = 6378.137

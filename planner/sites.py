@@ -55,11 +55,13 @@ from types import MappingProxyType
 from typing import Any, Mapping
 
 from planner.errors import SiteProfileError
+from planner.photometry import BANDS as _BAND_TABLE
 from planner.resources import site_profiles_dir
 from planner.tomlcheck import Schema, Table, bound, error, read_toml, show, suggest, toml_key
 
 TWILIGHTS = ("civil", "nautical", "astronomical")
-BANDS = ("U", "B", "V", "R", "I", "J", "H", "Ks")
+#: Standard bands a site filter can stand for: those the photometry knows.
+BANDS = tuple(_BAND_TABLE)
 
 
 @dataclass(frozen=True)
@@ -96,8 +98,6 @@ class Telescope:
 
     @property
     def collecting_area_m2(self) -> float:
-        import math
-
         return math.pi / 4.0 * (self.aperture_m**2 - self.obstruction_diameter_m**2)
 
 
