@@ -20,6 +20,8 @@ COMMAND_MODULES = (
     "planner.commands.night",
     "planner.commands.observability",
     "planner.commands.expose",
+    "planner.commands.phases",
+    "planner.commands.recover",
     "planner.commands.demo",
 )
 

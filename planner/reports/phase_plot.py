@@ -1,0 +1,72 @@
+"""Phase-coverage strips: one row per variable star, sorted by period (matplotlib).
+
+matplotlib is imported inside the function and no global settings are touched: the
+figure is a plain ``matplotlib.figure.Figure`` (drawn with the Agg canvas when saved).
+"""
+
+from __future__ import annotations
+
+from typing import Sequence
+
+import numpy as np
+
+from planner.variables import RRAB_MINIMUM_LIGHT, RRAB_RISING_BRANCH, RRC_MINIMUM_LIGHT
+
+
+def phase_coverage_axes(
+    star_ids: Sequence[str],
+    period_d: Sequence[float],
+    phases: np.ndarray,
+    types: Sequence[str | None] | None = None,
+    n_bins: int = 20,
+    ax=None,
+):
+    """Draw each star's observed phases as ticks on a strip from 0 to 1.
+
+    Parameters
+    ----------
+    star_ids, period_d : sequences, length n_stars
+    phases : ndarray, shape (n_stars, n_times); NaN = not observed
+    types : star types (shade the rising branch for RRab, minimum light per type)
+    n_bins : phase bins drawn as faint vertical lines
+    ax : matplotlib Axes, optional; a new Figure is made when omitted.
+
+    Returns
+    -------
+    matplotlib.axes.Axes
+    """
+    from matplotlib.figure import Figure
+
+    phases = np.atleast_2d(np.asarray(phases, dtype=float))
+    n = phases.shape[0]
+    types = list(types) if types is not None else [None] * n
+    order = np.argsort(np.asarray(period_d, dtype=float), kind="stable")
+    if ax is None:
+        fig = Figure(figsize=(8.0, 1.2 + 0.28 * max(n, 1)), layout="constrained")
+        ax = fig.add_subplot()
+    for edge in np.arange(1, n_bins) / n_bins:
+        ax.axvline(edge, color="0.9", linewidth=0.5, zorder=0)
+    for row, i in enumerate(order):
+        y = n - 1 - row  # shortest period at the top
+        overtone = types[i] in ("RRc", "RRd")
+        lo, hi = RRC_MINIMUM_LIGHT if overtone else RRAB_MINIMUM_LIGHT
+        ax.fill_between([lo, hi], y - 0.4, y + 0.4, color="tab:blue", alpha=0.12, linewidth=0)
+        if not overtone:
+            ax.fill_between(list(RRAB_RISING_BRANCH), y - 0.4, y + 0.4, color="tab:red",
+                            alpha=0.12, linewidth=0)
+        seen = phases[i][np.isfinite(phases[i])]
+        ax.plot(seen, np.full(seen.shape, y), linestyle="none", marker="|", markersize=9,
+                color="black")
+    ax.set_yticks(np.arange(n))
+    ax.set_yticklabels(
+        [f"{star_ids[i]}  {period_d[i]:.4f} d" for i in order[::-1]], fontsize=7
+    )
+    ax.set_xlim(0.0, 1.0)
+    ax.set_ylim(-0.7, n - 0.3)
+    ax.set_xlabel("phase (0 = maximum light)")
+    ax.set_title(
+        "Phase coverage per star, shortest period at the top "
+        "(red: RRab rising branch, blue: minimum light)",
+        fontsize=9,
+    )
+    return ax
