@@ -1,0 +1,218 @@
+"""``gcplan demo``: run gcplan on the invented demo campaign and write every output to a folder.
+
+The site (site_profiles/demo.toml) and the campaign (targets/demo/) are
+fictional; the clusters and their published data are real.  The demo plans
+"tonight" (the site's local date, from the clock — the only clock read in
+gcplan, and it is here in the shell) unless ``--date`` is given.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+import sys
+from pathlib import Path
+from zoneinfo import ZoneInfo
+
+from planner.errors import OutputError
+
+DEMO_SITE = "demo"
+SEMESTER_NIGHTS = 183
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "demo",
+        help="run gcplan on the invented demo campaign and write its outputs",
+        description="Runs every gcplan step on the invented demo campaign (fictional site, real clusters) "
+        "and writes text, JSON and figures into one folder.",
+    )
+    p.add_argument("--out", default="gcplan-demo", metavar="DIR", help="folder for the outputs (default: gcplan-demo)")
+    p.add_argument("--date", metavar="YYYY-MM-DD", help="the night to plan (default: tonight at the demo site)")
+    p.set_defaults(run=run)
+
+
+def current_night(local_now: dt.datetime) -> dt.date:
+    """The night under way at a local time: before local noon it is still last evening's night."""
+    return local_now.date() - dt.timedelta(days=1 if local_now.hour < 12 else 0)
+
+
+def demo_targets():
+    from planner.catalog import load_catalog
+    from planner.resources import targets_dir
+    from planner.targets import read_target_list
+
+    return read_target_list(targets_dir() / "demo" / "clusters.ecsv", load_catalog())
+
+
+def run(args) -> int:
+    from planner.commands import common
+    from planner.sites import resolve_site
+
+    site = resolve_site(DEMO_SITE)
+    if args.date:
+        night = common.parse_night_date(args.date)
+    else:
+        night = current_night(dt.datetime.now(ZoneInfo(site.location.timezone)))
+    out = Path(args.out)
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise OutputError(f"--out {args.out!r}: cannot create the folder ({exc.strerror})") from None
+    targets = demo_targets()
+    written: list[tuple[str, str]] = []
+    say = lambda msg: print(msg, file=sys.stdout, flush=True)  # noqa: E731
+    say(f"gcplan demo — {site.name}: an invented observatory and campaign (real clusters).")
+    say(f"Writing into {out}/ …")
+    for step in STEPS:
+        for name, what in step(site, targets, night, out):
+            written.append((name, what))
+            say(f"  {name:<34s} {what}")
+    (out / "README.txt").write_text(
+        "gcplan demo output — the site and the campaign are INVENTED (fictional observatory);\n"
+        "the clusters and their published data are real.  Files:\n\n"
+        + "".join(f"  {name:<34s} {what}\n" for name, what in written)
+        + "\nThe observatory's own limits and rules, and its operators, come before any plan.\n",
+        encoding="utf-8",
+    )
+    say(f"Done. Start with {out}/night.txt and {out}/night.png.")
+    return 0
+
+
+def _write(path: Path, text: str) -> None:
+    path.write_text(text if text.endswith("\n") else text + "\n", encoding="utf-8")
+
+
+def step_night(site, targets, night, out):
+    """Tonight: almanac, windows, chart."""
+    from planner.commands.common import to_jsonable
+    from planner.commands.night import night_json, night_text
+    from planner.night_summary import night_curves, run_of_nights
+    from planner.reports.charts import save_night_chart
+    from planner.visibility import constraints_for_site
+
+    run_ = run_of_nights(site, targets, [night], constraints_for_site(site))
+    _write(out / "night.txt", night_text(run_))
+    _write(out / "night.json", json.dumps(to_jsonable(night_json(run_)), indent=2, ensure_ascii=False))
+    save_night_chart(run_, night_curves(run_), out / "night.png")
+    return [
+        ("night.txt", f"the night of {night}: almanac and each cluster's window"),
+        ("night.json", "the same, as gcplan night --json"),
+        ("night.png", "altitude chart of the night"),
+    ]
+
+
+def step_semester(site, targets, night, out):
+    """The next semester: hours per night, best nights and months."""
+    from planner.catalog import load_catalog
+    from planner.commands.common import to_jsonable
+    from planner.commands.observability import observability_json, observability_text
+    from planner.night_summary import run_of_nights, seasons
+    from planner.reports.charts import save_observability_chart
+    from planner.targets import catalog_targets
+    from planner.visibility import constraints_for_site
+
+    nights = [night + dt.timedelta(days=i) for i in range(SEMESTER_NIGHTS)]
+    constraints = constraints_for_site(site)
+    run_ = run_of_nights(site, targets, nights, constraints)
+    _write(out / "semester.txt", observability_text(run_, seasons(run_)))
+    _write(out / "semester.json", json.dumps(to_jsonable(observability_json(run_, seasons(run_))), indent=2))
+    save_observability_chart(run_, out / "semester.png")
+    # The whole bundled catalog as well: which other clusters the site could take.
+    everything = run_of_nights(site, catalog_targets(load_catalog()), nights, constraints)
+    _write(out / "semester_catalog.txt", observability_text(everything, seasons(everything)))
+    return [
+        ("semester.txt", f"{SEMESTER_NIGHTS} nights from {night}: hours, best nights and months"),
+        ("semester.json", "the same, as gcplan observability --json"),
+        ("semester.png", "hours per night over the semester"),
+        ("semester_catalog.txt", "the same for every cluster of the bundled catalog"),
+    ]
+
+
+#: The demo campaign's science goals (invented): S/N per level, in V and I.
+DEMO_SNR = {"tip": 100.0, "hb": 50.0, "turnoff": 20.0}
+DEMO_FILTERS = ("V", "I")
+#: Visits per night to the variables in the demo's phase-coverage step (invented).
+DEMO_VISITS_PER_NIGHT = 6
+DEMO_VARIABLE_NIGHTS = 7
+
+
+def step_exposures(site, targets, night, out):
+    """Exposure table: every cluster × level × filter at the site's typical seeing, airmass 1.2, dark."""
+    from astropy.table import Table
+
+    from planner.exposure import exposure_table
+
+    rows = exposure_table(site, targets, tuple(DEMO_SNR), DEMO_FILTERS, DEMO_SNR)
+    lines = [
+        f"Exposures for the demo campaign at {site.name}: seeing {site.sky.typical_seeing_arcsec:.1f}\", "
+        "airmass 1.2, no Moon (campaign goals invented: S/N "
+        + ", ".join(f"{k} {v:.0f}" for k, v in DEMO_SNR.items()) + ")",
+        "",
+        f"  {'cluster':<10s}{'level':<9s}{'filter':<7s}{'mag':>6s}{'frames':>8s}{'frame s':>9s}"
+        f"{'S/N':>6s}{'saturates':>11s}",
+    ]
+    for r in rows:
+        if r.frames is None:
+            lines.append(f"  {r.target:<10s}{r.level:<9s}{r.filter:<7s}  — {r.note}")
+            continue
+        sat = "—" if r.saturation_s is None else f"{r.saturation_s:.0f} s"
+        lines.append(
+            f"  {r.target:<10s}{r.level:<9s}{r.filter:<7s}{r.magnitude:6.2f}{r.frames:8d}{r.frame_s:9.1f}"
+            f"{r.snr_reached:6.0f}{sat:>11s}"
+        )
+    lines.append("")
+    lines.append("  'saturates': the frame time at which the level's brightest stars reach the linearity limit.")
+    _write(out / "exposures.txt", "\n".join(lines))
+    table = Table(
+        rows=[
+            (r.target, r.level, r.filter, r.snr_goal, r.magnitude, r.frames, r.frame_s, r.exposure_s,
+             r.snr_reached, r.saturation_s, r.note)
+            for r in rows
+        ],
+        names=("target", "level", "filter", "snr_goal", "magnitude", "frames", "frame_s", "exposure_s",
+               "snr_reached", "saturation_s", "note"),
+        dtype=(str, str, str, float, float, float, float, float, float, float, str),
+    )
+    table.meta["note"] = "gcplan demo: invented campaign goals at a fictional site; see planner/exposure.py"
+    table.write(out / "exposures.ecsv", format="ascii.ecsv", overwrite=True)
+    return [
+        ("exposures.txt", "frames for the RGB tip, HB and turnoff of each cluster in V and I"),
+        ("exposures.ecsv", "the same as a table"),
+    ]
+
+
+def step_phases(site, targets, night, out):
+    """Phase coverage of the invented variables for a week of visits spread through the dark windows."""
+    import numpy as np
+    from astropy.time import Time
+
+    from planner.almanac import dark_windows_jd
+    from planner.commands.common import to_jsonable
+    from planner.commands.phases import phase_report, report_json, report_text
+    from planner.recovery import visit_times_in_windows
+    from planner.reports.phase_plot import phase_coverage_axes
+    from planner.resources import targets_dir
+    from planner.variables_io import read_variables
+
+    variables = read_variables(targets_dir() / "demo" / "variables.ecsv")
+    windows = dark_windows_jd(site, night, DEMO_VARIABLE_NIGHTS, site.limits.twilight)
+    jd = visit_times_in_windows(windows, DEMO_VISITS_PER_NIGHT, np.random.default_rng(20270105))
+    if jd.size == 0:
+        return []
+    times = Time(jd, format="jd", scale="utc")
+    report = phase_report(variables, times, 20, 0.05)
+    _write(out / "phases.txt", report_text(variables, report))
+    _write(out / "phases.json", json.dumps(to_jsonable(report_json(variables, report)), indent=2))
+    ax = phase_coverage_axes(report["ids"], report["periods"], report["phase"], report["types"], 20)
+    ax.figure.savefig(out / "phases.png", dpi=120)
+    return [
+        ("phases.txt", f"phase coverage of the invented RR Lyrae: {DEMO_VISITS_PER_NIGHT} visits a night, "
+         f"{DEMO_VARIABLE_NIGHTS} nights"),
+        ("phases.json", "the same, as gcplan phases --json"),
+        ("phases.png", "phase-coverage strips, one per star"),
+    ]
+
+
+#: The demo's steps in order; each returns the files it wrote with a line on each.
+STEPS = [step_night, step_semester, step_exposures, step_phases]
