@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import datetime as dt
 import json
+import textwrap
 import sys
 from pathlib import Path
 from zoneinfo import ZoneInfo
@@ -144,10 +145,12 @@ def step_exposures(site, targets, night, out):
     from planner.exposure import exposure_table
 
     rows = exposure_table(site, targets, tuple(DEMO_SNR), DEMO_FILTERS, DEMO_SNR)
-    lines = [
+    lines = textwrap.wrap(
         f"Exposures for the demo campaign at {site.name}: seeing {site.sky.typical_seeing_arcsec:.1f}\", "
         "airmass 1.2, no Moon (campaign goals invented: S/N "
         + ", ".join(f"{k} {v:.0f}" for k, v in DEMO_SNR.items()) + ")",
+        80,
+    ) + [
         "",
         f"  {'cluster':<10s}{'level':<9s}{'filter':<7s}{'mag':>6s}{'frames':>8s}{'frame s':>9s}"
         f"{'S/N':>6s}{'saturates':>11s}",
@@ -162,7 +165,8 @@ def step_exposures(site, targets, night, out):
             f"{r.snr_reached:6.0f}{sat:>11s}"
         )
     lines.append("")
-    lines.append("  'saturates': the frame time at which the level's brightest stars reach the linearity limit.")
+    lines.append("  saturates: frame time at which the level's brightest stars reach the linearity")
+    lines.append("  limit of the camera.")
     _write(out / "exposures.txt", "\n".join(lines))
     table = Table(
         rows=[

@@ -209,15 +209,17 @@ def night_text(run_, i: int = 0) -> str:
     extra = f", Moon ≥ {c.min_moon_separation_deg:.0f}° away" if c.min_moon_separation_deg > 0 else ""
     extra += ", horizon mask" if c.horizon_az_deg else ""
     extra += f", Sun ≥ {c.sun_avoidance_deg:.0f}° away" if c.sun_avoidance_deg > 0 else ""
-    lines.append(f"  limits: {limit}{extra}")
+    lines.extend(textwrap.wrap(f"limits: {limit}{extra}", 78, initial_indent="  ", subsequent_indent="    "))
     lines.append("")
-    header = f"  {'target':<13s}{'transit':>7s}{'':>6s} {'max alt':>7s} {'min X':>5s}  {'window, local':<11s}  {'window, UTC':<11s} {'hours':>5s} {'moon':>5s}"
-    lines.append(header)
-    lines.append(f"  {'':<13s}{'local':>7s}{'UTC':>6s}")
+    lines.append(
+        f"  {'target':<12s}{'transit':>13s} {'max alt':>7s} {'min X':>5s}  {'window':<11s}  {'window':<11s} "
+        f"{'hours':>5s} {'moon':>5s}"
+    )
+    lines.append(f"  {'':<12s}{'local':>7s}{'UTC':>6s} {'':>7s} {'':>5s}  {'local':<11s}  {'UTC':<11s}")
     order = np.argsort(np.nan_to_num(vis.window_start_jd[:, i], nan=np.inf), kind="stable")
     for k in order:
         t = run_.targets[k]
-        name = t.name if len(t.name) <= 13 else t.name[:12] + "…"
+        name = t.name if len(t.name) <= 12 else t.name[:11] + "…"
         hours = vis.observable_hours[k, i]
         w_s, w_e = vis.window_start_jd[k, i], vis.window_end_jd[k, i]
         max_alt = vis.max_altitude_deg[k, i]
@@ -228,14 +230,14 @@ def night_text(run_, i: int = 0) -> str:
             wl, wu = ("below limit" if np.isfinite(max_alt) else "no darkness"), ""
         min_x = vis.min_airmass[k, i]
         lines.append(
-            f"  {name:<13s}{local_hhmm(vis.transit_jd[k, i], zone):>7s}{utc_hhmm(vis.transit_jd[k, i]):>6s} "
+            f"  {name:<12s}{local_hhmm(vis.transit_jd[k, i], zone):>7s}{utc_hhmm(vis.transit_jd[k, i]):>6s} "
             f"{_fmt(max_alt, '7.1f', '°')} {_fmt(min_x, '5.2f')}  {wl:<11s}  {wu:<11s} {hours:5.1f} "
             f"{_fmt(vis.moon_separation_deg[k, i], '4.0f', '°')}"
         )
     lines.append("")
-    lines.append("  Sun and Moon times are for their centres; altitudes geometric; airmass Kasten & Young 1989.")
+    lines.append("  Sun and Moon: their centres. Altitudes geometric; airmass Kasten & Young 1989.")
     lines.extend("  " + part for part in textwrap.wrap(CAUTION, 76))
-    return "\n".join(lines)
+    return "\n".join(line.rstrip() for line in lines)
 
 
 def _fmt(x, spec, unit=""):

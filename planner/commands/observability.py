@@ -106,7 +106,8 @@ def observability_text(run_, summary) -> str:
     site = run_.site
     c = run_.constraints
     lines = [
-        f"Observable hours, nights of {nights[0]} to {nights[-1]} ({len(nights)} nights) at {site.name}",
+        f"Observable hours, nights of {nights[0]} to {nights[-1]} ({len(nights)} nights)",
+        f"  at {site.name}",
         f"  limits: altitude ≥ {c.altitude_limit_deg:.1f}°, Moon ≥ {c.min_moon_separation_deg:.0f}° away, "
         f"{c.twilight} twilight" + (", horizon mask" if c.horizon_az_deg else ""),
         "",
@@ -128,14 +129,28 @@ def observability_text(run_, summary) -> str:
         if show_months:
             row += "".join(f"{s.hours_by_month[m]:7.1f}" for m in show_months)
         else:
-            row += "  " + (", ".join(_month_name(m) for m in best_months(s)) or "—")
+            row += "  " + month_ranges(best_months(s))
         lines.append(row)
     lines.append("")
     lines.extend("  " + part for part in textwrap.wrap(CAUTION, 76))
     return "\n".join(lines)
 
 
-def _month_name(key: str) -> str:
+def month_ranges(keys: list[str]) -> str:
+    """'YYYY-MM' keys as compact runs: ['2027-01', '2027-02', '2027-04'] -> 'Jan–Feb, Apr 2027'."""
     import datetime as dt
 
-    return dt.date.fromisoformat(key + "-01").strftime("%b %Y")
+    if not keys:
+        return "—"
+    months = [dt.date.fromisoformat(k + "-01") for k in keys]
+    runs: list[list[dt.date]] = []
+    for m in months:
+        prev = runs[-1][-1] if runs else None
+        if prev is not None and (m.year * 12 + m.month) - (prev.year * 12 + prev.month) == 1:
+            runs[-1].append(m)
+        else:
+            runs.append([m])
+    years = {m.year for m in months}
+    fmt = "%b" if len(years) == 1 else "%b %Y"
+    parts = [r[0].strftime(fmt) if len(r) == 1 else f"{r[0].strftime(fmt)}–{r[-1].strftime(fmt)}" for r in runs]
+    return ", ".join(parts) + (f" {years.pop()}" if len(years) == 1 else "")

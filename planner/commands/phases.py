@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import textwrap
+
 from dataclasses import asdict
 
 import numpy as np
@@ -118,9 +120,11 @@ def report_json(variables, report) -> dict:
 
 def report_text(variables, report) -> str:
     cov = report["coverage"]
-    lines = [
+    lines = textwrap.wrap(
         f"{len(variables)} variables at {report['jd'].size} times over {report['baseline_d']:.2f} d; "
         f"phase 0 = maximum light; {TIME_SYSTEM}",
+        80,
+    ) + [
         "",
         f"{'id':<16} {'cluster':<10} {'type':<5} {'P (d)':>9} {'bins':>7} {'gap':>6} "
         f"{'rise':>5} {'min':>4} {'drift/d':>8}",
@@ -144,7 +148,9 @@ def report_text(variables, report) -> str:
             )
     warnings = [m for v in variables for m in report["warnings"][v.id]]
     if warnings:
-        lines += ["", "Warnings:"] + [f"  {m}" for m in warnings]
+        lines += ["", "Warnings:"]
+        for m in warnings:
+            lines += textwrap.wrap(m, 80, initial_indent="  ", subsequent_indent="    ")
     return "\n".join(lines)
 
 
