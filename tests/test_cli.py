@@ -1,0 +1,142 @@
+"""The command line as a user meets it: help, version, JSON contracts, one-line errors.
+
+Runs ``planner.cli.main`` in-process (the console script calls the same function).
+"""
+
+from __future__ import annotations
+
+import json
+import re
+
+import pytest
+
+from planner import __version__
+from planner.cli import join_dash_values, main
+
+ISO_Z = re.compile(r"^\d{4}-\d\d-\d\dT\d\d:\d\d:\d\dZ$")
+
+
+def run(capsys, *argv):
+    code = main(list(argv))
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_version_and_help(capsys):
+    with pytest.raises(SystemExit) as exc:
+        main(["--version"])
+    assert exc.value.code == 0
+    assert __version__ in capsys.readouterr().out
+    code, out, _ = run(capsys)
+    assert code == 0 and "night" in out and "observability" in out
+
+
+def test_site_value_with_a_leading_minus_and_a_space():
+    assert join_dash_values(["night", "--site", "-30.2,-70.8,2200", "--date", "x"]) == [
+        "night",
+        "--site=-30.2,-70.8,2200",
+        "--date",
+        "x",
+    ]
+
+
+def test_night_json_contract(capsys):
+    code, out, err = run(
+        capsys, "night", "--site", "-30.2,-70.8,2200", "--timezone", "America/Santiago",
+        "--target", "47 Tuc", "--target", "ngc 3201", "--date", "2027-01-10", "--json",
+    )
+    assert code == 0
+    doc = json.loads(out)
+    assert doc["site"]["latitude_deg"] == -30.2 and doc["site"]["timezone"] == "America/Santiago"
+    assert doc["night"] == "2027-01-10"
+    for key in ("set", "rise"):
+        assert ISO_Z.match(doc["sun"][key])
+    for kind in ("civil", "nautical", "astronomical"):
+        assert set(doc["twilight"][kind]) == {"evening", "morning"}
+    assert 0 < doc["dark_hours"] < 12
+    assert set(doc["moon"]) >= {"illumination", "phase_angle_deg", "rise", "set"}
+    assert set(doc["constraints"]) >= {"min_altitude_deg", "max_airmass", "twilight", "min_moon_separation_deg"}
+    names = [t["name"] for t in doc["targets"]]
+    assert names == ["47 Tuc", "NGC 3201"]
+    for t in doc["targets"]:
+        assert set(t) >= {
+            "name", "ra_deg", "dec_deg", "transit", "max_altitude_deg", "min_airmass",
+            "observable_hours", "window", "moon_separation_deg",
+        }
+        assert t["observable_hours"] > 0 and ISO_Z.match(t["window"]["start"])
+        # The window lies inside the usable (dark) window of the night.
+        assert doc["usable_window"]["start"] <= t["window"]["start"] <= t["window"]["end"] <= doc["usable_window"]["end"]
+
+
+def test_night_text_is_a_table_in_local_time_and_utc(capsys):
+    code, out, _ = run(capsys, "night", "--site", "demo", "--target", "NGC 1851", "--date", "2027-01-10")
+    assert code == 0
+    assert "local" in out and "UTC" in out and "NGC 1851" in out
+    assert "limits and rules" in out  # the caution is always printed
+    assert max(len(line) for line in out.splitlines()) <= 80
+
+
+def test_midnight_sun_is_a_normal_answer(capsys):
+    code, out, _ = run(
+        capsys, "night", "--site", "69.6,18.9,100", "--timezone", "Europe/Oslo",
+        "--target", "M 13", "--date", "2027-06-20", "--json",
+    )
+    assert code == 0
+    doc = json.loads(out)
+    assert doc["sun"] == {"set": None, "rise": None}
+    assert doc["dark_hours"] == 0
+    assert doc["targets"][0]["observable_hours"] == 0 and doc["targets"][0]["window"]["start"] is None
+
+
+def test_observability_json_contract(capsys):
+    code, out, _ = run(
+        capsys, "observability", "--site", "demo", "--target", "NGC 104", "--target", "NGC 2808",
+        "--start", "2027-01-01", "--end", "2027-01-10", "--json",
+    )
+    assert code == 0
+    doc = json.loads(out)
+    assert [t["name"] for t in doc["targets"]] == ["NGC 104", "NGC 2808"]
+    for t in doc["targets"]:
+        assert len(t["nights"]) == 10 and t["nights"][0]["night"] == "2027-01-01"
+        assert t["total_hours"] == pytest.approx(sum(n["observable_hours"] for n in t["nights"]), abs=0.01)
+        assert t["best_night"] in {n["night"] for n in t["nights"]}
+
+
+@pytest.mark.parametrize(
+    "argv, fragment",
+    [
+        (["night", "--site", "demo", "--target", "M 13", "--date", "2027-13-01"], "--date"),
+        (["night", "--site", "demo", "--target", "NGC 99999", "--date", "2027-01-01"], "NGC 99999"),
+        (["night", "--site", "nosuchsite", "--target", "M 13", "--date", "2027-01-01"], "nosuchsite"),
+        (["night", "--site", "91,0", "--target", "M 13", "--date", "2027-01-01"], "91"),
+        (["night", "--site", "demo", "--date", "2027-01-01"], "target"),
+        (["night", "--site", "demo", "--target", "M 13", "--date", "2027-01-01", "--max-airmass", "0.5"], "--max-airmass"),
+        (["night", "--site", "demo", "--target", "M 13", "--date", "2027-01-01", "--plot", "x.gif"], "--plot"),
+        (["observability", "--site", "demo", "--target", "M 13", "--start", "2027-02-01", "--end", "2027-01-01"], "before"),
+        (["night", "--site", "demo", "--targets", "nosuchfile.csv", "--date", "2027-01-01"], "nosuchfile.csv"),
+        (["night", "--site", "demo", "--target", "M 13", "--date", "2027-01-01", "--nosuchoption"], "nosuchoption"),
+    ],
+)
+def test_bad_input_is_one_line_and_exit_2(capsys, argv, fragment):
+    try:
+        code = main(argv)
+    except SystemExit as exc:  # argparse usage errors exit directly
+        code = exc.code
+    out, err = capsys.readouterr()
+    assert code == 2
+    lines = err.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("gcplan: error: ") and fragment in lines[0]
+    assert "Traceback" not in err
+
+
+def test_demo_writes_its_folder(tmp_path, capsys):
+    out_dir = tmp_path / "demo-out"
+    code, out, _ = run(capsys, "demo", "--out", str(out_dir), "--date", "2027-01-05")
+    assert code == 0
+    for name in ("night.txt", "night.json", "night.png", "semester.txt", "semester.png",
+                 "exposures.txt", "phases.txt", "README.txt"):
+        assert (out_dir / name).stat().st_size > 0, name
+    assert "INVENTED" in (out_dir / "README.txt").read_text()
+    night = json.loads((out_dir / "night.json").read_text())
+    assert night["night"] == "2027-01-05" and len(night["targets"]) == 5
+    assert not any("5904" in t["name"] for t in night["targets"])
