@@ -110,19 +110,23 @@ def seasons(run: RunOfNights) -> list[TargetSeason]:
     hours = run.visibility.observable_hours  # (N, M)
     months = np.array([f"{n:%Y-%m}" for n in run.nights])
     month_keys = list(dict.fromkeys(months.tolist()))
-    # Tie-break on the Moon: among nights within 1 minute of the most hours,
-    # the one with the least illuminated Moon is the better one.
-    illum = run.almanac.moon_illumination[None, :]
-    out = []
-    for i, target in enumerate(run.targets):
-        h = hours[i]
-        if not np.any(h > 0):
-            out.append(TargetSeason(target.name, 0.0, None, 0.0, 0, {m: 0.0 for m in month_keys}))
-            continue
-        near_best = h >= h.max() - 1.0 / 60.0
-        best = int(np.argmin(np.where(near_best, illum[0], np.inf)))
-        by_month = {m: float(h[months == m].sum()) for m in month_keys}
-        out.append(
-            TargetSeason(target.name, float(h.sum()), run.nights[best], float(h[best]), int((h > 0).sum()), by_month)
+    in_month = months[None, :] == np.array(month_keys)[:, None]  # (months, M)
+    by_month = hours @ in_month.T.astype(float)  # (N, months)
+    # Among nights within a minute of the most hours, the least illuminated Moon wins.
+    near_best = hours >= hours.max(axis=1, keepdims=True) - 1.0 / 60.0
+    best = np.argmin(np.where(near_best, run.almanac.moon_illumination[None, :], np.inf), axis=1)
+    rows = np.arange(hours.shape[0])
+    any_hours = (hours > 0).any(axis=1)
+    totals = hours.sum(axis=1)
+    counts = (hours > 0).sum(axis=1)
+    return [
+        TargetSeason(
+            name=t.name,
+            total_hours=float(totals[i]),
+            best_night=run.nights[best[i]] if any_hours[i] else None,
+            best_hours=float(hours[rows[i], best[i]]) if any_hours[i] else 0.0,
+            nights_observable=int(counts[i]),
+            hours_by_month={m: float(by_month[i, j]) for j, m in enumerate(month_keys)},
         )
-    return out
+        for i, t in enumerate(run.targets)
+    ]
