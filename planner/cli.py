@@ -23,6 +23,7 @@ COMMAND_MODULES = (
     "planner.commands.phases",
     "planner.commands.recover",
     "planner.commands.demo",
+    "planner.commands.log",
 )
 
 # Options whose values may start with "-" (a southern latitude, a western

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from planner.almanac import Almanac, almanac_for_nights
+from planner.cautions import CIVIL_TWILIGHT_CAUTION
 from planner.ephemeris import Ephemeris, build_ephemeris, iers_warning, site_geometry
 from planner.nights import night_spans_jd
 from planner.sites import SiteProfile
@@ -58,10 +59,7 @@ def run_of_nights(
     if iers:
         notes.append(iers)
     if constraints.twilight == "civil":
-        notes.append(
-            "civil twilight chosen: the sky is bright and the Sun only 6° down; mind the sun-avoidance "
-            "limit and the observatory's rules for opening the dome in twilight"
-        )
+        notes.append(CIVIL_TWILIGHT_CAUTION)
     dark_start, _ = almanac.dark_window_jd(constraints.twilight)
     if np.isnan(dark_start).all():
         notes.append(f"no {constraints.twilight} darkness on any of these nights at this latitude")

@@ -7,13 +7,9 @@ import textwrap
 
 import numpy as np
 
+from planner.cautions import PLAN_CAUTION as CAUTION
 from planner.commands import common
 from planner.nights import iso_utc, jd_to_datetime, local_hhmm, utc_hhmm
-
-CAUTION = (
-    "Caution: the telescope's and the observatory's own limits and rules (wind, humidity, dome, "
-    "horizon, sun avoidance) and the operators' word come before any plan."
-)
 
 
 def register(sub) -> None:

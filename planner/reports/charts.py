@@ -22,10 +22,9 @@ import numpy as np
 
 from planner.airmass import altitude_for_airmass
 from planner.almanac import SUNRISE_ALTITUDE_DEG, TWILIGHT_ALTITUDE_DEG
+from planner.cautions import SHORT_CAUTION as CAUTION
 from planner.errors import OutputError
 from planner.nights import datetime_to_jd, jd_to_datetime, local_hhmm, utc_hhmm
-
-CAUTION = "The observatory's own limits and rules come before any plan."
 
 #: A4 landscape, inches.
 A4_LANDSCAPE_IN = (11.69, 8.27)
