@@ -345,7 +345,7 @@ def absolute_level_mag(level: str, band: str, feh_dex: float, *, period_d: float
             return m_ks + offset, HB_KS_SOURCE, src, False, ()
         return m_v_hb + HB_COLOURS[band], HB_V_SOURCE, f"RR Lyrae mean colours, {COLOUR_SOURCE_MEMORY}", False, ()
     m_v = m_v_hb + TURNOFF_BELOW_HB_V
-    return (m_v + TURNOFF_COLOURS[band], "rule of thumb: V(turnoff) = V(HB) + 3.5 (Buonanno et al. 1989)",
+    return (m_v + TURNOFF_COLOURS[band], "rule of thumb: V(turnoff) = V(HB) + 3.5 (Buonanno et al. 1989, from memory)",
             f"turnoff dwarf colours, {COLOUR_SOURCE_MEMORY}", True, ())
 
 
