@@ -1,0 +1,469 @@
+"""``gcplan log``: the observing log — ingest frames, add entries, list, export, print.
+
+Every sub-command takes ``--logbook FILE`` (default: ``logbook.sqlite`` in the
+user's data folder, from platformdirs).  The site (``--site``) is remembered
+in the logbook on first use, so later commands need not repeat it; it is
+needed where something is computed (airmass on ingest, the almanac of the
+printed log, which night an entry belongs to).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from pathlib import Path
+
+from planner.commands import common
+from planner.errors import DateError
+
+
+def register(sub) -> None:
+    p = sub.add_parser("log", help="the observing log: ingest FITS frames, add entries, list, export, print",
+                       description="The observing log, one SQLite file: crash-safe, filled from FITS "
+                       "headers or by hand, printed as a night log.")
+    logsub = p.add_subparsers(dest="log_command", metavar="ACTION", required=True, parser_class=p.__class__)
+
+    def action(name, help_text, func, site=True):
+        q = logsub.add_parser(name, help=help_text, description=help_text)
+        q.add_argument("--logbook", metavar="FILE", help="the logbook file (default: logbook.sqlite in "
+                       "the user's data folder)")
+        if site:
+            common.add_site_arguments(q, required=False)
+        q.set_defaults(run=func)
+        return q
+
+    q = action("ingest", "read new FITS frames' headers in DIR into the log", run_ingest)
+    q.add_argument("folder", metavar="DIR", help="folder with the frames (searched recursively)")
+    q.add_argument("--watch", action="store_true", help="keep watching for new frames until Ctrl-C")
+    q.add_argument("--interval", type=float, default=5.0, metavar="S", help="seconds between passes with --watch (default 5)")
+    common.add_json_argument(q)
+
+    q = action("add", "add an entry by hand; prints its id", run_add)
+    q.add_argument("--target", required=True, metavar="NAME")
+    q.add_argument("--filter", required=True, metavar="F")
+    q.add_argument("--exposure", required=True, type=float, metavar="S", help="exposure time per frame, seconds")
+    q.add_argument("--frames", type=int, default=1, metavar="K", help="number of frames (default 1)")
+    q.add_argument("--time", metavar="ISO", help="start, ISO 8601 (UTC unless an offset is given; default now)")
+    q.add_argument("--note", metavar="TEXT")
+    q.add_argument("--seeing", type=float, metavar="FWHM", help="seeing FWHM, arcsec")
+    q.add_argument("--sky", metavar="TEXT", help="sky note (e.g. 'thin cirrus')")
+
+    q = action("note", "add a note to the log", run_note, site=False)
+    q.add_argument("text", metavar="TEXT")
+    q.add_argument("--time", metavar="ISO", help="when, ISO 8601 (default now)")
+
+    q = action("weather", "record the dome closing or opening for weather", run_weather, site=False)
+    q.add_argument("state", choices=("closed", "open"))
+    q.add_argument("--time", metavar="ISO", help="when, ISO 8601 (default now)")
+    q.add_argument("--note", metavar="TEXT", help="why (e.g. 'humidity 90 %%')")
+
+    q = action("observer", "record an observer for a night", run_observer)
+    q.add_argument("name", metavar="NAME")
+    q.add_argument("--night", metavar="YYYY-MM-DD", help="the night (default: the night under way)")
+
+    q = action("list", "list the log's entries", run_list)
+    q.add_argument("--night", metavar="YYYY-MM-DD", help="only this night (local evening date)")
+    common.add_json_argument(q)
+
+    q = action("export", "export the entries as CSV or ECSV", run_export)
+    q.add_argument("--format", required=True, choices=("csv", "ecsv"))
+    q.add_argument("--out", required=True, metavar="FILE")
+    q.add_argument("--night", metavar="YYYY-MM-DD", help="only this night")
+
+    q = action("print", "the night log as text, or as a PDF to print", run_print)
+    q.add_argument("--night", required=True, metavar="YYYY-MM-DD")
+    q.add_argument("--pdf", metavar="FILE.pdf", help="write the printable night log here")
+    q.add_argument("--paper", choices=("a4", "letter"), default="a4", help="paper size (default a4)")
+
+
+# --- shared -------------------------------------------------------------------
+
+
+def open_logbook(args):
+    from planner.logbook import Logbook, default_logbook_path
+
+    if args.logbook:
+        return Logbook(args.logbook)
+    return Logbook(default_logbook_path(), create_folder=True)
+
+
+def site_for(args, book, required: bool):
+    """--site if given (remembered in the logbook if it has none), else the remembered one."""
+    from planner.logbook import LogbookError
+    from planner.sites import resolve_site
+
+    spec, zone = getattr(args, "site", None), getattr(args, "timezone", None)
+    if spec:
+        site = resolve_site(spec, zone)  # validate before remembering
+        # A profile file is remembered by its absolute path, so any folder works later.
+        book.set_meta("site", str(Path(spec).resolve()) if Path(spec).is_file() else spec, only_if_missing=True)
+        if zone:
+            book.set_meta("timezone", zone, only_if_missing=True)
+        return site
+    stored = book.get_meta("site")
+    if stored:
+        return resolve_site(stored, book.get_meta("timezone"))
+    if required:
+        raise LogbookError("no site: give --site (a profile, a bundled name or LAT,LON); the logbook "
+                           "remembers it for later commands", book.path)
+    return None
+
+
+def parse_time(text: str | None, option: str = "--time") -> float:
+    """JD (UTC) of an ISO 8601 time (naive = UTC); now if not given."""
+    from planner.nights import datetime_to_jd
+
+    if text is None:
+        return datetime_to_jd(dt.datetime.now(dt.timezone.utc))
+    try:
+        moment = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
+    except ValueError:
+        raise DateError(f"{option} must be an ISO 8601 time such as 2027-05-13T02:15:00Z (got {text!r})") from None
+    return datetime_to_jd(moment)
+
+
+def night_bounds(site, night: dt.date) -> tuple[float, float]:
+    from planner.nights import night_spans_jd
+
+    start, end = night_spans_jd([night], site.location.timezone if site else "UTC")
+    return float(start[0]), float(end[0])
+
+
+def entry_json(e) -> dict:
+    from planner.nights import iso_utc
+
+    return {"id": e.id, "time": iso_utc(e.time_jd), "target": e.target, "filter": e.filter,
+            "exposure_s": e.exposure_s, "frames": e.frames,
+            "airmass": None if e.airmass is None else round(e.airmass, 4), "airmass_source": e.airmass_source,
+            "seeing_arcsec": e.seeing_arcsec, "file": e.file, "note": e.note, "sky_note": e.sky_note,
+            "fingerprint": e.fingerprint, "visit_id": e.visit_id, "source": e.source}
+
+
+# --- actions -----------------------------------------------------------------
+
+
+def run_ingest(args) -> int:
+    from planner.catalog import load_catalog
+    from planner.fits_ingest import ingest_folder, watch_folder
+
+    with open_logbook(args) as book:
+        site = site_for(args, book, required=True)
+        catalog = load_catalog()
+        if not args.watch:
+            report = ingest_folder(book, args.folder, site, catalog)
+        else:
+            if not Path(args.folder).is_dir():
+                from planner.logbook import LogbookError
+
+                raise LogbookError(f"frame folder {args.folder!r} does not exist or is not a folder")
+            if args.interval <= 0:
+                raise DateError(f"--interval must be > 0 seconds (got {args.interval:g})")
+            warned: dict[str, str] = {}
+
+            def on_pass(r):
+                for file, reason in r.skipped:
+                    if warned.get(file) != reason:  # say it once, not every pass
+                        common.warn_all([f"skipped {file}: {reason} (will retry)"])
+                        warned[file] = reason
+                common.warn_all(r.warnings)
+                if r.added and not args.json:
+                    print(f"added {len(r.added)} entr{'y' if len(r.added) == 1 else 'ies'}", flush=True)
+
+            if not args.json:
+                print(f"watching {args.folder} every {args.interval:g} s; Ctrl-C to stop", flush=True)
+            report = watch_folder(book, args.folder, site, catalog, args.interval, on_pass)
+    if args.json:
+        common.print_json({"added": len(report.added), "added_ids": list(report.added),
+                           "already": report.already,
+                           "skipped": [{"file": f, "reason": r} for f, r in report.skipped],
+                           "warnings": list(report.warnings)})
+    else:
+        if not args.watch:
+            for file, reason in report.skipped:
+                common.warn_all([f"skipped {file}: {reason} (will retry next pass)"])
+            common.warn_all(report.warnings)
+        print(f"added {len(report.added)}, already in the log {report.already}, skipped {len(report.skipped)}")
+    return 0
+
+
+def run_add(args) -> int:
+    from planner.logbook import LogbookError, NewEntry, night_of_jd
+
+    if not (args.exposure >= 0):
+        raise LogbookError(f"--exposure must be ≥ 0 seconds (got {args.exposure:g})")
+    if args.frames < 1:
+        raise LogbookError(f"--frames must be ≥ 1 (got {args.frames})")
+    if args.seeing is not None and not (0 < args.seeing <= 30):
+        raise LogbookError(f"--seeing must be a FWHM in arcsec, 0 < FWHM ≤ 30 (got {args.seeing:g})")
+    if not args.target.strip():
+        raise LogbookError("--target must not be empty")
+    time_jd = parse_time(args.time)
+    with open_logbook(args) as book:
+        site = site_for(args, book, required=False)
+        airmass, ra, dec = _manual_airmass(site, args.target, time_jd, args.exposure * args.frames)
+        entry = NewEntry(time_jd=time_jd, target=args.target.strip(), filter=args.filter.strip() or None,
+                         exposure_s=args.exposure, frames=args.frames, airmass=airmass,
+                         airmass_source="computed" if airmass is not None else None,
+                         seeing_arcsec=args.seeing, sky_note=args.sky, note=args.note, ra_deg=ra, dec_deg=dec)
+        night = str(night_of_jd(time_jd, site.location.timezone)) if site else None
+        print(book.add_entry(entry, night=night))
+    return 0
+
+
+def _manual_airmass(site, target, time_jd, total_s):
+    """Airmass at mid-sequence for a catalog cluster when the site is known; else nothing."""
+    if site is None:
+        return None, None, None
+    from planner.catalog import load_catalog
+    from planner.fits_ingest import airmass_at
+
+    hit = load_catalog().lookup(target)
+    if hit is None:
+        return None, None, None
+    x = float(airmass_at(site, [hit.ra_deg], [hit.dec_deg], [time_jd + total_s / 2 / 86400.0])[0])
+    return (x if x == x else None), hit.ra_deg, hit.dec_deg
+
+
+def run_note(args) -> int:
+    with open_logbook(args) as book:
+        print(book.add_note(parse_time(args.time), args.text))
+    return 0
+
+
+def run_weather(args) -> int:
+    with open_logbook(args) as book:
+        print(book.add_weather(parse_time(args.time), args.state, args.note))
+    return 0
+
+
+def run_observer(args) -> int:
+    from planner.logbook import night_of_jd
+
+    with open_logbook(args) as book:
+        site = site_for(args, book, required=False)
+        if args.night:
+            night = common.parse_night_date(args.night, "--night")
+        else:
+            night = night_of_jd(parse_time(None), site.location.timezone if site else "UTC")
+        book.add_observer(night, args.name)
+        print(f"{args.name.strip()} observing on the night of {night}")
+    return 0
+
+
+def _selected_entries(args, book):
+    site = site_for(args, book, required=False)
+    if not args.night:
+        return site, book.entries()
+    night = common.parse_night_date(args.night, "--night")
+    return site, book.entries(*night_bounds(site, night))
+
+
+def run_list(args) -> int:
+    from planner.nights import iso_utc
+
+    with open_logbook(args) as book:
+        site, entries = _selected_entries(args, book)
+    if args.json:
+        common.print_json({"logbook": str(book.path), "night": args.night,
+                           "entries": [entry_json(e) for e in entries]})
+        return 0
+    if args.night and site is None:
+        common.warn_all(["no site known: the night is taken as noon to noon UTC"])
+    print(f"{'id':>5}  {'time (UTC)':20}  {'target':14} {'filter':6} {'exp s':>7} {'n':>3} {'airmass':>7}  file / note")
+    for e in entries:
+        x = "" if e.airmass is None else f"{e.airmass:.3f}"
+        exp = "" if e.exposure_s is None else f"{e.exposure_s:g}"
+        tail = Path(e.file).name if e.file else ""
+        if e.note:
+            tail = f"{tail}  {e.note}" if tail else e.note
+        print(f"{e.id:>5}  {iso_utc(e.time_jd):20}  {e.target[:14]:14} {(e.filter or '')[:6]:6} {exp:>7} "
+              f"{e.frames:>3} {x:>7}  {tail}")
+    print(f"{len(entries)} entr{'y' if len(entries) == 1 else 'ies'}")
+    return 0
+
+
+EXPORT_COLUMNS = ("id", "time", "time_jd", "target", "filter", "exposure_s", "frames", "airmass",
+                  "airmass_source", "seeing_arcsec", "sky_note", "note", "file", "fingerprint", "visit_id", "source")
+
+
+def export_rows(entries) -> list[dict]:
+    rows = []
+    for e in entries:
+        row = entry_json(e)
+        row["time_jd"] = e.time_jd
+        rows.append({k: row.get(k) for k in EXPORT_COLUMNS})
+    return rows
+
+
+def run_export(args) -> int:
+    suffix = ".csv" if args.format == "csv" else ".ecsv"
+    out = common.check_output_path(args.out, (suffix,), "--out")
+    with open_logbook(args) as book:
+        _, entries = _selected_entries(args, book)
+    write_export(export_rows(entries), out, args.format)
+    print(f"{len(entries)} entries written to {out}")
+    return 0
+
+
+def write_export(rows: list[dict], path: Path, fmt: str) -> None:
+    from planner.errors import OutputError
+
+    try:
+        if fmt == "csv":
+            import csv
+
+            with open(path, "w", newline="", encoding="utf-8") as f:
+                w = csv.DictWriter(f, fieldnames=EXPORT_COLUMNS)
+                w.writeheader()
+                w.writerows({k: "" if v is None else v for k, v in r.items()} for r in rows)
+            return
+        from astropy.table import MaskedColumn, Table
+
+        numeric = {"id": int, "time_jd": float, "exposure_s": float, "frames": int, "airmass": float,
+                   "seeing_arcsec": float, "visit_id": int}
+        table = Table()
+        for k in EXPORT_COLUMNS:
+            values = [r[k] for r in rows]
+            mask = [v is None for v in values]
+            kind = numeric.get(k, str)
+            fill = 0 if kind is int else 0.0 if kind is float else ""
+            table[k] = MaskedColumn([fill if v is None else v for v in values], mask=mask,
+                                    dtype=kind if kind is not str else str)
+        table["exposure_s"].unit = "s"
+        table["seeing_arcsec"].unit = "arcsec"
+        table.meta["comments"] = ["gcplan observing log export; times UTC (ISO 8601 and JD)"]
+        table.write(path, format="ascii.ecsv", overwrite=True)
+    except OSError as exc:
+        raise OutputError(f"--out {str(path)!r}: cannot write ({exc.strerror or exc})") from None
+
+
+def run_print(args) -> int:
+    from planner.reports.nightlog import collect_night_log, night_log_text, write_night_log_pdf
+
+    night = common.parse_night_date(args.night, "--night")
+    pdf = common.check_output_path(args.pdf, (".pdf",), "--pdf") if args.pdf else None
+    with open_logbook(args) as book:
+        site = site_for(args, book, required=True)
+        log = collect_night_log(book, site, night)
+    if pdf is None:
+        print(night_log_text(log))
+    else:
+        write_night_log_pdf(log, pdf, args.paper)
+        print(f"night log written to {pdf} ({args.paper}, {len(log.entries)} entries)")
+    return 0
+
+
+
+
+# --- the demo --------------------------------------------------------------------
+
+#: The invented demo night: filters, exposures (s) and frames per filter in a visit.
+_DEMO_SEQUENCE = (("V", 120.0, 2), ("I", 90.0, 2))
+_DEMO_GAP_MIN = 12.0
+_DEMO_OBSERVERS = ("A. Inventada (fictional)", "B. Ficticio (fictional)")
+
+
+def demo_frame_plan(site, night: dt.date) -> list[dict]:
+    """Invented frames: visits to the demo clusters in the night's dark window, in time order.
+
+    Visits go to the observable cluster that has waited longest (round robin)
+    while it is inside its window; readout, filter change and slew times come
+    from the site profile.  Returns FITS cards per frame.
+    """
+    import numpy as np
+
+    from planner.commands.demo import demo_targets
+    from planner.nights import jd_to_datetime
+    from planner.night_summary import run_of_nights
+    from planner.visibility import constraints_for_site
+
+    targets = demo_targets()
+    run = run_of_nights(site, targets, [night], constraints_for_site(site))
+    vis = run.visibility
+    dark0, dark1 = float(vis.dark_start_jd[0]), float(vis.dark_end_jd[0])
+    if not np.isfinite(dark0):
+        return []
+    filters = [f for f in _DEMO_SEQUENCE if f[0] in site.filters] or [(next(iter(site.filters)), 60.0, 3)]
+    cam, tel = site.camera, site.telescope
+    visit_d = (sum(exp + cam.readout_s for _, exp, n in filters for _ in range(n))
+               + tel.filter_change_s * len(filters) + tel.acquisition_s) / 86400.0
+    # Written with the camera's own keywords where the profile maps them, as the camera would.
+    key = {std: cam.fits_keywords.get(std, std) for std in ("DATE-OBS", "EXPTIME", "OBJECT", "FILTER", "RA", "DEC")}
+    last_seen = {k: -np.inf for k in range(len(targets))}
+    cursor, cards, closed = dark0 + 5 / 1440.0, [], _demo_closure(dark0, dark1)
+    while cursor + visit_d < dark1:
+        if closed[0] <= cursor < closed[1]:
+            cursor = closed[1] + 5 / 1440.0
+            continue
+        up = [k for k in range(len(targets))
+              if vis.window_start_jd[k, 0] <= cursor and cursor + visit_d <= vis.window_end_jd[k, 0]]
+        if not up:
+            cursor += 10 / 1440.0
+            continue
+        k = min(up, key=lambda j: last_seen[j])
+        last_seen[k] = cursor
+        t = cursor + tel.acquisition_s / 86400.0
+        for filt, exp, n in filters:
+            t += tel.filter_change_s / 86400.0
+            for _ in range(n):
+                cards.append({key["DATE-OBS"]: jd_to_datetime(t).strftime("%Y-%m-%dT%H:%M:%S"),
+                              key["EXPTIME"]: exp, key["OBJECT"]: targets[k].name, key["FILTER"]: filt,
+                              key["RA"]: round(targets[k].ra_deg, 5), key["DEC"]: round(targets[k].dec_deg, 5),
+                              "IMAGETYP": "LIGHT", "OBSERVAT": site.location.name[:68]})
+                t += (exp + cam.readout_s) / 86400.0
+        cursor = t + _DEMO_GAP_MIN / 1440.0  # focus checks, standards, slews (invented)
+    return cards
+
+
+def _demo_closure(dark0: float, dark1: float) -> tuple[float, float]:
+    """The invented weather closure: 35 minutes starting 40 % into the dark window."""
+    start = dark0 + 0.4 * (dark1 - dark0)
+    return start, start + 35 / 1440.0
+
+
+def write_demo_log(out_dir, site, night: dt.date) -> dict:
+    """Invented frames of the demo clusters in the night's dark window, ingested and printed.
+
+    Writes ``out_dir/demo_frames/*.fits`` (tiny images, each labelled invented
+    in a COMMENT card), ingests them into ``out_dir/demo_logbook.sqlite`` (made
+    afresh, with invented observers, a weather closure and notes) and prints
+    ``out_dir/nightlog.pdf`` (A4).  Returns the paths and counts.
+    """
+    import numpy as np
+
+    from planner.catalog import load_catalog
+    from planner.fits_ingest import ingest_folder, write_invented_frame
+    from planner.logbook import Logbook
+    from planner.reports.nightlog import collect_night_log, write_night_log_pdf
+
+    out = Path(out_dir)
+    frames_dir = out / "demo_frames"
+    frames_dir.mkdir(parents=True, exist_ok=True)
+    for old in frames_dir.glob("demo_*.fits"):
+        old.unlink()
+    cards = demo_frame_plan(site, night)
+    for i, c in enumerate(cards, 1):
+        write_invented_frame(frames_dir / f"demo_{i:03d}.fits", c, seed=i)
+    book_path = out / "demo_logbook.sqlite"
+    for suffix in ("", "-wal", "-shm"):
+        Path(f"{book_path}{suffix}").unlink(missing_ok=True)
+    with Logbook(book_path) as book:
+        book.set_meta("site", site.source)
+        for name in _DEMO_OBSERVERS:
+            book.add_observer(night, name)
+        report = ingest_folder(book, frames_dir, site, load_catalog())
+        entries = book.entries()
+        if entries:
+            first = entries[0].time_jd
+            book.add_note(first - 10 / 1440.0, "Invented demo night: frames, observers, weather and notes "
+                          "are made up by gcplan (not an observation).")
+            book.add_note(first + 30 / 1440.0, "Seeing about 1.1\" in V, steady wind from the north (invented).")
+        from planner.almanac import almanac_for_nights
+
+        dark0, dark1 = almanac_for_nights(site, [night]).dark_window_jd(site.limits.twilight)
+        if np.isfinite(dark0[0]):
+            c0, c1 = _demo_closure(float(dark0[0]), float(dark1[0]))
+            book.add_weather(c0, "closed", "humidity 88 % (invented)")
+            book.add_weather(c1, "open", "humidity down to 70 % (invented)")
+        pdf = write_night_log_pdf(collect_night_log(book, site, night), out / "nightlog.pdf", "a4")
+    return {"frames_dir": frames_dir, "logbook": book_path, "pdf": pdf, "added": len(report.added),
+            "skipped": len(report.skipped)}

@@ -1,0 +1,385 @@
+"""The observing log: one SQLite file that must never lose what was taken.
+
+This is a shell module (it owns a file).  Every write is its own committed
+transaction (``BEGIN IMMEDIATE`` … ``COMMIT``) on a database in WAL mode with
+``synchronous=FULL``: a process killed at any moment leaves every committed
+entry in place and at most the entry in flight missing, never half of one.
+Frames ingested from FITS files carry a content fingerprint (SHA-256 of the
+file's bytes) under a UNIQUE constraint, so a frame ingested twice — or again
+after a crash — stays one entry.
+
+Schema (version :data:`SCHEMA_VERSION`; ``schema_version`` records each
+migration applied, and :data:`_MIGRATIONS` brings an older file up to date)::
+
+    meta(key PRIMARY KEY, value)            site spec, time zone, created
+    entries(id, time_jd, target, filter, exposure_s, frames, airmass,
+            airmass_source 'header'|'computed', seeing_arcsec, sky_note, note,
+            file, file_size, file_mtime_ns, fingerprint UNIQUE, ra_deg, dec_deg,
+            source 'fits'|'manual', visit_id -> planned_visits, created_utc)
+    weather(id, time_jd, state 'closed'|'open', note)
+    notes(id, time_jd, text)
+    observers(id, night 'YYYY-MM-DD', name, UNIQUE(night, name))
+    planned_visits(id, night, target, filter, exposure_s, frames,
+                   start_jd, end_jd, done_entry_id -> entries)
+
+Times are Julian dates on the UTC scale.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import sqlite3
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Iterable, Sequence
+
+from planner.errors import InputError
+
+#: The schema this code writes; files from older versions are migrated on open.
+SCHEMA_VERSION = 2
+#: Name of the default logbook file (in the user's data folder, or beside a campaign file).
+DEFAULT_LOGBOOK_NAME = "logbook.sqlite"
+#: How long a writer waits for another (a watcher and a manual entry at once), seconds.
+BUSY_TIMEOUT_S = 30.0
+WEATHER_STATES = ("closed", "open")
+
+
+class LogbookError(InputError):
+    """A logbook file that cannot be opened or written, or a bad log entry."""
+
+
+@dataclass(frozen=True)
+class LogEntry:
+    """One row of the log: a frame (or a group of ``frames`` identical frames)."""
+
+    id: int
+    time_jd: float  # UTC, start of the (first) exposure
+    target: str
+    filter: str | None
+    exposure_s: float | None
+    frames: int
+    airmass: float | None
+    airmass_source: str | None  # "header" | "computed" | None
+    seeing_arcsec: float | None
+    sky_note: str | None
+    note: str | None
+    file: str | None
+    fingerprint: str | None
+    ra_deg: float | None
+    dec_deg: float | None
+    source: str  # "fits" | "manual"
+    visit_id: int | None
+
+
+@dataclass(frozen=True)
+class NewEntry:
+    """An entry before it is stored (what ingestion and ``log add`` build)."""
+
+    time_jd: float
+    target: str
+    filter: str | None = None
+    exposure_s: float | None = None
+    frames: int = 1
+    airmass: float | None = None
+    airmass_source: str | None = None
+    seeing_arcsec: float | None = None
+    sky_note: str | None = None
+    note: str | None = None
+    file: str | None = None
+    file_size: int | None = None
+    file_mtime_ns: int | None = None
+    fingerprint: str | None = None
+    ra_deg: float | None = None
+    dec_deg: float | None = None
+    source: str = "manual"
+
+
+@dataclass(frozen=True)
+class WeatherEvent:
+    id: int
+    time_jd: float
+    state: str  # "closed" | "open"
+    note: str | None
+
+
+@dataclass(frozen=True)
+class NightNote:
+    id: int
+    time_jd: float
+    text: str
+
+
+@dataclass(frozen=True)
+class PlannedVisit:
+    id: int
+    night: str  # local evening date, YYYY-MM-DD
+    target: str
+    filter: str | None
+    exposure_s: float | None
+    frames: int
+    start_jd: float | None
+    end_jd: float | None
+    done_entry_id: int | None
+
+
+_V1 = """
+CREATE TABLE meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);
+CREATE TABLE planned_visits (
+    id INTEGER PRIMARY KEY, night TEXT NOT NULL, target TEXT NOT NULL, filter TEXT,
+    exposure_s REAL, frames INTEGER NOT NULL DEFAULT 1, start_jd REAL, end_jd REAL,
+    done_entry_id INTEGER REFERENCES entries(id));
+CREATE TABLE entries (
+    id INTEGER PRIMARY KEY, time_jd REAL NOT NULL, target TEXT NOT NULL, filter TEXT,
+    exposure_s REAL CHECK (exposure_s IS NULL OR exposure_s >= 0),
+    frames INTEGER NOT NULL DEFAULT 1 CHECK (frames >= 1),
+    airmass REAL, airmass_source TEXT, seeing_arcsec REAL, sky_note TEXT, note TEXT,
+    file TEXT, file_size INTEGER, file_mtime_ns INTEGER,
+    fingerprint TEXT UNIQUE, ra_deg REAL, dec_deg REAL,
+    source TEXT NOT NULL DEFAULT 'manual',
+    visit_id INTEGER REFERENCES planned_visits(id),
+    created_utc TEXT NOT NULL DEFAULT (strftime('%Y-%m-%dT%H:%M:%SZ', 'now')));
+CREATE TABLE weather (
+    id INTEGER PRIMARY KEY, time_jd REAL NOT NULL,
+    state TEXT NOT NULL CHECK (state IN ('closed', 'open')), note TEXT);
+CREATE TABLE notes (id INTEGER PRIMARY KEY, time_jd REAL NOT NULL, text TEXT NOT NULL);
+CREATE TABLE observers (
+    id INTEGER PRIMARY KEY, night TEXT NOT NULL, name TEXT NOT NULL, UNIQUE (night, name));
+"""
+# Version 2: indexes for the night queries and the watcher's "seen already" check.
+_V2 = """
+CREATE INDEX entries_time ON entries(time_jd);
+CREATE INDEX entries_file ON entries(file, file_size, file_mtime_ns);
+CREATE INDEX visits_night ON planned_visits(night, target);
+"""
+_MIGRATIONS = ((1, _V1), (2, _V2))
+
+
+def night_of_jd(jd: float, zone: str) -> dt.date:
+    """The night (local evening date) a moment belongs to: local noon to the next local noon."""
+    from planner.nights import jd_to_datetime
+
+    return (jd_to_datetime(jd, zone) - dt.timedelta(hours=12)).date()
+
+
+def default_logbook_path(campaign_file: str | Path | None = None) -> Path:
+    """Beside the campaign file if one is given, else in the user's data folder (platformdirs)."""
+    if campaign_file is not None:
+        return Path(campaign_file).with_name(DEFAULT_LOGBOOK_NAME)
+    from platformdirs import user_data_path
+
+    return user_data_path("gcplan", appauthor=False) / DEFAULT_LOGBOOK_NAME
+
+
+def _fail(path: str, exc: BaseException) -> LogbookError:
+    reason = str(exc) or type(exc).__name__
+    return LogbookError(f"cannot open or write the logbook ({reason}); give a writable file "
+                        "with --logbook FILE", str(path))
+
+
+class Logbook:
+    """An open logbook.  Use as a context manager, or call :meth:`close`.
+
+    One instance per thread (sqlite3 connections are not shared across
+    threads); any number of processes and threads may write at once.
+    """
+
+    def __init__(self, path: str | Path, create_folder: bool = False):
+        self.path = str(path)
+        p = Path(path)
+        try:
+            if create_folder:
+                p.parent.mkdir(parents=True, exist_ok=True)
+            if p.is_dir():
+                raise IsADirectoryError("it is a folder")
+            if not p.parent.is_dir():
+                raise FileNotFoundError(f"folder {str(p.parent)!r} does not exist")
+            # isolation_level=None: we issue BEGIN/COMMIT ourselves, one per entry.
+            self._db = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_S, isolation_level=None)
+            self._db.execute("PRAGMA journal_mode=WAL")
+            self._db.execute("PRAGMA synchronous=FULL")
+            self._db.execute("PRAGMA foreign_keys=ON")
+            self._migrate()
+        except (sqlite3.Error, OSError) as exc:
+            raise _fail(self.path, exc) from None
+
+    # --- plumbing ---------------------------------------------------------
+
+    def __enter__(self) -> "Logbook":
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+    def close(self) -> None:
+        self._db.close()
+
+    def _write(self, statements: Sequence[tuple[str, tuple]]) -> list[sqlite3.Cursor]:
+        """Run statements as one committed transaction (all or nothing)."""
+        try:
+            self._db.execute("BEGIN IMMEDIATE")
+            try:
+                out = [self._db.execute(sql, params) for sql, params in statements]
+                self._db.execute("COMMIT")
+            except BaseException:
+                if self._db.in_transaction:  # a Ctrl-C just after COMMIT leaves nothing to undo
+                    self._db.execute("ROLLBACK")
+                raise
+        except sqlite3.IntegrityError as exc:
+            raise LogbookError(f"the logbook refused the record ({exc})", self.path) from None
+        except sqlite3.Error as exc:
+            raise _fail(self.path, exc) from None
+        return out
+
+    def _migrate(self) -> None:
+        self._db.execute("BEGIN IMMEDIATE")  # also proves the file is writable
+        try:
+            self._db.execute("CREATE TABLE IF NOT EXISTS schema_version "
+                             "(version INTEGER PRIMARY KEY, applied_utc TEXT NOT NULL)")
+            have = self._db.execute("SELECT COALESCE(MAX(version), 0) FROM schema_version").fetchone()[0]
+            if have > SCHEMA_VERSION:
+                raise LogbookError(f"written by a newer gcplan (schema {have}; this one knows up to "
+                                   f"{SCHEMA_VERSION}); upgrade gcplan", self.path)
+            for version, script in _MIGRATIONS:
+                if version > have:
+                    for statement in filter(str.strip, script.split(";")):
+                        self._db.execute(statement)
+                    self._db.execute("INSERT INTO schema_version VALUES (?, strftime('%Y-%m-%dT%H:%M:%SZ', 'now'))",
+                                     (version,))
+            self._db.execute("COMMIT")
+        except BaseException:
+            if self._db.in_transaction:
+                self._db.execute("ROLLBACK")
+            raise
+
+    def schema_version(self) -> int:
+        return int(self._db.execute("SELECT MAX(version) FROM schema_version").fetchone()[0])
+
+    def integrity_ok(self) -> bool:
+        return self._db.execute("PRAGMA integrity_check").fetchone()[0] == "ok"
+
+    # --- meta -------------------------------------------------------------
+
+    def get_meta(self, key: str) -> str | None:
+        row = self._db.execute("SELECT value FROM meta WHERE key = ?", (key,)).fetchone()
+        return None if row is None else row[0]
+
+    def set_meta(self, key: str, value: str, only_if_missing: bool = False) -> None:
+        verb = "INSERT OR IGNORE" if only_if_missing else "INSERT OR REPLACE"
+        self._write([(f"{verb} INTO meta (key, value) VALUES (?, ?)", (key, value))])
+
+    # --- entries ----------------------------------------------------------
+
+    def add_entry(self, entry: NewEntry, night: str | None = None) -> int | None:
+        """Store one entry in its own transaction; its id, or None if its fingerprint is stored already.
+
+        With ``night`` (the entry's local evening date), the first planned visit
+        of that night for the same target (and filter, if the visit names one)
+        not yet done is marked done by this entry, in the same transaction.
+        """
+        if entry.frames < 1:
+            raise LogbookError(f"frames must be ≥ 1 (got {entry.frames})")
+        fields = list(NewEntry.__dataclass_fields__)
+        values = tuple(getattr(entry, f) for f in fields)
+        try:
+            self._db.execute("BEGIN IMMEDIATE")
+            try:
+                cur = self._db.execute(
+                    f"INSERT INTO entries ({', '.join(fields)}) VALUES ({', '.join('?' * len(fields))}) "
+                    "ON CONFLICT(fingerprint) DO NOTHING", values)
+                new_id = cur.lastrowid if cur.rowcount == 1 else None
+                if new_id is not None and night is not None:
+                    self._fulfil_visit(new_id, entry, night)
+                self._db.execute("COMMIT")
+            except BaseException:
+                if self._db.in_transaction:  # a Ctrl-C just after COMMIT leaves nothing to undo
+                    self._db.execute("ROLLBACK")
+                raise
+        except sqlite3.IntegrityError as exc:
+            raise LogbookError(f"the logbook refused the entry ({exc})", self.path) from None
+        except sqlite3.Error as exc:
+            raise _fail(self.path, exc) from None
+        return new_id
+
+    def _fulfil_visit(self, entry_id: int, entry: NewEntry, night: str) -> None:
+        from planner.catalog import normalize_name
+
+        rows = self._db.execute(
+            "SELECT id, target, filter FROM planned_visits WHERE night = ? AND done_entry_id IS NULL "
+            "ORDER BY COALESCE(start_jd, 0), id", (night,)).fetchall()
+        for visit_id, target, filt in rows:
+            if normalize_name(target) == normalize_name(entry.target) and (filt is None or filt == entry.filter):
+                self._db.execute("UPDATE planned_visits SET done_entry_id = ? WHERE id = ?", (entry_id, visit_id))
+                self._db.execute("UPDATE entries SET visit_id = ? WHERE id = ?", (visit_id, entry_id))
+                return
+
+    def has_fingerprint(self, fingerprint: str) -> bool:
+        return self._db.execute("SELECT 1 FROM entries WHERE fingerprint = ?", (fingerprint,)).fetchone() is not None
+
+    def known_files(self) -> set[tuple[str, int, int]]:
+        """(path, size, mtime_ns) of every ingested frame: files a new pass need not read again."""
+        rows = self._db.execute("SELECT file, file_size, file_mtime_ns FROM entries WHERE source = 'fits'")
+        return {(f, s, m) for f, s, m in rows if f is not None}
+
+    def entries(self, start_jd: float | None = None, end_jd: float | None = None) -> list[LogEntry]:
+        """Entries in time order, optionally with ``start_jd <= time_jd < end_jd``."""
+        fields = list(LogEntry.__dataclass_fields__)
+        sql = f"SELECT {', '.join(fields)} FROM entries"
+        params: tuple = ()
+        if start_jd is not None and end_jd is not None:
+            sql += " WHERE time_jd >= ? AND time_jd < ?"
+            params = (start_jd, end_jd)
+        rows = self._db.execute(sql + " ORDER BY time_jd, id", params).fetchall()
+        return [LogEntry(*row) for row in rows]
+
+    def count_entries(self) -> int:
+        return int(self._db.execute("SELECT COUNT(*) FROM entries").fetchone()[0])
+
+    # --- weather, notes, observers, plan -------------------------------------
+
+    def add_weather(self, time_jd: float, state: str, note: str | None = None) -> int:
+        if state not in WEATHER_STATES:
+            raise LogbookError(f"weather state must be closed or open (got {state!r})")
+        cur = self._write([("INSERT INTO weather (time_jd, state, note) VALUES (?, ?, ?)", (time_jd, state, note))])
+        return int(cur[0].lastrowid)
+
+    def weather(self, start_jd: float | None = None, end_jd: float | None = None) -> list[WeatherEvent]:
+        return [WeatherEvent(*r) for r in self._between("SELECT id, time_jd, state, note FROM weather",
+                                                        start_jd, end_jd)]
+
+    def add_note(self, time_jd: float, text: str) -> int:
+        if not text.strip():
+            raise LogbookError("a note needs some text (got an empty one)")
+        cur = self._write([("INSERT INTO notes (time_jd, text) VALUES (?, ?)", (time_jd, text.strip()))])
+        return int(cur[0].lastrowid)
+
+    def notes(self, start_jd: float | None = None, end_jd: float | None = None) -> list[NightNote]:
+        return [NightNote(*r) for r in self._between("SELECT id, time_jd, text FROM notes", start_jd, end_jd)]
+
+    def _between(self, sql: str, start_jd, end_jd):
+        if start_jd is not None and end_jd is not None:
+            return self._db.execute(sql + " WHERE time_jd >= ? AND time_jd < ? ORDER BY time_jd, id",
+                                    (start_jd, end_jd)).fetchall()
+        return self._db.execute(sql + " ORDER BY time_jd, id").fetchall()
+
+    def add_observer(self, night: dt.date | str, name: str) -> None:
+        if not name.strip():
+            raise LogbookError("an observer needs a name (got an empty one)")
+        self._write([("INSERT OR IGNORE INTO observers (night, name) VALUES (?, ?)", (str(night), name.strip()))])
+
+    def observers(self, night: dt.date | str) -> list[str]:
+        rows = self._db.execute("SELECT name FROM observers WHERE night = ? ORDER BY id", (str(night),))
+        return [r[0] for r in rows]
+
+    def add_planned_visits(self, night: dt.date | str, visits: Iterable[dict]) -> list[int]:
+        """Store the plan's visits for a night (keys: target, filter, exposure_s, frames, start_jd, end_jd)."""
+        statements = [("INSERT INTO planned_visits (night, target, filter, exposure_s, frames, start_jd, end_jd) "
+                       "VALUES (?, ?, ?, ?, ?, ?, ?)",
+                       (str(night), v["target"], v.get("filter"), v.get("exposure_s"), int(v.get("frames", 1)),
+                        v.get("start_jd"), v.get("end_jd"))) for v in visits]
+        return [int(c.lastrowid) for c in self._write(statements)]
+
+    def planned_visits(self, night: dt.date | str) -> list[PlannedVisit]:
+        rows = self._db.execute(
+            "SELECT id, night, target, filter, exposure_s, frames, start_jd, end_jd, done_entry_id "
+            "FROM planned_visits WHERE night = ? ORDER BY COALESCE(start_jd, 0), id", (str(night),))
+        return [PlannedVisit(*r) for r in rows]
