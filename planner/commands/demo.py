@@ -218,5 +218,17 @@ def step_phases(site, targets, night, out):
     ]
 
 
+def step_log(site, targets, night, out):
+    """An invented night of frames, ingested into a logbook and printed as a night log."""
+    from planner.commands.log import write_demo_log
+
+    write_demo_log(out, site, night)
+    return [
+        ("demo_frames/", "invented FITS frames of the night (headers only matter)"),
+        ("demo_logbook.sqlite", "the logbook they were ingested into (gcplan log list --logbook …)"),
+        ("nightlog.pdf", "the printed night log"),
+    ]
+
+
 #: The demo's steps in order; each returns the files it wrote with a line on each.
-STEPS = [step_night, step_semester, step_exposures, step_phases]
+STEPS = [step_night, step_semester, step_exposures, step_phases, step_log]
