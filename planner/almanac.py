@@ -149,17 +149,25 @@ def _refine(func, lo, hi, f_lo, f_hi):
     return np.where(denom != 0, (lo * f_hi - hi * f_lo) / np.where(denom == 0, 1, denom), lo)
 
 
-def _first_crossing(grid_jd, values, level, func, direction: int, after_jd=None):
-    """First crossing of ``level`` per row (direction −1 descending, +1 ascending); NaN if none."""
+def _crossing(grid_jd, values, level, func, direction: int, *, after=None, before=None, last=False):
+    """One crossing of ``level`` per row, refined; NaN where there is none.
+
+    ``direction`` −1 is descending, +1 ascending.  Only grid segments starting
+    at index ≥ ``after`` and ending at index ≤ ``before`` (per-row arrays) are
+    considered; ``last`` picks the latest of them instead of the earliest.
+    """
     above = values >= level
     if direction < 0:
         cross = above[:, :-1] & ~above[:, 1:]
     else:
         cross = ~above[:, :-1] & above[:, 1:]
-    if after_jd is not None:
-        cross &= ~(grid_jd[:, 1:] <= np.nan_to_num(after_jd, nan=-np.inf)[:, None])
+    seg = np.arange(cross.shape[1])[None, :]
+    if after is not None:
+        cross &= seg >= np.asarray(after)[:, None]
+    if before is not None:
+        cross &= seg + 1 <= np.asarray(before)[:, None]
     has = cross.any(axis=1)
-    idx = np.argmax(cross, axis=1)
+    idx = (cross.shape[1] - 1 - np.argmax(cross[:, ::-1], axis=1)) if last else np.argmax(cross, axis=1)
     rows = np.nonzero(has)[0]
     out = np.full(grid_jd.shape[0], np.nan)
     if rows.size:
@@ -184,25 +192,28 @@ def almanac_for_nights(
     moon_fn = lambda t: moon_altitude_deg(eph, geo, t)  # noqa: E731
     sun_alt = sun_fn(grid)
     moon_alt = moon_fn(grid)
+    # The night is anchored on the Sun's lowest point of the span (solar
+    # midnight): the evening events are the last descending crossings before
+    # it, the morning events the first ascending ones after it.  Where the
+    # clock is far from solar time (a UTC site in the Far East) the span can
+    # open in darkness and close after the next sunset; that sunset belongs to
+    # the next night.
+    low = np.argmin(sun_alt, axis=1)
 
     def evening_morning(level):
-        evening = _first_crossing(grid, sun_alt, level, sun_fn, -1)
-        morning_after = _first_crossing(grid, sun_alt, level, sun_fn, +1, after_jd=evening)
-        # With no evening crossing (e.g. the Sun already below at noon), the
-        # morning event is the last ascending crossing of the span.
-        morning_last = _last_ascending(grid, sun_alt, level, sun_fn)
-        morning = np.where(np.isnan(evening), morning_last, morning_after)
+        evening = _crossing(grid, sun_alt, level, sun_fn, -1, before=low, last=True)
+        morning = _crossing(grid, sun_alt, level, sun_fn, +1, after=low)
         return evening, morning
 
     sunset, sunrise = evening_morning(SUNRISE_ALTITUDE_DEG)
     evening, morning = {}, {}
     for name in TWILIGHTS:
         evening[name], morning[name] = evening_morning(TWILIGHT_ALTITUDE_DEG[name])
-    moonrise = _first_crossing(grid, moon_alt, MOONRISE_ALTITUDE_DEG, moon_fn, +1)
-    moonset = _first_crossing(grid, moon_alt, MOONRISE_ALTITUDE_DEG, moon_fn, -1)
+    moonrise = _crossing(grid, moon_alt, MOONRISE_ALTITUDE_DEG, moon_fn, +1)
+    moonset = _crossing(grid, moon_alt, MOONRISE_ALTITUDE_DEG, moon_fn, -1)
 
     rows = np.arange(len(grid))
-    solar_midnight = grid[rows, np.argmin(sun_alt, axis=1)]
+    solar_midnight = grid[rows, low]
     middle = np.where(np.isfinite(sunset) & np.isfinite(sunrise), (sunset + sunrise) / 2.0, solar_midnight)
     illumination, phase_angle = moon_phase(eph, middle)
     return Almanac(
@@ -222,11 +233,6 @@ def almanac_for_nights(
         sun_min_altitude_deg=sun_alt.min(axis=1),
         sun_max_altitude_deg=sun_alt.max(axis=1),
     )
-
-
-def _last_ascending(grid, values, level, func):
-    flipped = _first_crossing(grid[:, ::-1], values[:, ::-1], level, func, -1)
-    return flipped
 
 
 def dark_windows_jd(
