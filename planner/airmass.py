@@ -23,15 +23,21 @@ def airmass_kasten_young(altitude_deg):
     return np.where(h >= 0.0, x, np.nan)
 
 
+#: Where Kasten & Young's X(h) has its minimum (found numerically; see altitude_for_airmass).
+_ALTITUDE_OF_MINIMUM_DEG = 89.984
+
+
 def altitude_for_airmass(airmass):
     """The altitude (degrees) at which the Kasten & Young air mass equals ``airmass`` (≥ 1).
 
-    The formula is monotonic in h on [0°, 90°]; 60 bisection steps pin it to
-    1e-16 of the interval, far below any use here.
+    The formula falls monotonically from the horizon to a shallow minimum of
+    0.99971 at h = 89.984° (its zenith value is not exactly 1), so airmass 1.0
+    is reached at 88.6°; the search runs on that monotonic stretch.  60
+    bisection steps pin the answer far below any use here.
     """
     x = np.asarray(airmass, dtype=float)
     lo = np.zeros_like(x)
-    hi = np.full_like(x, 90.0)
+    hi = np.full_like(x, _ALTITUDE_OF_MINIMUM_DEG)
     for _ in range(60):
         mid = 0.5 * (lo + hi)
         too_low = airmass_kasten_young(mid) > x  # still more air than wanted: go higher

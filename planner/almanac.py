@@ -4,8 +4,9 @@ Conventions (DESIGN.md): sunset and sunrise when the Sun's centre is at
 −0.833° geometric altitude (upper limb on the horizon with standard
 refraction, the almanac convention); twilights end/begin at −6° (civil),
 −12° (nautical) and −18° (astronomical); moonrise and moonset when the
-topocentric Moon's centre is at −0.833° (refraction 34′ plus a mean
-semi-diameter of about 15.5′).  Events that do not happen in a night — the
+topocentric Moon's upper limb touches the horizon: its centre at
+−34′ − s, with s its topocentric semi-diameter (asin of the Moon's radius
+over its distance: 14.7′–16.8′), the convention of the almanacs.  Events that do not happen in a night — the
 midnight sun, polar night, a summer night that never gets astronomically
 dark, a night without a moonrise — are NaN here and ``null`` in JSON.
 
@@ -47,8 +48,14 @@ from planner.sites import TWILIGHTS, SiteProfile
 
 #: Sun's centre at sunset/sunrise, degrees (upper limb + 34′ refraction).
 SUNRISE_ALTITUDE_DEG = -0.833
-#: Moon's topocentric centre at moonrise/moonset, degrees (see module docstring).
+#: Moon's topocentric centre at moonrise/moonset for a mean semi-diameter,
+#: degrees: used where a fixed "Moon is up" level will do (constraints);
+#: the almanac's rise and set use the actual semi-diameter.
 MOONRISE_ALTITUDE_DEG = -0.833
+#: Refraction at the horizon, degrees (34′, the almanac convention).
+HORIZON_REFRACTION_DEG = 34.0 / 60.0
+#: The Moon's mean radius, km (IAU).
+MOON_RADIUS_KM = 1737.4
 #: Sun's altitude at the end of evening twilight / start of morning twilight.
 TWILIGHT_ALTITUDE_DEG = MappingProxyType({"civil": -6.0, "nautical": -12.0, "astronomical": -18.0})
 
@@ -122,6 +129,14 @@ def moon_altitude_deg(eph: Ephemeris, geo: SiteGeometry, jd_utc) -> np.ndarray:
     return altitude_deg(geo.latitude_deg, dec, lst - ra)
 
 
+def moon_limb_above_rise_level_deg(eph: Ephemeris, geo: SiteGeometry, jd_utc) -> np.ndarray:
+    """How far (degrees) the Moon's centre is above its rise/set level −34′ − semi-diameter."""
+    lst = local_sidereal_deg(eph, jd_utc, geo.longitude_deg)
+    ra, dec, dist_km = moon_radec_deg(eph, geo, jd_utc, lst)
+    semi_diameter = np.degrees(np.arcsin(MOON_RADIUS_KM / dist_km))
+    return altitude_deg(geo.latitude_deg, dec, lst - ra) + HORIZON_REFRACTION_DEG + semi_diameter
+
+
 def night_grid_jd(start_jd: np.ndarray, end_jd: np.ndarray, step_d: float) -> np.ndarray:
     """Per-night sample times, shape (nights, K): each row from its start to its end."""
     length = np.nanmax(end_jd - start_jd) if len(start_jd) else 0.0
@@ -189,7 +204,7 @@ def almanac_for_nights(
         eph = build_ephemeris(float(span_start.min()), float(span_end.max()))
     grid = night_grid_jd(span_start, span_end, _GRID_STEP_D)
     sun_fn = lambda t: sun_altitude_deg(eph, geo, t)  # noqa: E731
-    moon_fn = lambda t: moon_altitude_deg(eph, geo, t)  # noqa: E731
+    moon_fn = lambda t: moon_limb_above_rise_level_deg(eph, geo, t)  # noqa: E731
     sun_alt = sun_fn(grid)
     moon_alt = moon_fn(grid)
     # The night is anchored on the Sun's lowest point of the span (solar
@@ -209,8 +224,8 @@ def almanac_for_nights(
     evening, morning = {}, {}
     for name in TWILIGHTS:
         evening[name], morning[name] = evening_morning(TWILIGHT_ALTITUDE_DEG[name])
-    moonrise = _crossing(grid, moon_alt, MOONRISE_ALTITUDE_DEG, moon_fn, +1)
-    moonset = _crossing(grid, moon_alt, MOONRISE_ALTITUDE_DEG, moon_fn, -1)
+    moonrise = _crossing(grid, moon_alt, 0.0, moon_fn, +1)
+    moonset = _crossing(grid, moon_alt, 0.0, moon_fn, -1)
 
     rows = np.arange(len(grid))
     solar_midnight = grid[rows, low]
