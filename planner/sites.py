@@ -340,9 +340,10 @@ def parse_site_profile(data: Mapping, source: str) -> SiteProfile:
     ), source, (notes or "").strip())
 
 
-def load_site_profile(path: str | Path) -> SiteProfile:
-    """Read a site profile (TOML) and validate it; errors name ``path`` as given."""
-    return parse_site_profile(read_toml(path, str(path), SiteProfileError, "site profile"), str(path))
+def load_site_profile(path: str | Path, source: str | None = None) -> SiteProfile:
+    """Read a site profile (TOML) and validate it; errors name ``source`` (default: ``path`` as given)."""
+    name = str(path) if source is None else source
+    return parse_site_profile(read_toml(path, name, SiteProfileError, "site profile"), name)
 
 
 def bundled_site_names() -> list[str]:
@@ -414,7 +415,9 @@ def resolve_site(spec: str, timezone: str | None = None) -> SiteProfile:
                 f"unknown site {show(spec)}: not a profile file, a bundled profile or LAT,LON[,ELEV_M]; "
                 + (f"did you mean {' or '.join(guesses)}? " if guesses else "")
                 + f"(bundled: {', '.join(names) or 'none'})")
-        profile = load_site_profile(site_profiles_dir() / f"{match[0]}.toml")
+        # Bundled profiles are named as users see them in the source tree,
+        # not by the install location.
+        profile = load_site_profile(site_profiles_dir() / f"{match[0]}.toml", f"site_profiles/{match[0]}.toml")
     if timezone is not None:
         if _timezone_problem(timezone):
             raise error(SiteProfileError, f"timezone {_timezone_problem(timezone)}")
