@@ -318,7 +318,7 @@ def test_fast_path_vs_astroplan(spec, tz, night):
 
 def test_many_nights_equal_one_at_a_time():
     # The vectorised pass over a run of nights gives each night what it gives
-    # alone (no cross-talk between rows; nights need not be consecutive).
+    # alone (rows do not disturb each other; nights need not be consecutive).
     site = _site("demo", None)
     nights = [dt.date(2027, 1, 5), dt.date(2027, 4, 20), dt.date(2027, 7, 1)]
     together = almanac_for_nights(site, nights)

@@ -1,4 +1,4 @@
-"""Build targets/globular_clusters.ecsv from transcribed published tables.
+"""Build targets/globular_clusters.ecsv from published tables copied to text files.
 
 Usage: python tests/data/make_catalog.py [SOURCES_DIR [OUT.ecsv]]
 
@@ -13,7 +13,7 @@ Inputs (in SOURCES_DIR, default tests/data/catalog_sources/):
   Local Volume Database (Pace 2024), which quotes the Baumgardt & Vasiliev
   2021 distance moduli.
 
-The transcription is checked against itself before anything is written:
+The copy is checked against itself before anything is written:
 Galactic l, b recomputed from RA, Dec must match Harris's columns; M_V,t must
 equal V_t - (m-M)_V; (m-M)_V - 3.1 E(B-V) must match R_Sun; r_h >= r_c; every
 LVDB row must sit within an arcminute of a Harris position; the [Fe/H] values
@@ -177,7 +177,7 @@ def main() -> None:
     print(f"LVDB position match: median {np.median(sep.arcsec):.2f}\", max {sep.arcsec.max():.2f}\"")
     if failures:
         print("\n".join(failures))
-        raise SystemExit(f"{len(failures)} transcription checks failed")
+        raise SystemExit(f"{len(failures)} consistency checks of the copied tables failed")
 
     names, aliases, ra, dec, dist, dm, ebv, feh, rh, vt, dsrc, notes = ([] for _ in range(12))
     for r, c in zip(part1, icrs):
@@ -289,8 +289,8 @@ def build_meta() -> dict:
         "construction": (
             "Built offline once, not at run time. The data rows of the three parts of mwgc.dat "
             "(copy in the public repository balbinot/mwgc, commit ac6a8b26) and the columns named "
-            "above of the Local Volume Database's gc_harris.csv were transcribed to text files and "
-            "parsed by a short script. Before writing, the script checked the transcription: every "
+            "above of the Local Volume Database's gc_harris.csv were copied verbatim to text files "
+            "(tests/data/catalog_sources/) and read by tests/data/make_catalog.py. Before writing, the script checked the copy: every "
             "position either reproduces Harris's own Galactic l, b to 0.012 deg or lies within 10 arcsec "
             "of the Local Volume Database position (median offset 0.07 arcsec); M_V,t = V_t - (m-M)_V to "
             "0.01 mag; (m-M)_V - 3.1 E(B-V) agrees with R_Sun within its rounding; r_h >= r_c where "
