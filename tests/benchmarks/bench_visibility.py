@@ -30,7 +30,6 @@ The speed ratio is printed last.
 from __future__ import annotations
 
 import argparse
-import dataclasses
 import datetime as dt
 import shutil
 import subprocess

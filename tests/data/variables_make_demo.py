@@ -22,7 +22,7 @@ sys.path.insert(0, str(ROOT))
 
 from planner.catalog import load_catalog  # noqa: E402
 from planner.photometry import science_level  # noqa: E402
-from planner.recovery import OOSTERHOFF_I, OOSTERHOFF_II, synthetic_population  # noqa: E402
+from planner.recovery import OOSTERHOFF_I, synthetic_population  # noqa: E402
 
 # (catalog name, short label for ids, Oosterhoff model, number of stars): the
 # clusters of the demo campaign (targets/demo/clusters.ecsv).  All five are
