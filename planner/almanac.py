@@ -85,6 +85,9 @@ class Almanac:
     moon_phase_angle_deg: np.ndarray  # 0 = full, 180 = new
     sun_min_altitude_deg: np.ndarray  # lowest Sun of the night
     sun_max_altitude_deg: np.ndarray  # highest Sun within the span
+    # Above (> 0) or below (< 0) its rise/set level all span long: the Moon
+    # that never rises or never sets this night; 0 where it does either.
+    moon_up_all_span: np.ndarray | None = None
 
     def __len__(self) -> int:
         return len(self.nights)
@@ -247,6 +250,7 @@ def almanac_for_nights(
         moon_phase_angle_deg=phase_angle,
         sun_min_altitude_deg=sun_alt.min(axis=1),
         sun_max_altitude_deg=sun_alt.max(axis=1),
+        moon_up_all_span=np.where(moon_alt.min(axis=1) > 0, 1, np.where(moon_alt.max(axis=1) < 0, -1, 0)),
     )
 
 

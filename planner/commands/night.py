@@ -138,6 +138,8 @@ def night_json(run_, i: int = 0) -> dict:
             "phase_angle_deg": round(float(alm.moon_phase_angle_deg[i]), 2),
             "rise": iso_utc(alm.moonrise_jd[i]),
             "set": iso_utc(alm.moonset_jd[i]),
+            "up_all_night": bool(alm.moon_up_all_span is not None and alm.moon_up_all_span[i] > 0),
+            "down_all_night": bool(alm.moon_up_all_span is not None and alm.moon_up_all_span[i] < 0),
         },
         "constraints": constraints_json(run_.constraints),
         "targets": targets,
@@ -181,10 +183,17 @@ def night_text(run_, i: int = 0) -> str:
     row("sun (−0.833°)", alm.sunset_jd[i], alm.sunrise_jd[i])
     for name, level in (("civil", 6), ("nautical", 12), ("astronomical", 18)):
         row(f"{name} (−{level}°)", alm.evening_jd[name][i], alm.morning_jd[name][i])
-    lines.append(
-        f"  moonrise {local_hhmm(alm.moonrise_jd[i], zone)} local ({utc_hhmm(alm.moonrise_jd[i])} UTC), "
-        f"moonset {local_hhmm(alm.moonset_jd[i], zone)} local ({utc_hhmm(alm.moonset_jd[i])} UTC)"
-    )
+    always = 0 if alm.moon_up_all_span is None else int(alm.moon_up_all_span[i])
+    if always:
+        lines.append("  the Moon is up all night" if always > 0 else "  the Moon stays below the horizon all night")
+    else:
+        lines.append(
+            f"  moonrise {local_hhmm(alm.moonrise_jd[i], zone)} local ({utc_hhmm(alm.moonrise_jd[i])} UTC), "
+            f"moonset {local_hhmm(alm.moonset_jd[i], zone)} local ({utc_hhmm(alm.moonset_jd[i])} UTC)"
+        )
+    before, after = (utc_offset_label(jd, zone) for jd in (alm.span_start_jd[i], alm.span_end_jd[i]))
+    if before != after:
+        lines.append(f"  the clocks change tonight: {before} in the evening, {after} in the morning")
     lines.append(
         f"  Moon {alm.moon_illumination[i] * 100:.0f}% illuminated (phase angle "
         f"{alm.moon_phase_angle_deg[i]:.0f}°) at the middle of the night"
