@@ -100,22 +100,46 @@ class Almanac:
         """
         if twilight not in TWILIGHT_ALTITUDE_DEG:
             raise ValueError(f"twilight must be one of {', '.join(TWILIGHTS)} (got {twilight!r})")
-        level = TWILIGHT_ALTITUDE_DEG[twilight]
-        start = np.array(self.evening_jd[twilight], dtype=float)
-        end = np.array(self.morning_jd[twilight], dtype=float)
-        always_dark = self.sun_max_altitude_deg < level
-        never_dark = self.sun_min_altitude_deg >= level
-        start = np.where(np.isnan(start) & ~never_dark, self.span_start_jd, start)
-        end = np.where(np.isnan(end) & ~never_dark, self.span_end_jd, end)
-        start = np.where(always_dark, self.span_start_jd, start)
-        end = np.where(always_dark, self.span_end_jd, end)
-        start = np.where(never_dark, np.nan, start)
-        end = np.where(never_dark, np.nan, end)
-        return start, end
+        return _dark_window(
+            self.evening_jd[twilight], self.morning_jd[twilight], self.span_start_jd, self.span_end_jd,
+            self.sun_min_altitude_deg, self.sun_max_altitude_deg, TWILIGHT_ALTITUDE_DEG[twilight],
+        )
 
     def dark_hours(self, twilight: str = "astronomical") -> np.ndarray:
         start, end = self.dark_window_jd(twilight)
         return np.nan_to_num((end - start) * 24.0, nan=0.0)
+
+
+def _dark_window(evening, morning, span_start, span_end, sun_min, sun_max, level):
+    """The rules of a dark window from a night's events (see Almanac.dark_window_jd)."""
+    start = np.array(evening, dtype=float)
+    end = np.array(morning, dtype=float)
+    always_dark = sun_max < level
+    never_dark = sun_min >= level
+    start = np.where(np.isnan(start) & ~never_dark, span_start, start)
+    end = np.where(np.isnan(end) & ~never_dark, span_end, end)
+    start = np.where(always_dark, span_start, start)
+    end = np.where(always_dark, span_end, end)
+    return np.where(never_dark, np.nan, start), np.where(never_dark, np.nan, end)
+
+
+def dark_windows_for_spans(eph: Ephemeris, geo: SiteGeometry, span_start_jd, span_end_jd, twilight: str):
+    """Only the dark windows of nights (JD UTC start, end), for one twilight.
+
+    The same events and rules as :func:`almanac_for_nights` followed by
+    :meth:`Almanac.dark_window_jd`, for callers (the scheduler) that need no
+    Moon and no other levels and plan one night in tens of milliseconds.
+    """
+    s0 = np.atleast_1d(np.asarray(span_start_jd, dtype=float))
+    s1 = np.atleast_1d(np.asarray(span_end_jd, dtype=float))
+    grid = night_grid_jd(s0, s1, _GRID_STEP_D)
+    sun_fn = lambda t: sun_altitude_deg(eph, geo, t)  # noqa: E731
+    sun_alt = sun_fn(grid)
+    low = np.argmin(sun_alt, axis=1)
+    level = TWILIGHT_ALTITUDE_DEG[twilight]
+    evening = _crossing(grid, sun_alt, level, sun_fn, -1, before=low, last=True)
+    morning = _crossing(grid, sun_alt, level, sun_fn, +1, after=low)
+    return _dark_window(evening, morning, s0, s1, sun_alt.min(axis=1), sun_alt.max(axis=1), level)
 
 
 def sun_altitude_deg(eph: Ephemeris, geo: SiteGeometry, jd_utc) -> np.ndarray:

@@ -24,6 +24,9 @@ COMMAND_MODULES = (
     "planner.commands.recover",
     "planner.commands.demo",
     "planner.commands.log",
+    "planner.commands.schedule",
+    "planner.commands.campaign",
+    "planner.commands.replan",
 )
 
 # Options whose values may start with "-" (a southern latitude, a western

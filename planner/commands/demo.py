@@ -230,5 +230,55 @@ def step_log(site, targets, night, out):
     ]
 
 
+def write_demo_schedule(out_dir, site=None):
+    """Plan the demo campaign (``targets/demo/campaign.toml``) and write, into ``out_dir``:
+    a night sheet per night (``schedule_YYYY-MM-DD.txt``), the whole plan as JSON
+    (``campaign.json``) and the first night's visits over the altitude curves
+    (``schedule_FIRSTNIGHT.png``).  ``site``, when given, replaces the file's site.
+    Returns the paths written.
+    """
+    from dataclasses import replace
+
+    from planner.commands.common import to_jsonable
+    from planner.commands.schedule import campaign_json, night_sheet
+    from planner.reports.schedule_plot import save_schedule_plot
+    from planner.resources import targets_dir
+    from planner.scheduling.campaign import plan_campaign
+    from planner.scheduling.campaign_file import read_campaign_file
+    from planner.visibility import constraints_for_site
+
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    campaign = read_campaign_file(targets_dir() / "demo" / "campaign.toml")
+    if site is not None:
+        c = campaign.constraints
+        campaign = replace(campaign, site=site, constraints=constraints_for_site(
+            site, twilight=c.twilight, max_airmass=c.max_airmass, min_altitude_deg=c.min_altitude_deg,
+            min_moon_separation_deg=c.min_moon_separation_deg))
+    plan = plan_campaign(campaign)
+    written = []
+    for night_plan in plan.nights:
+        p = out / f"schedule_{night_plan.night.isoformat()}.txt"
+        _write(p, night_sheet(campaign.site, night_plan))
+        written.append(p)
+    p = out / "campaign.json"
+    _write(p, json.dumps(to_jsonable(campaign_json(plan)), indent=2, ensure_ascii=False))
+    written.append(p)
+    first = plan.nights[0]
+    written.append(save_schedule_plot(campaign.site, first, out / f"schedule_{first.night.isoformat()}.png"))
+    return written
+
+
+def step_schedule(site, targets, night, out):
+    """The invented demo campaign (its own fixed nights) planned night by night."""
+    paths = write_demo_schedule(out / "campaign", site)
+    first = min(p.name for p in paths if p.suffix == ".txt")
+    return [
+        ("campaign/schedule_*.txt", f"night sheets of the demo campaign's {len(paths) - 2} nights (from {first[9:19]})"),
+        ("campaign/campaign.json", "the whole campaign plan with coverage and recovery forecast"),
+        ("campaign/schedule_*.png", "the first night's visits over the altitude curves"),
+    ]
+
+
 #: The demo's steps in order; each returns the files it wrote with a line on each.
-STEPS = [step_night, step_semester, step_exposures, step_phases, step_log]
+STEPS = [step_night, step_semester, step_exposures, step_phases, step_log, step_schedule]

@@ -36,9 +36,13 @@ def register(sub) -> None:
                    help="a synthetic population by Oosterhoff type, or a variables table")
     p.add_argument("--stars", type=int, metavar="N",
                    help="stars to simulate (default 200; for a file: all of its rows)")
-    p.add_argument("--nights", type=int, required=True, metavar="K", help="consecutive nights")
-    p.add_argument("--visits-per-night", type=int, required=True, metavar="V",
-                   help="visits spread evenly through each night's dark window")
+    p.add_argument("--nights", type=int, metavar="K", help="consecutive nights (not with --schedule)")
+    p.add_argument("--visits-per-night", type=int, metavar="V",
+                   help="visits spread evenly through each night's dark window (not with --schedule)")
+    p.add_argument("--schedule", metavar="FILE",
+                   help="take the visit times from a plan instead: gcplan schedule --out (.ecsv) or the "
+                   "--json of schedule/campaign/replan (.json); its variable-star visits (of --cluster, if "
+                   "given) are used")
     p.add_argument("--date", metavar="YYYY-MM-DD",
                    help="local evening date of the first night (default: today at the site)")
     p.add_argument("--twilight", choices=("civil", "nautical", "astronomical"),
@@ -66,12 +70,15 @@ def register(sub) -> None:
 def check_options(args) -> None:
     from planner.variables_io import VariablesOptionError as E
 
+    if args.schedule:
+        if args.nights is not None or args.visits_per_night is not None:
+            raise E("--schedule gives the visit times; leave out --nights and --visits-per-night")
+    elif args.nights is None or args.visits_per_night is None:
+        raise E("give --nights K and --visits-per-night V, or --schedule FILE")
+    else:
+        _check_counts(args, E)
     if args.stars is not None and not 1 <= args.stars <= 100_000:
         raise E(f"--stars must be between 1 and 100000 (got {args.stars})")
-    if not 1 <= args.nights <= 3700:
-        raise E(f"--nights must be between 1 and 3700 (got {args.nights})")
-    if not 1 <= args.visits_per_night <= 500:
-        raise E(f"--visits-per-night must be between 1 and 500 (got {args.visits_per_night})")
     if not args.exposure > 0:
         raise E(f"--exposure must be a positive number of seconds (got {args.exposure:g})")
     if args.noise_mag is not None and not 0 < args.noise_mag < 5:
@@ -80,6 +87,13 @@ def check_options(args) -> None:
         raise E(f"--noise-floor must be between 0 and 5 mag (got {args.noise_floor:g})")
     if not 0 <= args.jitter_min <= 120:
         raise E(f"--jitter-min must be between 0 and 120 minutes (got {args.jitter_min:g})")
+
+
+def _check_counts(args, E) -> None:
+    if not 1 <= args.nights <= 3700:
+        raise E(f"--nights must be between 1 and 3700 (got {args.nights})")
+    if not 1 <= args.visits_per_night <= 500:
+        raise E(f"--visits-per-night must be between 1 and 500 (got {args.visits_per_night})")
 
 
 def _first_night(args, site) -> dt.date:
@@ -161,11 +175,25 @@ def run(args) -> int:
         raise VariablesOptionError(
             f"--filter {args.filter!r} is not a filter of site {site.name!r} (filters: {', '.join(site.filters)})"
         )
-    first = _first_night(args, site)
     twilight = args.twilight or site.limits.twilight
     rng = np.random.default_rng(args.seed)
-    windows = dark_windows_jd(site, first, args.nights, twilight)
-    jd = visit_times_in_windows(windows, args.visits_per_night, rng, args.jitter_min / 1440.0)
+    if args.schedule:
+        from planner.logbook import night_of_jd
+        from planner.scheduling.plan_io import variable_visit_times
+
+        jd = variable_visit_times(args.schedule, args.cluster)
+        if jd.size < 4:
+            raise VariablesOptionError(f"--schedule {args.schedule!r} holds {jd.size} usable visit(s)"
+                                       + (f" of {args.cluster}" if args.cluster else "") + "; at least 4 are needed")
+        nights_seen = sorted({night_of_jd(t, site.location.timezone) for t in jd})
+        first = nights_seen[0]
+        args.nights = (nights_seen[-1] - first).days + 1
+        args.visits_per_night = round(jd.size / len(nights_seen), 2)
+        windows = np.full((len(nights_seen), 2), 0.0)
+    else:
+        first = _first_night(args, site)
+        windows = dark_windows_jd(site, first, args.nights, twilight)
+        jd = visit_times_in_windows(windows, args.visits_per_night, rng, args.jitter_min / 1440.0)
     if jd.size < 4:
         raise VariablesOptionError(
             f"only {jd.size} visits fit in {args.nights} night(s) from {first} at {site.name!r} "
@@ -240,8 +268,9 @@ def run(args) -> int:
         "noise_source": noise_source,
         "coarse_step_per_d": search.coarse_step_per_d,
         "seed": args.seed,
-        "note": "visits fill each night's dark window; whether each cluster is above the horizon "
-        "then is not checked here (use a schedule for that)",
+        "note": (f"visit times from the plan {args.schedule}" if args.schedule else
+                 "visits fill each night's dark window; whether each cluster is above the horizon "
+                 "then is not checked here (use a schedule for that)"),
     }
     if args.json:
         common.print_json(result)

@@ -381,7 +381,7 @@ def _mark_clock_change(ax, when, before, after, zone) -> None:
 
 def save_night_chart(run, curves, path) -> Path:
     """Write :func:`night_chart` to ``path`` (PNG or PDF, chosen by the suffix)."""
-    return _save(night_chart(run, curves), path)
+    return save_figure(night_chart(run, curves), path)
 
 
 # --- observable hours over a run of nights ----------------------------------
@@ -543,10 +543,10 @@ def _mark_moon_phases(ax, x_edges, illum) -> None:
 
 def save_observability_chart(run, path) -> Path:
     """Write :func:`observability_chart` to ``path`` (PNG or PDF, chosen by the suffix)."""
-    return _save(observability_chart(run), path)
+    return save_figure(observability_chart(run), path)
 
 
-def _save(fig, path) -> Path:
+def save_figure(fig, path) -> Path:
     from matplotlib.backends.backend_agg import FigureCanvasAgg
 
     p = Path(path)

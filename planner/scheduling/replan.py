@@ -1,0 +1,245 @@
+"""Re-planning the rest of a night from a given moment.
+
+Rules (issue 5):
+
+* **Nothing before ``now`` changes.**  The night's plan is made exactly as
+  ``gcplan schedule`` makes it; its visits that started before ``now`` are kept
+  with their times, marked *done*, *under way* (started, not finished) or
+  *missed* (not done: not in ``--done``/the logbook when either says what was
+  done, or — when neither does — inside a closed period).
+* **What changed:** closed periods after ``now``, a new seeing (every goal's
+  frames recomputed by the exposure core; goals whose seeing limit is now
+  exceeded wait for another night), a missed visit (its request wants time
+  again).  If nothing changed, the original plan is returned as it was: the
+  same inputs always give the same plan.
+* Otherwise the rest of the night is planned again from ``now`` by the same
+  planner, with the done and under-way visits fixed and the telescope starting
+  where the last of them leaves it.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import re
+from dataclasses import dataclass, replace
+
+from planner.errors import DateError
+from planner.nights import datetime_to_jd, iso_utc
+from planner.scheduling.night import NightPlan, plan_night
+
+#: A logbook entry counts for a planned visit when it starts this close to the visit (days).
+LOG_MATCH_D = 10.0 / 1440.0
+_HHMM = re.compile(r"^\s*(\d{1,2}):(\d{2})\s*$")
+
+
+def _local_clock(hh: int, mm: int, night: dt.date, zone: str, option: str, text: str) -> float:
+    from zoneinfo import ZoneInfo
+
+    if not (0 <= hh <= 23 and 0 <= mm <= 59):
+        raise DateError(f"{option} {text!r}: {hh:02d}:{mm:02d} is not a clock time (00:00..23:59)")
+    day = night if hh >= 12 else night + dt.timedelta(days=1)  # the night runs from noon to noon
+    return datetime_to_jd(dt.datetime.combine(day, dt.time(hh, mm), tzinfo=ZoneInfo(zone)))
+
+
+def parse_moment(text: str, night: dt.date, zone: str, option: str = "--now") -> float:
+    """JD (UTC) of ``text``: ISO 8601 with a zone (``2027-01-06T03:10Z``, ``...-03:00``), an ISO
+    date-time without one (the site's local time), or a local clock time ``HH:MM`` on the night."""
+    from zoneinfo import ZoneInfo
+
+    m = _HHMM.match(text)
+    if m:
+        return _local_clock(int(m[1]), int(m[2]), night, zone, option, text)
+    try:
+        moment = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00").replace("z", "+00:00"))
+    except ValueError:
+        raise DateError(f"{option} {text!r} is not a moment: give ISO 8601 such as 2027-01-06T03:10Z "
+                        "(or with an offset, or local time without one) or a local HH:MM") from None
+    if moment.tzinfo is None:
+        moment = moment.replace(tzinfo=ZoneInfo(zone))
+    return datetime_to_jd(moment)
+
+
+def parse_now(text: str, night: dt.date, zone: str) -> float:
+    jd = parse_moment(text, night, zone, "--now")
+    from planner.nights import local_noon_jd
+
+    start, end = local_noon_jd(night, zone), local_noon_jd(night + dt.timedelta(days=1), zone)
+    if not start <= jd <= end:
+        raise DateError(f"--now {text!r} is not in the night of {night} (local noon to noon)")
+    return jd
+
+
+def parse_closed(text: str, night: dt.date, zone: str) -> tuple[float, float]:
+    """``START/END`` (ISO 8601, as :func:`parse_moment`) or local ``HH:MM-HH:MM``."""
+    m = re.fullmatch(r"\s*(\d{1,2}:\d{2})\s*-\s*(\d{1,2}:\d{2})\s*", text)
+    if m:
+        a, b = (parse_moment(x, night, zone, "--closed") for x in (m[1], m[2]))
+    elif "/" in text:
+        left, _, right = text.partition("/")
+        a, b = parse_moment(left, night, zone, "--closed"), parse_moment(right, night, zone, "--closed")
+    else:
+        raise DateError(f"--closed {text!r}: give START/END in ISO 8601 (2027-01-06T02:00Z/2027-01-06T03:30Z) "
+                        "or local HH:MM-HH:MM (23:10-00:40)")
+    if b <= a:
+        raise DateError(f"--closed {text!r}: the end ({iso_utc(b)}) is not after the start ({iso_utc(a)})")
+    return a, b
+
+
+def done_from_logbook(campaign, night: dt.date, path: str | None = None):
+    """(target, time_jd) of the night's logged frames, and a note on where they came from.
+
+    Reads :mod:`planner.logbook` (the file ``path``, else ``logbook.sqlite`` beside the
+    campaign file) when the module and the file exist; otherwise ``()``.
+    """
+    from pathlib import Path
+
+    try:
+        from planner.logbook import Logbook, default_logbook_path
+    except ImportError:
+        return (), "no logbook module: what is done comes from --done only"
+    p = Path(path) if path else default_logbook_path(campaign.source)
+    if not p.is_file():
+        if path:
+            from planner.logbook import LogbookError
+
+            raise LogbookError(f"--logbook {path!r}: no such file")
+        return (), None
+    from planner.nights import local_noon_jd
+
+    zone = campaign.site.location.timezone
+    a, b = local_noon_jd(night, zone), local_noon_jd(night + dt.timedelta(days=1), zone)
+    with Logbook(p) as book:
+        entries = book.entries(a, b)
+    return tuple((e.target, e.time_jd) for e in entries), f"done visits read from the logbook {p}"
+
+
+def closed_from_logbook(campaign, night: dt.date, path: str | None = None) -> tuple[tuple[float, float], ...]:
+    """Closed periods of the night from the logbook's weather events ('closed' until the next
+    'open', or until the night's end)."""
+    from pathlib import Path
+
+    try:
+        from planner.logbook import Logbook, default_logbook_path
+    except ImportError:
+        return ()
+    p = Path(path) if path else default_logbook_path(campaign.source)
+    if not p.is_file():
+        return ()
+    from planner.nights import local_noon_jd
+
+    zone = campaign.site.location.timezone
+    a, b = local_noon_jd(night, zone), local_noon_jd(night + dt.timedelta(days=1), zone)
+    with Logbook(p) as book:
+        events = sorted(book.weather(a, b), key=lambda e: e.time_jd)
+    out, since = [], None
+    for e in events:
+        if e.state == "closed" and since is None:
+            since = e.time_jd
+        elif e.state == "open" and since is not None:
+            out.append((since, e.time_jd))
+            since = None
+    if since is not None:
+        out.append((since, b))
+    return tuple(out)
+
+
+@dataclass(frozen=True)
+class ReplanResult:
+    plan: NightPlan
+    original: NightPlan
+    now_jd: float
+    reasons: tuple[str, ...]  # what changed; empty: the original plan stands
+
+    def summary(self) -> dict:
+        by = {s: [v.id for v in self.plan.visits if v.status == s] for s in ("done", "under way", "missed")}
+        return {"now": iso_utc(self.now_jd), "changed": list(self.reasons), "replanned": bool(self.reasons),
+                "done": by["done"], "under_way": by["under way"], "missed": by["missed"],
+                "new_visits": [v.id for v in self.plan.visits if v.status == "planned"]}
+
+    def summary_lines(self) -> list[str]:
+        s = self.summary()
+        head = (f"re-planned from {s['now']}: " + "; ".join(self.reasons)) if self.reasons else (
+            f"nothing changed at {s['now']}: the plan stands as it was")
+        return [head, f"done {len(s['done'])}, under way {len(s['under_way'])}, missed {len(s['missed'])}, "
+                      f"planned from now {len(s['new_visits'])}"]
+
+
+def _norm(name: str) -> str:
+    from planner.catalog import normalize_name
+
+    return normalize_name(name)
+
+
+def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(), logged=(),
+                 seeing_arcsec: float | None = None) -> ReplanResult:
+    """The night's plan, with everything from ``now_jd`` on planned again (see the module docstring)."""
+    from planner.scheduling.campaign import goal_exposures, plan_through_night
+
+    planned_seeing = campaign.seeing_arcsec or campaign.site.sky.typical_seeing_arcsec
+    original, requests, covered = plan_through_night(campaign, night)
+    closed = tuple(sorted(closed))
+    done_ids = {d for d in done}
+    done_targets = {_norm(d) for d in done}
+    told = bool(done) or bool(logged)
+    logged_at = [(_norm(t), jd) for t, jd in logged]
+
+    def overlaps_closed(v):
+        return any(v.start_jd < b and v.end_jd > a for a, b in closed)
+
+    past, reasons = [], []
+    for v in original.visits:
+        if v.start_jd >= now_jd:
+            continue
+        if told:
+            hit = (v.id in done_ids or v.id.split("-")[-1] in done_ids or _norm(v.target) in done_targets
+                   or any(t == _norm(v.target) and v.start_jd - LOG_MATCH_D <= jd <= v.end_jd + LOG_MATCH_D
+                          for t, jd in logged_at))
+        else:
+            hit = not overlaps_closed(v)
+        if v.end_jd > now_jd and not overlaps_closed(v):
+            status = "done" if (told and hit) else "under way"
+        else:
+            status = "done" if hit else "missed"
+        past.append(replace(v, status=status))
+    missed = [v for v in past if v.status == "missed"]
+    if missed:
+        reasons.append(f"{len(missed)} visit(s) before now not done ({', '.join(v.id for v in missed)})")
+    w1 = original.window_end_jd
+    if any(b > now_jd and a < w1 for a, b in closed):
+        reasons.append("closed " + ", ".join(f"{iso_utc(a)}–{iso_utc(b)}" for a, b in closed if b > now_jd))
+    seeing = planned_seeing if seeing_arcsec is None else float(seeing_arcsec)
+    if abs(seeing - planned_seeing) > 1e-9:
+        reasons.append(f"seeing {seeing:g}″ instead of {planned_seeing:g}″: exposures recomputed")
+    if not reasons:
+        keep = {v.id: v for v in past}
+        visits = tuple(keep.get(v.id, v) for v in original.visits)
+        return ReplanResult(replace(original, visits=visits, closed=closed), original, now_jd, ())
+    if seeing != planned_seeing:
+        exposures = goal_exposures(campaign, seeing)
+        requests = [replace(q, exposures=_new_exposures(q, exposures, campaign)) for q in requests]
+    fixed = tuple(v for v in past if v.status in ("done", "under way"))
+    start = max([now_jd] + [v.end_jd for v in fixed])
+    plan = plan_night(campaign.site, campaign.constraints, requests, night, original.window_start_jd,
+                      original.window_end_jd, _ephemeris(campaign, night), closed=closed, seeing_arcsec=seeing,
+                      fixed=fixed, not_before_jd=start, covered_bins=covered, id_offset=len(past))
+    prefix = f"{night:%m%d}-"
+    new = [v if v.id.startswith(prefix) else replace(v, id=prefix + v.id) for v in plan.visits]
+    visits = tuple(sorted(new + missed, key=lambda v: v.start_jd))
+    return ReplanResult(replace(plan, visits=visits), original, now_jd, tuple(reasons))
+
+
+def _new_exposures(q, exposures, campaign):
+    if q.purpose == "variables":
+        return exposures.get(("variables", q.target), q.exposures)
+    for i, g in enumerate(campaign.goals):
+        if q.key == f"{q.target}/{g.level}-{g.filter}":
+            return exposures.get((i, q.target), q.exposures)
+    return q.exposures
+
+
+def _ephemeris(campaign, night):
+    from planner.ephemeris import build_ephemeris
+    from planner.nights import night_spans_jd
+
+    s, e = night_spans_jd([night], campaign.site.location.timezone)
+    return build_ephemeris(float(s[0]), float(e[0]))

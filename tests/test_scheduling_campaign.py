@@ -1,0 +1,221 @@
+"""The demo campaign over its 14 nights, the schedule/campaign commands' JSON, and bad input.
+
+Checks against outside references: every night passes the astropy validator
+(planner.scheduling.validate); the Moon's illumination for dark time is the
+planner's own, so the tip frames' "dark" is re-checked with astropy's Moon.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+
+import numpy as np
+import pytest
+
+from planner.cli import main
+from planner.resources import targets_dir
+from planner.scheduling.campaign import plan_campaign
+from planner.scheduling.campaign_file import read_campaign_file
+from planner.scheduling.validate import validate_plan
+
+DEMO = targets_dir() / "demo" / "campaign.toml"
+ISO_Z = re.compile(r"^\d{4}-\d\d-\d\dT\d\d:\d\d:\d\dZ$")
+
+
+def run(capsys, *argv):
+    code = main([str(a) for a in argv])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+@pytest.fixture(scope="module")
+def demo_plan():
+    campaign = read_campaign_file(DEMO)
+    return campaign, plan_campaign(campaign)
+
+
+def test_demo_campaign_file_is_the_invented_one():
+    c = read_campaign_file(DEMO)
+    text = DEMO.read_text()
+    assert c.invented and "INVENTED" in text
+    assert len(c.nights) == 14 and str(c.nights[0]) == "2027-01-05"
+    assert "5904" not in text and not any("5904" in t.name for t in c.targets)
+    assert {g.level for g in c.goals} == {"tip", "hb", "turnoff"}
+    assert c.cadence.visits_per_night == 12 and c.cadence.phase_bins == 20
+
+
+@pytest.mark.slow
+def test_every_campaign_night_passes_the_validator(demo_plan):
+    campaign, plan = demo_plan
+    assert len(plan.nights) == 14
+    for night, requests in zip(plan.nights, plan.requests):
+        assert validate_plan(campaign.site, night, list(requests)) == [], night.night
+
+
+def test_tip_frames_dark_low_and_cadence_spaced(demo_plan):
+    import astropy.units as u
+    from astropy.coordinates import EarthLocation, get_body, AltAz
+    from astropy.time import Time
+
+    campaign, plan = demo_plan
+    loc = campaign.site.location
+    where = EarthLocation.from_geodetic(loc.longitude_deg * u.deg, loc.latitude_deg * u.deg, loc.elevation_m * u.m)
+    tips = [(p, v) for p in plan.nights for v in p.visits if v.purpose == "tip"]
+    assert tips, "some tip frames are planned"
+    for p, v in tips:
+        assert v.airmass_start <= 1.5 + 1e-3 and v.airmass_end <= 1.5 + 1e-3
+        moon = get_body("moon", Time(v.start_jd, format="jd"), where).transform_to(
+            AltAz(obstime=Time(v.start_jd, format="jd"), location=where))
+        assert p.moon_illumination <= 0.25 or moon.alt.deg < 0
+    for p in plan.nights:
+        by_key = {}
+        for v in p.visits:
+            by_key.setdefault(v.request_key, []).append(0.5 * (v.science_start_jd + v.end_jd))
+        for key, mids in by_key.items():
+            if key.endswith("/variables"):
+                assert len(mids) <= campaign.cadence.visits_per_night
+                if len(mids) > 1:
+                    assert np.min(np.diff(sorted(mids))) * 1440 >= campaign.cadence.min_spacing_min - 1e-6
+    # each depth goal met once at most
+    n_tip = {}
+    for _, v in tips:
+        n_tip[v.target] = n_tip.get(v.target, 0) + 1
+    assert max(n_tip.values()) == 1
+
+
+def test_unreachable_goal_is_a_warning_and_forecast_is_there(demo_plan):
+    _, plan = demo_plan
+    # NGC 104 (Dec −72°) never reaches airmass 1.5 in January's dark hours at −31°.
+    assert any("NGC 104" in w and "tip" in w for w in plan.warnings)
+    clusters = {c["cluster"] for c in plan.coverage["clusters"]}
+    assert clusters == {"NGC 104", "NGC 362", "NGC 1851", "NGC 2808", "NGC 3201"}
+    assert 0 <= plan.recovery["recovered_fraction"] <= 1
+    for c in plan.coverage["clusters"]:
+        assert 1 <= c["median_bins_covered"] <= 20
+
+
+def test_campaign_text_fits_80_columns(capsys):
+    code, out, _ = run(capsys, "campaign", "--campaign", DEMO)
+    assert code == 0 and "forecast" in out and "Caution" in out
+    assert all(len(line) <= 80 for line in out.splitlines())
+
+
+def test_campaign_json_contract(capsys, tmp_path):
+    code, out, err = run(capsys, "campaign", "--campaign", DEMO, "--json")
+    assert code == 0
+    data = json.loads(out)
+    assert set(data) >= {"site", "nights", "coverage", "recovery"}
+    assert len(data["nights"]) == 14
+    night = data["nights"][0]
+    assert set(night) >= {"night", "constraints", "visits", "idle_minutes", "efficiency"}
+    assert set(night["night"]) >= {"date", "start", "end"}
+    v = night["visits"][0]
+    assert set(v) >= {"target", "ra_deg", "dec_deg", "start", "end", "purpose", "exposures", "airmass_start",
+                      "airmass_end", "moon_separation_deg"}
+    assert ISO_Z.match(v["start"]) and set(v["exposures"][0]) == {"filter", "frames", "exposure_s"}
+    assert "warning" in err
+
+
+def test_schedule_campaign_form_text_ecsv_plot(capsys, tmp_path):
+    code, out, err = run(capsys, "schedule", "--campaign", DEMO, "--date", "2027-01-07",
+                         "--out", tmp_path / "p.ecsv", "--plot", tmp_path / "p.png")
+    assert code == 0
+    assert all(len(line) <= 80 for line in out.splitlines())
+    assert "UTC" in out and "local" in out and "Caution" in out and "idle" in out
+    assert (tmp_path / "p.png").stat().st_size > 10_000
+    from astropy.table import Table
+
+    t = Table.read(tmp_path / "p.ecsv", format="ascii.ecsv")
+    assert len(t) > 5 and "airmass_start" in t.colnames
+
+
+def test_schedule_ad_hoc_json(capsys):
+    code, out, _ = run(capsys, "schedule", "--site", "demo", "--targets", targets_dir() / "demo" / "clusters.ecsv",
+                       "--date", "2027-01-10", "--visit", "filter=V,frames=2,exposure=300", "--max-airmass", "2",
+                       "--json")
+    assert code == 0
+    data = json.loads(out)
+    assert data["constraints"]["max_airmass"] == 2
+    names = [v["target"] for v in data["visits"]]
+    assert len(names) == len(set(names)) >= 4  # each target once
+    assert all(v["exposures"] == [{"filter": "V", "frames": 2, "exposure_s": 300.0}] for v in data["visits"])
+    assert 0 < data["efficiency"] < 1 and data["idle_minutes"] >= 0
+
+
+def _write(tmp_path, text, name="c.toml"):
+    p = tmp_path / name
+    p.write_text(text)
+    return p
+
+
+BASE = f'''site = "demo"
+targets = "{(targets_dir() / "demo" / "clusters.ecsv").as_posix()}"
+variables = "{(targets_dir() / "demo" / "variables.ecsv").as_posix()}"
+first_night = 2027-01-05
+nights = 2
+'''
+
+
+@pytest.mark.parametrize("extra, words", [
+    ('[[goals]]\nlevel = "tip"\nfilter = "Z"\nsnr = 100\n', ["filter", "Z"]),
+    ('[[goals]]\nlevel = "tip"\nfilter = "U"\nsnr = 100\n', ["goals", "U"]),  # no tip colour in U
+    ('[[goals]]\nlevel = "hb"\nfilter = "U"\nsnr = 9000\n', ["longer than", "night"]),
+    ('[cadence]\nexposure_s = 30000\nvisits_per_night = 2\n', ["longer than", "night"]),
+    ('[[goals]]\nlevel = "tip"\nfilter = "I"\nsnr = 100\ntargets = ["NGC 5139"]\n', ["targets", "NGC 5139"]),
+    ('[constraints]\nmax_airmass = 0.5\n', ["max_airmass"]),
+    ('colour = 1\n', ["unknown key colour"]),
+])
+def test_bad_campaigns_are_one_line_errors(capsys, tmp_path, extra, words):
+    p = _write(tmp_path, BASE + extra)
+    code, out, err = run(capsys, "campaign", "--campaign", p)
+    assert code == 2 and out == ""
+    assert err.startswith("gcplan: error: ") and err.count("\n") == 1
+    for w in words:
+        assert w in err
+
+
+def test_missing_files_are_one_line_errors(capsys, tmp_path):
+    p = _write(tmp_path, BASE.replace("clusters.ecsv", "nowhere.ecsv"))
+    code, _, err = run(capsys, "campaign", "--campaign", p)
+    assert code == 2 and "nowhere.ecsv" in err and err.count("\n") == 1
+    code, _, err = run(capsys, "schedule", "--campaign", tmp_path / "absent.toml", "--date", "2027-01-05")
+    assert code == 2 and "no such file" in err
+    code, _, err = run(capsys, "schedule", "--site", "demo", "--target", "NGC 104", "--date", "2027-01-05",
+                       "--visit", "filter=V,frames=30,exposure=1200")
+    assert code == 2 and "longer than the usable night" in err
+
+
+def test_unreachable_goal_warns_without_crashing(capsys, tmp_path):
+    p = _write(tmp_path, BASE + '[[goals]]\nlevel = "tip"\nfilter = "I"\nsnr = 100\nmax_airmass = 1.01\n'
+               'targets = ["NGC 104"]\n')
+    code, out, err = run(capsys, "campaign", "--campaign", p, "--json")
+    assert code == 0 and "gcplan: warning:" in err and "NGC 104" in err
+    assert json.loads(out)["warnings"]
+
+
+def test_recover_takes_visit_times_from_a_schedule(capsys, tmp_path):
+    code, out, _ = run(capsys, "campaign", "--campaign", DEMO, "--json")
+    (tmp_path / "c.json").write_text(out)
+    code, out, err = run(capsys, "recover", "--site", "demo", "--population", targets_dir() / "demo" / "variables.ecsv",
+                         "--schedule", tmp_path / "c.json", "--cluster", "NGC 3201", "--json")
+    assert code == 0, err
+    data = json.loads(out)
+    campaign = json.loads((tmp_path / "c.json").read_text())
+    n = sum(1 for night in campaign["nights"] for v in night["visits"]
+            if v["target"] == "NGC 3201" and v["purpose"] == "variables")
+    assert data["n_epochs"] == n and data["nights"] == 14
+    code, _, err = run(capsys, "recover", "--site", "demo", "--population", "oosterhoff-1",
+                       "--schedule", tmp_path / "c.json", "--nights", "3")
+    assert code == 2 and "--schedule" in err
+
+
+def test_write_demo_schedule(tmp_path):
+    from planner.commands.demo import write_demo_schedule
+
+    paths = write_demo_schedule(tmp_path)
+    names = sorted(p.name for p in paths)
+    assert "campaign.json" in names and sum(n.endswith(".txt") for n in names) == 14
+    assert sum(n.endswith(".png") for n in names) == 1
+    sheet = (tmp_path / "schedule_2027-01-05.txt").read_text()
+    assert "Caution" in sheet and all(len(line) <= 80 for line in sheet.splitlines())

@@ -1,0 +1,152 @@
+"""Re-planning from a moment: the past never changes, the same inputs give the same plan,
+weather and seeing are honoured, and bad --now/--closed are one-line errors."""
+
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+
+from planner.cli import main
+from planner.nights import iso_utc
+from planner.resources import targets_dir
+from planner.scheduling.campaign import plan_through_night
+from planner.scheduling.campaign_file import read_campaign_file
+from planner.scheduling.replan import parse_closed, parse_now, replan_night
+from planner.scheduling.validate import validate_plan
+
+DEMO = targets_dir() / "demo" / "campaign.toml"
+NIGHT = dt.date(2027, 1, 8)
+
+
+@pytest.fixture(scope="module")
+def setup():
+    campaign = read_campaign_file(DEMO)
+    original, requests, _ = plan_through_night(campaign, NIGHT)
+    return campaign, original, requests
+
+
+def _key(v):
+    return (v.id, v.target, v.purpose, round(v.start_jd, 9), round(v.end_jd, 9), v.exposures)
+
+
+def test_nothing_changed_gives_the_same_plan(setup):
+    campaign, original, _ = setup
+    now = original.visits[len(original.visits) // 2].start_jd + 1e-4
+    result = replan_night(campaign, NIGHT, now)
+    assert not result.reasons
+    assert [_key(v) for v in result.plan.visits] == [_key(v) for v in original.visits]
+    again = replan_night(campaign, NIGHT, now)
+    assert [_key(v) for v in again.plan.visits] == [_key(v) for v in result.plan.visits]
+
+
+def test_weather_loss_never_touches_the_past(setup):
+    campaign, original, requests = setup
+    zone = campaign.site.location.timezone
+    now = original.visits[8].end_jd + 2e-4
+    closed = (now, now + 1.5 / 24)
+    result = replan_night(campaign, NIGHT, now, closed=(closed,))
+    assert result.reasons
+    before = [_key(v) for v in original.visits if v.start_jd < now]
+    after = [_key(v) for v in result.plan.visits if v.start_jd < now]
+    assert after == before
+    new = [v for v in result.plan.visits if v.status == "planned"]
+    assert new and all(v.start_jd >= now for v in new)
+    assert all(v.end_jd <= closed[0] or v.start_jd >= closed[1] for v in new)
+    assert validate_plan(campaign.site, result.plan, requests) == []
+    assert any(g.reason == "closed" for g in result.plan.gaps)
+    # the same inputs again: the same re-plan
+    again = replan_night(campaign, NIGHT, now, closed=(closed,))
+    assert [_key(v) for v in again.plan.visits] == [_key(v) for v in result.plan.visits]
+    assert parse_now(iso_utc(now), NIGHT, zone) == pytest.approx(now, abs=1.0 / 86400)
+
+
+def test_done_list_and_missed_visits(setup):
+    campaign, original, requests = setup
+    now = original.visits[5].end_jd + 1e-4
+    done = [v.id for v in original.visits[:3]]
+    result = replan_night(campaign, NIGHT, now, done=tuple(done))
+    status = {v.id: v.status for v in result.plan.visits if v.start_jd < now}
+    assert [status[i] for i in done] == ["done"] * 3
+    assert {status[v.id] for v in original.visits[3:6]} == {"missed"}
+    assert validate_plan(campaign.site, result.plan, requests) == []
+
+
+def test_worse_seeing_recomputes_exposures_and_defers_tip(setup):
+    campaign, original, _ = setup
+    now = original.window_start_jd + 1e-3
+    result = replan_night(campaign, NIGHT, now, seeing_arcsec=2.0)
+    assert any("seeing" in r for r in result.reasons)
+    # the tip goal asks for seeing ≤ 1.2″ (campaign file): none after now
+    assert not [v for v in result.plan.visits if v.purpose == "tip" and v.status == "planned"]
+    old = {v.request_key: v.exposures for v in original.visits}
+    new = {v.request_key: v.exposures for v in result.plan.visits if v.status == "planned"}
+    common = [k for k in new if k in old]
+    assert common
+    # the CCD equation: a wider seeing disc gathers more sky, so never less exposure for the same S/N
+    assert all(sum(e.frames * e.exposure_s for e in new[k]) >= sum(e.frames * e.exposure_s for e in old[k])
+               for k in common)
+
+
+def test_clock_times_and_iso_parse():
+    zone = "America/Santiago"
+    a, b = parse_closed("23:30-00:45", NIGHT, zone)
+    assert (b - a) * 1440 == pytest.approx(75, abs=1e-3)
+    assert iso_utc(a) == "2027-01-09T02:30:00Z"  # January: Chile on UTC−3 (summer time)
+    a2, b2 = parse_closed("2027-01-09T02:30Z/2027-01-09T03:45Z", NIGHT, zone)
+    assert (a2, b2) == pytest.approx((a, b), abs=1e-6)
+
+
+@pytest.mark.parametrize("opts, word", [
+    (["--now", "tonight"], "--now"),
+    (["--now", "2027-01-20T03:00Z"], "not in the night"),
+    (["--now", "01:00", "--closed", "3am-4am"], "--closed"),
+    (["--now", "01:00", "--closed", "02:00-01:00"], "not after"),
+    (["--now", "25:10"], "clock time"),
+])
+def test_bad_now_and_closed_are_one_line_errors(capsys, opts, word):
+    code = main(["replan", "--campaign", str(DEMO), "--date", str(NIGHT)] + opts)
+    out, err = capsys.readouterr()
+    assert code == 2 and out == "" and err.startswith("gcplan: error:") and err.count("\n") == 1
+    assert word in err
+
+
+def test_replan_command_json(capsys):
+    import json
+
+    code = main(["replan", "--campaign", str(DEMO), "--date", str(NIGHT), "--now", "01:30",
+                 "--closed", "01:30-02:30", "--json"])
+    out, _ = capsys.readouterr()
+    assert code == 0
+    data = json.loads(out)
+    assert data["replan"]["replanned"] and set(data) >= {"night", "visits", "idle_minutes", "efficiency"}
+
+
+def test_done_visits_and_weather_from_the_logbook(setup, tmp_path, capsys):
+    import json
+
+    from planner.logbook import Logbook, NewEntry
+
+    campaign, original, _ = setup
+    folder = tmp_path / "camp"
+    folder.mkdir()
+    src = DEMO.read_text().replace('"clusters.ecsv"', f'"{(DEMO.parent / "clusters.ecsv").as_posix()}"').replace(
+        '"variables.ecsv"', f'"{(DEMO.parent / "variables.ecsv").as_posix()}"')
+    (folder / "campaign.toml").write_text(src)
+    now = original.visits[6].end_jd + 1e-4
+    with Logbook(folder / "logbook.sqlite") as book:
+        for v in original.visits[:2]:  # two of the first seven logged
+            book.add_entry(NewEntry(time_jd=v.science_start_jd, target=v.target, filter="V"))
+        book.add_weather(now, "closed")
+        book.add_weather(now + 0.04, "open")
+    code = main(["replan", "--campaign", str(folder / "campaign.toml"), "--date", str(NIGHT),
+                 "--now", iso_utc(now), "--json"])
+    assert code == 0
+    data = json.loads(capsys.readouterr().out)
+    status = {v["id"]: v["status"] for v in data["visits"]}
+    logged_targets = {v.target for v in original.visits[:2]}
+    assert [status[v.id] for v in original.visits[:2]] == ["done", "done"]
+    others = [v for v in original.visits[2:7] if v.target not in logged_targets]
+    assert others and all(status[v.id] == "missed" for v in others)
+    assert "logbook" in data["replan"]["logbook"]
+    assert any(g["reason"] == "closed" for g in data["gaps"])
