@@ -246,3 +246,34 @@ def test_demo_log_is_invented_frames_of_the_demo_clusters(tmp_path):
     header = fits.getheader(first)
     assert "INVENTED" in str(header["COMMENT"])
     assert {"DATE-OBS", "EXPTIME", "OBJECT", "FILTER", "RA", "DEC"} <= set(header)
+
+
+def test_recorded_plan_is_marked_done_by_ingested_frames(tmp_path, capsys):
+    """schedule --record stores the night's planned visits; frames of a planned
+    target and filter, ingested afterwards, mark the matching visit done."""
+    import shutil
+
+    from planner.nights import jd_to_datetime
+    from planner.resources import targets_dir
+
+    camp_dir = tmp_path / "camp"
+    shutil.copytree(targets_dir() / "demo", camp_dir)
+    campaign = camp_dir / "campaign.toml"
+    code, out, err = run(capsys, "schedule", "--campaign", str(campaign), "--date", "2027-01-06", "--record", "--json")
+    assert code == 0, err
+    plan = json.loads(out)
+    with Logbook(camp_dir / "logbook.sqlite") as lb:
+        planned = lb.planned_visits("2027-01-06")
+    assert len(planned) == sum(len(v["exposures"]) for v in plan["visits"]) > 0
+    first = planned[0]
+    frames = tmp_path / "frames"
+    frames.mkdir()
+    mid = jd_to_datetime(0.5 * (first.start_jd + first.end_jd))
+    write_invented_frame(frames / "f1.fits", {
+        "DATE-OBS": mid.strftime("%Y-%m-%dT%H:%M:%S"), "EXPTIME": float(first.exposure_s),
+        "OBJECT": first.target, "FILTER": first.filter})
+    code, _, err = run(capsys, "log", "ingest", str(frames), "--campaign", str(campaign), "--site", "demo")
+    assert code == 0, err
+    with Logbook(camp_dir / "logbook.sqlite") as lb:
+        done = [v for v in lb.planned_visits("2027-01-06") if v.done_entry_id is not None]
+    assert len(done) == 1 and done[0].target == first.target and done[0].filter == first.filter

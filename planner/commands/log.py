@@ -24,8 +24,9 @@ def register(sub) -> None:
 
     def action(name, help_text, func, site=True):
         q = logsub.add_parser(name, help=help_text, description=help_text)
-        q.add_argument("--logbook", metavar="FILE", help="the logbook file (default: logbook.sqlite in "
-                       "the user's data folder)")
+        q.add_argument("--logbook", metavar="FILE", help="the logbook file (default: logbook.sqlite beside "
+                       "--campaign, else in the user's data folder)")
+        q.add_argument("--campaign", metavar="FILE", help="use the logbook beside this campaign file")
         if site:
             common.add_site_arguments(q, required=False)
         q.set_defaults(run=func)
@@ -83,6 +84,8 @@ def open_logbook(args):
 
     if args.logbook:
         return Logbook(args.logbook)
+    if getattr(args, "campaign", None):
+        return Logbook(default_logbook_path(args.campaign))
     return Logbook(default_logbook_path(), create_folder=True)
 
 

@@ -40,6 +40,10 @@ def register(sub) -> None:
     p.add_argument("--seeing", type=float, metavar="FWHM", help="seeing planned for, arcsec (campaign form)")
     common.add_json_argument(p)
     p.add_argument("--out", metavar="FILE.ecsv", help="write the visits as an ECSV table")
+    p.add_argument("--record", action="store_true",
+                   help="store the night's planned visits in the logbook, so ingested frames mark them done")
+    p.add_argument("--logbook", metavar="FILE",
+                   help="logbook for --record (default: logbook.sqlite beside the campaign file)")
     p.add_argument("--plot", metavar="FILE.png|.pdf", help="the night's visits over the altitude curves")
     p.set_defaults(run=run)
 
@@ -112,6 +116,8 @@ def run(args) -> int:
         print(night_sheet(site, plan))
     if out_path is not None:
         write_plan_ecsv(site, plan, out_path)
+    if args.record:
+        record_plan(args, plan, night)
     if plot_path is not None:
         from planner.reports.schedule_plot import save_schedule_plot
 
@@ -120,6 +126,24 @@ def run(args) -> int:
         print("\n" + "\n".join(f"written: {p}" for p in (out_path, plot_path) if p))
     common.warn_all(warnings)
     return 0
+
+
+def record_plan(args, plan, night) -> None:
+    """Store the plan's visits in the logbook: one planned visit per filter of each visit."""
+    from planner.logbook import Logbook, default_logbook_path
+
+    if not (args.logbook or args.campaign):
+        raise ScheduleOptionError("--record needs --logbook FILE (or --campaign, whose folder holds the logbook)")
+    path = args.logbook or default_logbook_path(args.campaign)
+    rows = [
+        {"target": v.target, "filter": e.filter, "exposure_s": e.exposure_s, "frames": e.frames,
+         "start_jd": v.start_jd, "end_jd": v.end_jd}
+        for v in plan.visits for e in v.exposures
+    ]
+    with Logbook(path) as book:
+        book.add_planned_visits(night, rows)
+    if not args.json:
+        print(f"\n{len(rows)} planned visit(s) recorded in {path}")
 
 
 def _campaign_night_warnings(plan):
