@@ -30,8 +30,7 @@ def register(sub) -> None:
 
 def run(args) -> int:
     from planner.commands.schedule import campaign_from_args, check_seeing, night_index, night_sheet, schedule_json
-    from planner.scheduling.replan import (closed_from_logbook, done_from_logbook, parse_closed, parse_now,
-                                          replan_night)
+    from planner.scheduling.replan import parse_closed, parse_now, replan_night
 
     night = common.parse_night_date(args.date)
     check_seeing(args.seeing)
@@ -40,8 +39,8 @@ def run(args) -> int:
     zone = campaign.site.location.timezone
     now = parse_now(args.now, night, zone)
     closed = tuple(parse_closed(text, night, zone) for text in args.closed)
-    logged, note = done_from_logbook(campaign, night, args.logbook)
-    closed = closed + closed_from_logbook(campaign, night, args.logbook)
+    logged, log_closed, note = read_logbook_night(campaign, night, args.logbook)
+    closed = closed + log_closed
     result = replan_night(campaign, night, now, closed=closed, done=tuple(args.done), logged=logged,
                           seeing_arcsec=args.seeing)
     if args.json:
@@ -59,3 +58,36 @@ def run(args) -> int:
             print(f"  {note}")
     common.warn_all(result.plan.warnings)
     return 0
+
+
+def read_logbook_night(campaign, night, path: str | None = None):
+    """What the logbook says of a night: (target, time_jd) of its frames, its closed
+    periods ('closed' until the next 'open', or the night's end), and a note on the
+    source.  The file is ``path``, else ``logbook.sqlite`` beside the campaign file;
+    with neither present, nothing is known from it."""
+    import datetime as dt
+    from pathlib import Path
+
+    from planner.logbook import Logbook, LogbookError, default_logbook_path
+    from planner.nights import local_noon_jd
+
+    p = Path(path) if path else default_logbook_path(campaign.source)
+    if not p.is_file():
+        if path:
+            raise LogbookError(f"--logbook {path!r}: no such file")
+        return (), (), None
+    zone = campaign.site.location.timezone
+    a, b = local_noon_jd(night, zone), local_noon_jd(night + dt.timedelta(days=1), zone)
+    with Logbook(p) as book:
+        frames = tuple((e.target, e.time_jd) for e in book.entries(a, b))
+        events = sorted(book.weather(a, b), key=lambda e: e.time_jd)
+    closed, since = [], None
+    for e in events:
+        if e.state == "closed" and since is None:
+            since = e.time_jd
+        elif e.state == "open" and since is not None:
+            closed.append((since, e.time_jd))
+            since = None
+    if since is not None:
+        closed.append((since, b))
+    return frames, tuple(closed), f"done visits and closures read from the logbook {p}"

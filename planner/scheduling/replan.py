@@ -85,64 +85,6 @@ def parse_closed(text: str, night: dt.date, zone: str) -> tuple[float, float]:
     return a, b
 
 
-def done_from_logbook(campaign, night: dt.date, path: str | None = None):
-    """(target, time_jd) of the night's logged frames, and a note on where they came from.
-
-    Reads :mod:`planner.logbook` (the file ``path``, else ``logbook.sqlite`` beside the
-    campaign file) when the module and the file exist; otherwise ``()``.
-    """
-    from pathlib import Path
-
-    try:
-        from planner.logbook import Logbook, default_logbook_path
-    except ImportError:
-        return (), "no logbook module: what is done comes from --done only"
-    p = Path(path) if path else default_logbook_path(campaign.source)
-    if not p.is_file():
-        if path:
-            from planner.logbook import LogbookError
-
-            raise LogbookError(f"--logbook {path!r}: no such file")
-        return (), None
-    from planner.nights import local_noon_jd
-
-    zone = campaign.site.location.timezone
-    a, b = local_noon_jd(night, zone), local_noon_jd(night + dt.timedelta(days=1), zone)
-    with Logbook(p) as book:
-        entries = book.entries(a, b)
-    return tuple((e.target, e.time_jd) for e in entries), f"done visits read from the logbook {p}"
-
-
-def closed_from_logbook(campaign, night: dt.date, path: str | None = None) -> tuple[tuple[float, float], ...]:
-    """Closed periods of the night from the logbook's weather events ('closed' until the next
-    'open', or until the night's end)."""
-    from pathlib import Path
-
-    try:
-        from planner.logbook import Logbook, default_logbook_path
-    except ImportError:
-        return ()
-    p = Path(path) if path else default_logbook_path(campaign.source)
-    if not p.is_file():
-        return ()
-    from planner.nights import local_noon_jd
-
-    zone = campaign.site.location.timezone
-    a, b = local_noon_jd(night, zone), local_noon_jd(night + dt.timedelta(days=1), zone)
-    with Logbook(p) as book:
-        events = sorted(book.weather(a, b), key=lambda e: e.time_jd)
-    out, since = [], None
-    for e in events:
-        if e.state == "closed" and since is None:
-            since = e.time_jd
-        elif e.state == "open" and since is not None:
-            out.append((since, e.time_jd))
-            since = None
-    if since is not None:
-        out.append((since, b))
-    return tuple(out)
-
-
 @dataclass(frozen=True)
 class ReplanResult:
     plan: NightPlan
