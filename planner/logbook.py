@@ -161,6 +161,21 @@ def night_of_jd(jd: float, zone: str) -> dt.date:
     return (jd_to_datetime(jd, zone) - dt.timedelta(hours=12)).date()
 
 
+def closed_periods(events, end_jd: float) -> list[tuple[float, float]]:
+    """(closed, reopened) JD pairs from weather events in time order; a closure
+    never reopened runs to ``end_jd`` (the night's end)."""
+    out, start = [], None
+    for w in events:
+        if w.state == "closed" and start is None:
+            start = w.time_jd
+        elif w.state == "open" and start is not None:
+            out.append((start, w.time_jd))
+            start = None
+    if start is not None:
+        out.append((start, float(end_jd)))
+    return out
+
+
 def default_logbook_path(campaign_file: str | Path | None = None) -> Path:
     """Beside the campaign file if one is given, else in the user's data folder (platformdirs)."""
     if campaign_file is not None:

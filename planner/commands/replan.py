@@ -68,7 +68,7 @@ def read_logbook_night(campaign, night, path: str | None = None):
     import datetime as dt
     from pathlib import Path
 
-    from planner.logbook import Logbook, LogbookError, default_logbook_path
+    from planner.logbook import Logbook, LogbookError, closed_periods, default_logbook_path
     from planner.nights import local_noon_jd
 
     p = Path(path) if path else default_logbook_path(campaign.source)
@@ -81,13 +81,4 @@ def read_logbook_night(campaign, night, path: str | None = None):
     with Logbook(p) as book:
         frames = tuple((e.target, e.time_jd) for e in book.entries(a, b))
         events = sorted(book.weather(a, b), key=lambda e: e.time_jd)
-    closed, since = [], None
-    for e in events:
-        if e.state == "closed" and since is None:
-            since = e.time_jd
-        elif e.state == "open" and since is not None:
-            closed.append((since, e.time_jd))
-            since = None
-    if since is not None:
-        closed.append((since, b))
-    return frames, tuple(closed), f"done visits and closures read from the logbook {p}"
+    return frames, tuple(closed_periods(events, b)), f"done visits and closures read from the logbook {p}"

@@ -380,13 +380,6 @@ def observed_chart(log: NightLog, size_in, page: int | None = None):
 
 def closed_intervals(log: NightLog) -> list[tuple[float, float]]:
     """(closed, reopened) JD pairs of the night; a closure never reopened runs to the span's end."""
-    out, start = [], None
-    for w in log.weather:
-        if w.state == "closed" and start is None:
-            start = w.time_jd
-        elif w.state == "open" and start is not None:
-            out.append((start, w.time_jd))
-            start = None
-    if start is not None:
-        out.append((start, float(log.almanac.span_end_jd[0])))
-    return out
+    from planner.logbook import closed_periods
+
+    return closed_periods(log.weather, float(log.almanac.span_end_jd[0]))
