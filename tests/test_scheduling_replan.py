@@ -150,3 +150,30 @@ def test_done_visits_and_weather_from_the_logbook(setup, tmp_path, capsys):
     assert others and all(status[v.id] == "missed" for v in others)
     assert "logbook" in data["replan"]["logbook"]
     assert any(g["reason"] == "closed" for g in data["gaps"])
+
+
+def test_replan_reads_weather_closures_from_the_campaign_logbook(tmp_path, capsys):
+    """`gcplan log weather closed/open` beside a campaign file closes that stretch in
+    `gcplan replan`; nothing is planned inside it and nothing before --now moves."""
+    import json
+    import shutil
+
+    camp = tmp_path / "camp"
+    shutil.copytree(DEMO.parent, camp)
+    campaign = str(camp / "campaign.toml")
+    for state, when in (("closed", "2027-01-07T03:30:00Z"), ("open", "2027-01-07T04:30:00Z")):
+        assert main(["log", "weather", state, "--time", when, "--campaign", campaign]) == 0
+    capsys.readouterr()
+    assert main(["schedule", "--campaign", campaign, "--date", "2027-01-06", "--json"]) == 0
+    before = json.loads(capsys.readouterr().out)
+    assert main(["replan", "--campaign", campaign, "--date", "2027-01-06",
+                 "--now", "2027-01-07T03:00:00Z", "--json"]) == 0
+    after = json.loads(capsys.readouterr().out)
+    assert "logbook" in after["replan"]
+    assert any(g["reason"] == "closed" and g["start"] == "2027-01-07T03:30:00Z" for g in after["gaps"])
+    for v in after["visits"]:
+        assert v["end"] <= "2027-01-07T03:30:00Z" or v["start"] >= "2027-01-07T04:30:00Z"
+    past = [v for v in before["visits"] if v["start"] < "2027-01-07T03:00:00Z"]
+    assert past and all(v in after["visits"] or any(
+        w["id"] == v["id"] and w["start"] == v["start"] and w["end"] == v["end"] for w in after["visits"])
+        for v in past)
