@@ -15,6 +15,18 @@ from zoneinfo import ZoneInfo
 import numpy as np
 
 _UNIX_EPOCH_JD = 2440587.5
+
+#: Nights gcplan can compute: astropy's built-in Sun and Moon (ERFA's epv00 and
+#: moon98) are valid from 1900 to 2100.
+FIRST_YEAR, LAST_YEAR = 1900, 2099
+
+
+def night_out_of_range(night: dt.date) -> str | None:
+    """Why a night cannot be computed, or None when it can."""
+    if FIRST_YEAR <= night.year <= LAST_YEAR:
+        return None
+    return (f"{night} is outside {FIRST_YEAR}–{LAST_YEAR}, the years astropy's built-in Sun and Moon "
+            "ephemeris covers")
 _UTC = dt.timezone.utc
 
 

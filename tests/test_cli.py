@@ -106,6 +106,8 @@ def test_observability_json_contract(capsys):
     "argv, fragment",
     [
         (["night", "--site", "demo", "--target", "M 13", "--date", "2027-13-01"], "--date"),
+        # astropy's built-in Sun and Moon (ERFA epv00/moon98) cover 1900-2100 only.
+        (["night", "--site", "demo", "--target", "M 13", "--date", "1850-06-01"], "1900"),
         (["night", "--site", "demo", "--target", "NGC 99999", "--date", "2027-01-01"], "NGC 99999"),
         (["night", "--site", "nosuchsite", "--target", "M 13", "--date", "2027-01-01"], "nosuchsite"),
         (["night", "--site", "91,0", "--target", "M 13", "--date", "2027-01-01"], "91"),

@@ -64,10 +64,16 @@ def add_json_argument(parser: argparse.ArgumentParser) -> None:
 
 def parse_night_date(text: str, option: str = "--date") -> dt.date:
     """A night's local evening date, YYYY-MM-DD."""
+    from planner.nights import night_out_of_range
+
     try:
-        return dt.date.fromisoformat(text.strip())
+        night = dt.date.fromisoformat(text.strip())
     except (ValueError, AttributeError):
         raise DateError(f"{option} must be a date YYYY-MM-DD (got {text!r})") from None
+    problem = night_out_of_range(night)
+    if problem:
+        raise DateError(f"{option}: {problem}")
+    return night
 
 
 def date_range(start: dt.date, end: dt.date, start_option="--start", end_option="--end") -> list[dt.date]:

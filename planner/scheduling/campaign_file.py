@@ -122,6 +122,11 @@ def read_campaign_file(path: str | Path):
         last = first + dt.timedelta(days=int(n) - 1)
     if last < first:
         top.fail(f"last_night {last} is before first_night {first}")
+    from planner.nights import night_out_of_range
+
+    for key, night in (("first_night", first), ("last_night", last)):
+        if night_out_of_range(night):
+            top.fail(f"{key} {night_out_of_range(night)}")
     if (last - first).days + 1 > MAX_NIGHTS:
         top.fail(f"the campaign spans {(last - first).days + 1} nights; at most {MAX_NIGHTS}")
     nights = tuple(first + dt.timedelta(days=i) for i in range((last - first).days + 1))
