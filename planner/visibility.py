@@ -51,6 +51,19 @@ class Constraints:
     horizon_alt_deg: tuple[float, ...] = ()
     sun_avoidance_deg: float = 0.0  # never point closer than this to the Sun
 
+    def describe(self) -> str:
+        """The limits in one phrase, as every text and figure of gcplan states them."""
+        parts = [f"altitude ≥ {self.altitude_limit_deg:.1f}°"]
+        if self.max_airmass is not None and np.isfinite(self.max_airmass):
+            parts[0] += f" (airmass ≤ {self.max_airmass:.2f})"
+        if self.min_moon_separation_deg > 0:
+            parts.append(f"Moon ≥ {self.min_moon_separation_deg:.0f}° away")
+        if self.sun_avoidance_deg > 0:
+            parts.append(f"Sun ≥ {self.sun_avoidance_deg:.0f}° away")
+        if self.horizon_az_deg:
+            parts.append("horizon mask")
+        return ", ".join(parts)
+
     @property
     def altitude_limit_deg(self) -> float:
         if self.max_airmass is None:

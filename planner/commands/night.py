@@ -208,13 +208,7 @@ def night_text(run_, i: int = 0) -> str:
         )
     else:
         lines.append(f"  usable ({c.twilight}): no such darkness tonight")
-    limit = f"altitude ≥ {c.altitude_limit_deg:.1f}°"
-    if c.max_airmass is not None:
-        limit += f" (airmass ≤ {c.max_airmass:.2f})"
-    extra = f", Moon ≥ {c.min_moon_separation_deg:.0f}° away" if c.min_moon_separation_deg > 0 else ""
-    extra += ", horizon mask" if c.horizon_az_deg else ""
-    extra += f", Sun ≥ {c.sun_avoidance_deg:.0f}° away" if c.sun_avoidance_deg > 0 else ""
-    lines.extend(textwrap.wrap(f"limits: {limit}{extra}", 78, initial_indent="  ", subsequent_indent="    "))
+    lines.extend(textwrap.wrap(f"limits: {c.describe()}", 78, initial_indent="  ", subsequent_indent="    "))
     lines.append("")
     lines.append(
         f"  {'target':<12s}{'transit':>13s} {'max alt':>7s} {'min X':>5s}  {'window':<11s}  {'window':<11s} "

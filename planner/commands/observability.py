@@ -108,8 +108,10 @@ def observability_text(run_, summary) -> str:
     lines = [
         f"Observable hours, nights of {nights[0]} to {nights[-1]} ({len(nights)} nights)",
         f"  at {site.name}",
-        f"  limits: altitude ≥ {c.altitude_limit_deg:.1f}°, Moon ≥ {c.min_moon_separation_deg:.0f}° away, "
-        f"{c.twilight} twilight" + (", horizon mask" if c.horizon_az_deg else ""),
+    ]
+    lines += textwrap.wrap(f"limits: {c.describe()}; {c.twilight} twilight", 78, initial_indent="  ",
+                           subsequent_indent="    ")
+    lines += [
         "",
     ]
     months = list(summary[0].hours_by_month) if summary else []

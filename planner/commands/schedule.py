@@ -267,13 +267,7 @@ def night_sheet(site, plan) -> str:
     w0, w1 = plan.window_start_jd, plan.window_end_jd
     lines.append(f"  usable ({c.twilight}): {local_hhmm(w0, zone)}–{local_hhmm(w1, zone)} local "
                  f"({utc_offset_label(w0, zone)}), {utc_hhmm(w0)}–{utc_hhmm(w1)} UTC, {(w1 - w0) * 24:.1f} h")
-    limit = f"altitude ≥ {c.altitude_limit_deg:.1f}°"
-    if c.max_airmass is not None:
-        limit += f" (airmass ≤ {c.max_airmass:.2f})"
-    extra = f", Moon ≥ {c.min_moon_separation_deg:.0f}° away" if c.min_moon_separation_deg > 0 else ""
-    extra += ", horizon mask" if c.horizon_az_deg else ""
-    extra += f", Sun ≥ {c.sun_avoidance_deg:.0f}° away" if c.sun_avoidance_deg > 0 else ""
-    lines.extend(textwrap.wrap(f"limits: {limit}{extra}; Moon {plan.moon_illumination * 100:.0f}% lit; seeing "
+    lines.extend(textwrap.wrap(f"limits: {c.describe()}; Moon {plan.moon_illumination * 100:.0f}% lit; seeing "
                                f"{plan.seeing_arcsec:g}″ planned", 78, initial_indent="  ", subsequent_indent="    "))
     lines.append(f"  {len(plan.visits)} visits, shutter open {plan.shutter_s / 60:.1f} min (efficiency "
                  f"{plan.efficiency * 100:.1f} %), idle {plan.idle_minutes:.0f} min"

@@ -159,19 +159,6 @@ def usable_text(run, index: int) -> str:
     )
 
 
-def _limits_text(c) -> str:
-    parts = [f"altitude ≥ {c.altitude_limit_deg:.1f}°"]
-    if c.max_airmass is not None and np.isfinite(c.max_airmass):
-        parts[0] += f" (airmass ≤ {c.max_airmass:.2f})"
-    if c.min_moon_separation_deg > 0:
-        parts.append(f"Moon ≥ {c.min_moon_separation_deg:.0f}° away")
-    if c.sun_avoidance_deg > 0:
-        parts.append(f"Sun ≥ {c.sun_avoidance_deg:.0f}° away")
-    if c.horizon_az_deg:
-        parts.append("horizon mask")
-    return ", ".join(parts)
-
-
 def night_chart(run, curves, fig=None):
     """Altitude of every target through one night, against local clock time.
 
@@ -274,7 +261,7 @@ def _draw_night(fig, run, curves) -> None:
                bbox_to_anchor=(0.058, 0.062), ncols=7, frameon=False, fontsize=9,
                handlelength=1.8, columnspacing=1.2)
     caption = (
-        f"Thick: each target's longest observable stretch under the limits ({_limits_text(c)}). "
+        f"Thick: each target's longest observable stretch under the limits ({c.describe()}). "
         "Altitudes geometric (no refraction)."
     )
     if c.horizon_az_deg:
@@ -494,7 +481,7 @@ def _draw_observability(fig, run) -> None:
              fontweight="bold", va="top")
     span = f"{nights[0]:%Y-%m-%d} to {nights[-1]:%Y-%m-%d}, {len(nights)} nights"
     fig.text(left, 1 - 0.62 / h_in, f"{span} · {c.twilight} darkness", fontsize=10.5, va="top")
-    fig.text(left, 1 - 0.88 / h_in, f"limits: {_limits_text(c)}", fontsize=10.5, va="top")
+    fig.text(left, 1 - 0.88 / h_in, f"limits: {c.describe()}", fontsize=10.5, va="top")
     caption = (
         "Grey: not observable that night. Rows in the order of each target's best night (then RA).\n"
         "Moon: illuminated fraction at the middle of each night (○ full, ● new). "
