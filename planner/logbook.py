@@ -27,6 +27,7 @@ Times are Julian dates on the UTC scale.
 
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
 import sqlite3
 from dataclasses import dataclass
@@ -228,21 +229,27 @@ class Logbook:
     def close(self) -> None:
         self._db.close()
 
-    def _write(self, statements: Sequence[tuple[str, tuple]]) -> list[sqlite3.Cursor]:
-        """Run statements as one committed transaction (all or nothing)."""
+    @contextlib.contextmanager
+    def _transaction(self, what: str = "record"):
+        """One committed transaction (all or nothing); SQLite errors become LogbookError."""
         try:
             self._db.execute("BEGIN IMMEDIATE")
             try:
-                out = [self._db.execute(sql, params) for sql, params in statements]
+                yield
                 self._db.execute("COMMIT")
             except BaseException:
                 if self._db.in_transaction:  # a Ctrl-C just after COMMIT leaves nothing to undo
                     self._db.execute("ROLLBACK")
                 raise
         except sqlite3.IntegrityError as exc:
-            raise LogbookError(f"the logbook refused the record ({exc})", self.path) from None
+            raise LogbookError(f"the logbook refused the {what} ({exc})", self.path) from None
         except sqlite3.Error as exc:
             raise _fail(self.path, exc) from None
+
+    def _write(self, statements: Sequence[tuple[str, tuple]]) -> list[sqlite3.Cursor]:
+        """Run statements as one committed transaction (all or nothing)."""
+        with self._transaction():
+            out = [self._db.execute(sql, params) for sql, params in statements]
         return out
 
     def _migrate(self) -> None:
@@ -295,24 +302,13 @@ class Logbook:
             raise LogbookError(f"frames must be ≥ 1 (got {entry.frames})")
         fields = list(NewEntry.__dataclass_fields__)
         values = tuple(getattr(entry, f) for f in fields)
-        try:
-            self._db.execute("BEGIN IMMEDIATE")
-            try:
-                cur = self._db.execute(
-                    f"INSERT INTO entries ({', '.join(fields)}) VALUES ({', '.join('?' * len(fields))}) "
-                    "ON CONFLICT(fingerprint) DO NOTHING", values)
-                new_id = cur.lastrowid if cur.rowcount == 1 else None
-                if new_id is not None and night is not None:
-                    self._fulfil_visit(new_id, entry, night)
-                self._db.execute("COMMIT")
-            except BaseException:
-                if self._db.in_transaction:  # a Ctrl-C just after COMMIT leaves nothing to undo
-                    self._db.execute("ROLLBACK")
-                raise
-        except sqlite3.IntegrityError as exc:
-            raise LogbookError(f"the logbook refused the entry ({exc})", self.path) from None
-        except sqlite3.Error as exc:
-            raise _fail(self.path, exc) from None
+        with self._transaction("entry"):
+            cur = self._db.execute(
+                f"INSERT INTO entries ({', '.join(fields)}) VALUES ({', '.join('?' * len(fields))}) "
+                "ON CONFLICT(fingerprint) DO NOTHING", values)
+            new_id = cur.lastrowid if cur.rowcount == 1 else None
+            if new_id is not None and night is not None:
+                self._fulfil_visit(new_id, entry, night)
         return new_id
 
     def _fulfil_visit(self, entry_id: int, entry: NewEntry, night: str) -> None:
