@@ -7,6 +7,7 @@ planner's own, so the tip frames' "dark" is re-checked with astropy's Moon.
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import re
 
@@ -14,6 +15,7 @@ import numpy as np
 import pytest
 
 from planner.cli import main
+from planner.errors import InputError
 from planner.resources import targets_dir
 from planner.scheduling.campaign import plan_campaign
 from planner.scheduling.campaign_file import read_campaign_file
@@ -219,3 +221,34 @@ def test_write_demo_schedule(tmp_path):
     assert sum(n.endswith(".png") for n in names) == 1
     sheet = (tmp_path / "schedule_2027-01-05.txt").read_text()
     assert "Caution" in sheet and all(len(line) <= 80 for line in sheet.splitlines())
+
+
+def test_max_frame_s_splits_the_deep_frames():
+    """The demo campaign caps single frames at its max_frame_s: every depth-goal frame
+    stays under it, and the split frames still add up to the S/N (more frames, each shorter)."""
+    from planner.scheduling.campaign import goal_exposures
+
+    campaign = read_campaign_file(DEMO)
+    assert campaign.max_frame_s == 600
+    capped = goal_exposures(campaign)
+    free = goal_exposures(dataclasses.replace(campaign, max_frame_s=None))
+    split = 0
+    for key, exposures in capped.items():
+        if key[0] == "variables":
+            continue
+        for e, f in zip(exposures, free[key]):
+            assert e.exposure_s <= 600 + 1e-9
+            assert e.frames * e.exposure_s >= f.frames * f.exposure_s - 1e-6  # no less light in all
+            split += e.frames > f.frames
+    assert split >= 1
+
+
+def test_max_frame_s_out_of_range_is_a_file_error(tmp_path):
+    text = DEMO.read_text().replace("max_frame_s = 600", "max_frame_s = -5")
+    bad = tmp_path / "campaign.toml"
+    bad.write_text(text)
+    for name in ("clusters.ecsv", "variables.ecsv"):
+        (tmp_path / name).write_text((DEMO.parent / name).read_text())
+    with pytest.raises(InputError) as exc:
+        read_campaign_file(bad)
+    assert "max_frame_s" in str(exc.value) and "-5" in str(exc.value)

@@ -79,6 +79,7 @@ class Campaign:
     cadence: CadenceGoal | None
     seeing_arcsec: float | None = None
     invented: bool = False
+    max_frame_s: float | None = None  # longest single frame of the depth goals (cosmic rays, guiding)
 
 
 @dataclass(frozen=True)
@@ -116,7 +117,7 @@ def goal_exposures(campaign: Campaign, seeing_arcsec: float | None = None) -> di
             try:
                 level = science_level(t, g.level, band)
                 p = exposure_for_level(site, g.filter, level, g.snr, airmass=EXPOSURE_AIRMASS,
-                                       seeing_fwhm_arcsec=seeing)
+                                       seeing_fwhm_arcsec=seeing, max_frame_s=campaign.max_frame_s)
             except CampaignError:
                 raise
             except Exception as exc:  # an InputError from the exposure core: no way to meet the goal

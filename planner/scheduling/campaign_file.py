@@ -10,6 +10,8 @@ Schema (unknown keys are errors; paths are relative to the campaign file)::
     first_night = 2027-01-05     local evening date (TOML date or "YYYY-MM-DD")
     last_night = 2027-01-18      or nights = 14
     seeing_arcsec = 1.0          optional: the seeing planned for (default: the site's typical)
+    max_frame_s = 600            optional: longest single frame of the depth goals (default: none
+                                 but saturation; long frames collect cosmic rays and guiding drift)
     [constraints]                optional: twilight, max_airmass, min_altitude_deg,
                                  min_moon_separation_deg (default: the site profile's)
     [[goals]]                    depth goals: level "tip" | "hb" | "turnoff"; filter; snr;
@@ -34,7 +36,7 @@ from planner.tomlcheck import Schema, Table, read_toml, show
 
 _KEYS = {
     "": ("name", "invented", "site", "targets", "variables", "first_night", "last_night", "nights",
-         "seeing_arcsec", "constraints", "goals", "cadence"),
+         "seeing_arcsec", "max_frame_s", "constraints", "goals", "cadence"),
     "constraints": ("twilight", "max_airmass", "min_altitude_deg", "min_moon_separation_deg"),
     "goal": ("level", "filter", "snr", "targets", "visits", "max_airmass", "dark", "max_seeing_arcsec",
              "priority"),
@@ -131,6 +133,7 @@ def read_campaign_file(path: str | Path):
         top.fail(f"the campaign spans {(last - first).days + 1} nights; at most {MAX_NIGHTS}")
     nights = tuple(first + dt.timedelta(days=i) for i in range((last - first).days + 1))
     seeing = top.number("seeing_arcsec", 0.1, 10, required=False)
+    max_frame = top.number("max_frame_s", 1.0, 7200.0, required=False)
 
     ct = top.sub("constraints", "constraints", required=False)
     try:
@@ -201,4 +204,4 @@ def read_campaign_file(path: str | Path):
                               weight=vt.number("priority", 0.0, 1000.0, lo_open=True, default=1.0))
     return Campaign(name=name, source=source, site=site, targets=tuple(targets), variables=tuple(variables),
                     nights=nights, constraints=constraints, goals=tuple(goals), cadence=cadence,
-                    seeing_arcsec=seeing, invented=bool(invented))
+                    seeing_arcsec=seeing, invented=bool(invented), max_frame_s=max_frame)
