@@ -27,6 +27,7 @@ COMMAND_MODULES = (
     "planner.commands.schedule",
     "planner.commands.campaign",
     "planner.commands.replan",
+    "planner.commands.app",
 )
 
 # Options whose values may start with "-" (a southern latitude, a western
@@ -77,8 +78,11 @@ def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(join_dash_values(argv))
     if args.command is None:
-        parser.print_help()
-        return 0
+        if not (sys.stdout.isatty() and sys.stdin.isatty()):
+            parser.print_help()
+            return 0
+        # A terminal and no command: open the app on the demo campaign.
+        args = parser.parse_args(["app"])
     from planner.config import configure_runtime
 
     configure_runtime()
