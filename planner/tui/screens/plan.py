@@ -2,29 +2,21 @@
 
 from __future__ import annotations
 
-import math
-
 from textual.app import ComposeResult
 from textual.binding import Binding
-from textual.reactive import reactive
-from textual.screen import Screen
 from textual.widgets import Footer, Static
 
 from planner.cautions import PLAN_CAUTION
 from planner.tui.rows import PLAN_HEAD, PLAN_SUBHEAD, plan_rows, plan_summary
+from planner.tui.screens.night_screen import NightScreen
 from planner.tui.widgets.night_header import NightHeader
 from planner.tui.widgets.row_list import RowList
 
 
-class PlanScreen(Screen):
+class PlanScreen(NightScreen):
     """The night's timed visits (``gcplan schedule --campaign``) with the caution at the foot."""
 
     BINDINGS = [Binding("c", "to_current", "now")]
-
-    data = reactive(None, init=False)
-    now_jd: reactive[float] = reactive(math.nan, init=False)
-    busy: reactive[bool] = reactive(False, init=False)
-    note: reactive[str] = reactive("", init=False)
 
     def compose(self) -> ComposeResult:
         yield NightHeader(id="header")
@@ -34,26 +26,12 @@ class PlanScreen(Screen):
         yield Static(PLAN_CAUTION, id="caution")
         yield Footer()
 
-    _ready = False  # set once mounted: the widgets exist
-
-    def on_mount(self) -> None:
-        self._ready = True
-        self.redraw()
-        self.query_one(RowList).focus()
-
     def on_screen_resume(self) -> None:
         self.action_to_current()
 
     def watch_data(self) -> None:
         self.redraw()
         self.action_to_current()
-
-    def watch_now_jd(self) -> None:
-        self.redraw()
-
-    def watch_busy(self, busy: bool) -> None:
-        if self._ready:
-            self.query_one(NightHeader).busy = busy
 
     def watch_note(self) -> None:
         self.redraw()

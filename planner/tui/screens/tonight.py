@@ -2,26 +2,18 @@
 
 from __future__ import annotations
 
-import math
-
 from textual.app import ComposeResult
-from textual.reactive import reactive
-from textual.screen import Screen
 from textual.widgets import Footer, Static
 
 from planner.tui.rows import TARGET_HEAD, almanac_lines, target_rows
+from planner.tui.screens.night_screen import NightScreen
 from planner.tui.widgets.night_header import NightHeader
 from planner.tui.widgets.row_list import RowList
 
 
-class TonightScreen(Screen):
+class TonightScreen(NightScreen):
     """The night's Sun, twilights and Moon, and when each target is observable."""
 
-    #: Set by the app: the night's data (planner.tui.night_data.NightData), the time, whether busy.
-    data = reactive(None, init=False)
-    now_jd: reactive[float] = reactive(math.nan, init=False)
-    busy: reactive[bool] = reactive(False, init=False)
-    note: reactive[str] = reactive("", init=False)
 
     def compose(self) -> ComposeResult:
         yield NightHeader(id="header")
@@ -30,23 +22,6 @@ class TonightScreen(Screen):
         yield RowList(id="targets")
         yield Static("", id="note", classes="note")
         yield Footer()
-
-    _ready = False  # set once mounted: the widgets exist
-
-    def on_mount(self) -> None:
-        self._ready = True
-        self.redraw()
-        self.query_one(RowList).focus()
-
-    def watch_data(self) -> None:
-        self.redraw()
-
-    def watch_now_jd(self) -> None:
-        self.redraw()
-
-    def watch_busy(self, busy: bool) -> None:
-        if self._ready:
-            self.query_one(NightHeader).busy = busy
 
     def watch_note(self, note: str) -> None:
         if self._ready:
