@@ -46,5 +46,9 @@ class ConstraintError(InputError):
     """An observing constraint with an impossible value."""
 
 
+class CampaignError(InputError):
+    """A campaign file that is missing, unreadable or invalid, or goals that cannot be met."""
+
+
 class OutputError(InputError):
     """An output path that cannot be written."""

@@ -1,4 +1,4 @@
-"""Tests for planner.airmass: Kasten & Young (1989) air mass and its inverse.
+"""Tests for planner.sky.airmass: Kasten & Young (1989) air mass and its inverse.
 
 Outside reference: Kasten, F. & Young, A. T. 1989, Applied Optics 28, 4735,
 eq. 3; the check values in the airmass table of /work/shared/REFERENCES.md
@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from planner.airmass import airmass_kasten_young, altitude_for_airmass
+from planner.sky.airmass import airmass_kasten_young, altitude_for_airmass
 
 
 @pytest.mark.parametrize(

@@ -1,4 +1,4 @@
-"""Tests for planner.almanac: sunset, sunrise, twilights and the Moon, night by night.
+"""Tests for planner.sky.almanac: sunset, sunrise, twilights and the Moon, night by night.
 
 Outside references
 ------------------
@@ -41,8 +41,8 @@ from zoneinfo import ZoneInfo
 import numpy as np
 import pytest
 
-from planner.almanac import almanac_for_nights, night_almanac_astroplan
-from planner.sites import resolve_site
+from planner.inputs.sites import resolve_site
+from planner.sky.almanac import almanac_for_nights, night_almanac_astroplan
 
 UNIX_EPOCH_JD = 2440587.5
 EPOCH = dt.datetime(1970, 1, 1, tzinfo=dt.timezone.utc)
@@ -415,7 +415,7 @@ def test_summer_night_at_55_north_never_astronomically_dark(de421):
     ],
 )
 def test_night_across_a_daylight_saving_change(de421, spec, tz, night, span_hours):
-    from planner.nights import jd_to_datetime, local_hhmm
+    from planner.sky.nights import jd_to_datetime, local_hhmm
 
     site = _site(spec, tz)
     n = dt.date.fromisoformat(night)
@@ -444,9 +444,9 @@ def test_night_beyond_the_bundled_iers_table(de421):
     # (UT1 − UTC held at its last value), the events agree with skyfield
     # (whose built-in ΔT table extrapolates independently), and exactly one
     # warning — gcplan's own sentence — reaches the user, not astropy's repeats.
-    from planner.ephemeris import build_ephemeris, iers_warning
-    from planner.night_summary import run_of_nights
-    from planner.visibility import constraints_for_site
+    from planner.model.constraints import constraints_for_site
+    from planner.sky.ephemeris import build_ephemeris, iers_warning
+    from planner.sky.night_summary import run_of_nights
 
     site = _site("demo", None)
     night = dt.date(2031, 5, 12)

@@ -15,9 +15,10 @@ import re
 
 import pytest
 
-from planner.catalog import REQUIRED_COLUMNS, Catalog, ClusterEntry, load_catalog, normalize_name
 from planner.errors import CatalogError
-from planner.resources import catalog_path
+from planner.inputs.catalog import REQUIRED_COLUMNS, Catalog, ClusterEntry, load_catalog
+from planner.inputs.resources import catalog_path
+from planner.model.names import normalize_name
 
 
 @pytest.fixture(scope="module")

@@ -25,10 +25,12 @@ from zoneinfo import ZoneInfo
 import numpy as np
 import pytest
 
-from planner.catalog import load_catalog
 from planner.config import configure_runtime
 from planner.errors import InputError
-from planner.night_summary import night_curves, run_of_nights
+from planner.inputs.catalog import load_catalog
+from planner.inputs.sites import resolve_site
+from planner.inputs.targets import targets_from_names
+from planner.model.constraints import constraints_for_site
 from planner.reports.charts import (
     CAUTION,
     night_chart,
@@ -36,9 +38,7 @@ from planner.reports.charts import (
     save_night_chart,
     save_observability_chart,
 )
-from planner.sites import resolve_site
-from planner.targets import targets_from_names
-from planner.visibility import constraints_for_site
+from planner.sky.night_summary import night_curves, run_of_nights
 
 FIVE = ["M 13", "47 Tuc", "omega Cen", "M22", "NGC6752"]
 FIFTEEN = FIVE + ["NGC 362", "NGC 1851", "NGC 2808", "M 4", "M 80", "NGC 6397", "M 55", "M 15", "M 2", "NGC 288"]
@@ -185,7 +185,7 @@ LEVEL_OF_STATE = {3: "sunset", 2: "civil", 1: "nautical", 0: "astronomical"}  # 
 
 @pytest.mark.parametrize("case", ["normal", "polar_night", "dst", "midnight_sun"])
 def test_sky_shading_edges_are_the_twilight_times(case, nights_drawn):
-    from planner.nights import jd_to_datetime
+    from planner.sky.nights import jd_to_datetime
 
     run, curves, fig = nights_drawn[case]
     spans = sky_spans(fig)
@@ -213,7 +213,7 @@ def test_sky_shading_edges_are_the_twilight_times(case, nights_drawn):
 
 def test_polar_night_has_no_daylight(nights_drawn):
     """At 69.6° N on 20 December the Sun stays below the horizon: the horizon span fills the chart."""
-    from planner.nights import jd_to_datetime
+    from planner.sky.nights import jd_to_datetime
 
     run, curves, fig = nights_drawn["polar_night"]
     start, end = jd_to_datetime(curves.start_jd), jd_to_datetime(curves.end_jd)
@@ -289,7 +289,7 @@ def test_curves_are_the_altitudes_at_their_drawn_times(nights_drawn):
 def test_windows_are_drawn_over_their_curves(case, nights_drawn):
     from matplotlib import dates as mdates
 
-    from planner.nights import jd_to_datetime
+    from planner.sky.nights import jd_to_datetime
 
     run, _, fig = nights_drawn[case]
     vis = run.visibility
@@ -368,7 +368,7 @@ def test_observability_data_is_the_observable_hours(season):
 
 
 def test_observability_rows_go_by_best_night(season):
-    from planner.night_summary import seasons
+    from planner.sky.night_summary import seasons
 
     run, fig = season
     rows, _ = heat_rows(fig)

@@ -1,4 +1,4 @@
-"""Tests for planner.ephemeris: the sampled Sun, Moon and Earth rotation.
+"""Tests for planner.sky.ephemeris: the sampled Sun, Moon and Earth rotation.
 
 Outside references
 ------------------
@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from planner.ephemeris import (
+from planner.sky.ephemeris import (
     SiteGeometry,
     build_ephemeris,
     local_sidereal_deg,
@@ -27,7 +27,7 @@ from planner.ephemeris import (
     site_geometry,
     sun_radec_deg,
 )
-from planner.sidereal import wrap_180
+from planner.sky.sidereal import wrap_180
 
 #: 2026-10-01 .. 2027-10-01 (UTC JD): a year inside the bundled IERS table, so
 #: astropy's reference transforms use measured/predicted UT1, not extrapolation.
@@ -80,7 +80,7 @@ def test_sun_and_moon_against_astropy_altaz(year_ephemeris, lat, lon, elev):
     from astropy.coordinates import TETE, AltAz, get_body
     from astropy.time import Time
 
-    from planner.almanac import moon_altitude_deg, sun_altitude_deg
+    from planner.sky.almanac import moon_altitude_deg, sun_altitude_deg
 
     jd = _random_times(int(abs(lat * 100)))
     t = Time(jd, format="jd", scale="utc")

@@ -13,8 +13,8 @@ import pytest
 
 from planner.commands import expose
 from planner.errors import InputError
-from planner.exposure import exposure_for_snr
-from planner.sites import resolve_site
+from planner.inputs.sites import resolve_site
+from planner.light.exposure import exposure_for_snr
 
 ISSUE_FIELDS = ("filter", "magnitude", "level", "target", "snr_goal", "exposure_s", "frames", "frame_s",
                 "snr_reached", "saturation_s", "sky_mag_arcsec2", "source_e_per_s", "sky_e_per_s_per_pixel",
@@ -110,7 +110,7 @@ def test_level_needing_missing_distance(tmp_path, capsys):
     # core, which the command calls (the same LevelError, one line).
     from types import SimpleNamespace
 
-    from planner.photometry import LevelError, science_level
+    from planner.light.photometry import LevelError, science_level
 
     with pytest.raises(LevelError) as err:
         science_level(SimpleNamespace(name="Invented 2", distance_modulus_mag=14.0, ebv_mag=None, feh_dex=-1.2),

@@ -1,4 +1,4 @@
-"""Checks of planner.exposure: the CCD equation, the Gaussian aperture, saturation, frames.
+"""Checks of planner.light.exposure: the CCD equation, the Gaussian aperture, saturation, frames.
 
 Sources are named beside each check; the synthetic sites below are invented.
 """
@@ -14,10 +14,18 @@ import pytest
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
-from planner import exposure as ex
 from planner.errors import InputError
-from planner.photometry import ConditionsError, UnknownFilterError
-from planner.sites import Camera, Filter, Limits, Location, Sky, SiteProfile, Telescope
+from planner.light import exposure as ex
+from planner.light.photometry import ConditionsError, UnknownFilterError
+from planner.model.site import (
+    Camera,
+    Filter,
+    Limits,
+    Location,
+    SiteProfile,
+    Sky,
+    Telescope,
+)
 
 
 def make_site(*, read_noise_e=5.0, dark_e_per_s=0.002, dark_sky=21.5, k=0.15, pixel_scale=0.4,
@@ -83,7 +91,7 @@ def test_peak_pixel_fraction_against_scipy_norm():
 
 def _plain_snr(site, magnitude, t, airmass, seeing, illumination, separation, moon_alt):
     """The CCD equation written out per star with math only (the slow, obvious path)."""
-    from planner.photometry import sky_brightness_mag_arcsec2
+    from planner.light.photometry import sky_brightness_mag_arcsec2
 
     f = site.filters["V"]
     k = site.sky.extinction_mag_per_airmass["V"]
@@ -211,7 +219,7 @@ def test_phase_smearing_flag():
 
 
 def test_exposure_for_level_uses_brightest_stars_and_notes():
-    from planner.photometry import science_level
+    from planner.light.photometry import science_level
 
     target = SimpleNamespace(name="Invented 1", distance_modulus_mag=15.0, ebv_mag=0.05, feh_dex=-1.6)
     hb = science_level(target, "hb", "V")
@@ -228,7 +236,8 @@ def test_exposure_table_rows():
     rows = ex.exposure_table(SITE, targets, ["tip", "hb"], ["V"], {"tip": 200.0, "hb": 100.0})
     assert [(r.target, r.level) for r in rows] == [("Invented 1", "tip"), ("Invented 1", "hb"),
                                                    ("Invented 2", "tip"), ("Invented 2", "hb")]
-    single = ex.exposure_for_level(SITE, "V", __import__("planner.photometry").photometry.science_level(
+    from planner.light.photometry import science_level
+    single = ex.exposure_for_level(SITE, "V", science_level(
         targets[0], "hb", "V"), 100.0)
     assert rows[1].frames == single.frames and rows[1].frame_s == pytest.approx(single.frame_s)
     assert rows[2].exposure_s is None and "distance_modulus_mag" in rows[2].note

@@ -10,9 +10,10 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from planner.catalog import load_catalog
 from planner.config import configure_runtime
-from planner.fits_ingest import (
+from planner.inputs.catalog import load_catalog
+from planner.inputs.sites import resolve_site
+from planner.logbook.ingest import (
     FrameProblem,
     airmass_at,
     ingest_folder,
@@ -21,9 +22,8 @@ from planner.fits_ingest import (
     watch_folder,
     write_invented_frame,
 )
-from planner.logbook import Logbook
-from planner.nights import datetime_to_jd
-from planner.sites import resolve_site
+from planner.logbook.store import Logbook
+from planner.sky.nights import datetime_to_jd
 
 CARDS = {"DATE-OBS": "2027-05-13T03:10:00.5", "EXPTIME": 120.0, "OBJECT": "NGC 362", "FILTER": "V",
          "RA": "01:03:14.26", "DEC": "-70:50:55.6"}
@@ -178,7 +178,7 @@ def test_airmass_agrees_with_astropy_altaz(site):
     from astropy.coordinates import AltAz, EarthLocation, SkyCoord
     from astropy.time import Time
 
-    from planner.airmass import airmass_kasten_young, altitude_for_airmass
+    from planner.sky.airmass import airmass_kasten_young, altitude_for_airmass
 
     rng = np.random.default_rng(7)
     n = 120

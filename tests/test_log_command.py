@@ -20,8 +20,8 @@ import time
 import pytest
 
 from planner.cli import main
-from planner.fits_ingest import write_invented_frame
-from planner.logbook import Logbook
+from planner.logbook.ingest import write_invented_frame
+from planner.logbook.store import Logbook
 
 NIGHT = "2027-05-12"
 CARDS = {"DATE-OBS": "2027-05-13T03:10:00", "EXPTIME": 60.0, "OBJECT": "NGC 2808", "FILTER": "V"}
@@ -90,9 +90,9 @@ def _astropy_airmass(name: str, utc: str) -> float:
     from astropy.coordinates import AltAz, EarthLocation, SkyCoord
     from astropy.time import Time
 
-    from planner.airmass import airmass_kasten_young
-    from planner.catalog import load_catalog
-    from planner.sites import resolve_site
+    from planner.inputs.catalog import load_catalog
+    from planner.inputs.sites import resolve_site
+    from planner.sky.airmass import airmass_kasten_young
 
     loc = resolve_site("demo").location
     hit = load_catalog().lookup(name)
@@ -151,9 +151,9 @@ def _page_sizes_pt(pdf_bytes: bytes) -> list[tuple[float, float]]:
 
 
 def test_print_text_and_pdf_on_a4_and_letter(tmp_path, book, capsys):
-    from planner.almanac import almanac_for_nights
-    from planner.nights import local_hhmm
-    from planner.sites import resolve_site
+    from planner.inputs.sites import resolve_site
+    from planner.sky.almanac import almanac_for_nights
+    from planner.sky.nights import local_hhmm
 
     folder = tmp_path / "frames"
     folder.mkdir()
@@ -233,7 +233,7 @@ def test_demo_log_is_invented_frames_of_the_demo_clusters(tmp_path):
     from astropy.io import fits
 
     from planner.commands.log import write_demo_log
-    from planner.sites import resolve_site
+    from planner.inputs.sites import resolve_site
 
     result = write_demo_log(tmp_path, resolve_site("demo"), dt.date(2027, 5, 12))
     assert result["added"] > 20 and result["skipped"] == 0
@@ -253,8 +253,8 @@ def test_recorded_plan_is_marked_done_by_ingested_frames(tmp_path, capsys):
     target and filter, ingested afterwards, mark the matching visit done."""
     import shutil
 
-    from planner.nights import jd_to_datetime
-    from planner.resources import targets_dir
+    from planner.inputs.resources import targets_dir
+    from planner.sky.nights import jd_to_datetime
 
     camp_dir = tmp_path / "camp"
     shutil.copytree(targets_dir() / "demo", camp_dir)

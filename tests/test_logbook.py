@@ -18,8 +18,8 @@ import time
 
 import pytest
 
-from planner.fits_ingest import watch_folder, write_invented_frame
-from planner.logbook import (
+from planner.logbook.ingest import watch_folder, write_invented_frame
+from planner.logbook.store import (
     _MIGRATIONS,
     SCHEMA_VERSION,
     Logbook,
@@ -174,8 +174,8 @@ def test_two_writers_at_once_watcher_and_manual_entries(tmp_path):
 
 _CHILD = textwrap.dedent("""
     import sys
-    from planner.fits_ingest import ingest_folder
-    from planner.logbook import Logbook
+    from planner.logbook.ingest import ingest_folder
+    from planner.logbook.store import Logbook
     with Logbook(sys.argv[1]) as book:
         ingest_folder(book, sys.argv[2], None)
 """)

@@ -1,4 +1,4 @@
-"""Checks of planner.photometry against published values and reference libraries.
+"""Checks of planner.light.photometry against published values and reference libraries.
 
 Each check names its source beside it.  "from memory" marks numbers recalled, not read.
 """
@@ -13,8 +13,8 @@ from types import SimpleNamespace
 import numpy as np
 import pytest
 
-from planner import photometry as ph
 from planner.errors import InputError
+from planner.light import photometry as ph
 
 # ------------------------------------------------------------------ zero points
 
@@ -68,7 +68,7 @@ def test_2mass_photon_rates_cohen_2003(band):
 
 
 def test_zero_point_means_one_electron_per_second():
-    # Site-profile convention (planner/sites.py): zero_point_mag gives 1 e-/s above the
+    # Site-profile convention (planner/inputs/sites.py): zero_point_mag gives 1 e-/s above the
     # atmosphere, and a measured zero point wins over throughput.
     e0 = ph.zero_mag_electron_rate("V", collecting_area_m2=1.0, throughput=0.5, zero_point_mag=24.0)
     assert float(ph.electron_rate(24.0, e0)) == pytest.approx(1.0)

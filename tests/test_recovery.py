@@ -1,4 +1,4 @@
-"""Tests for planner.recovery and planner.period_search."""
+"""Tests for planner.variables.recovery and planner.period_search."""
 
 from __future__ import annotations
 
@@ -7,8 +7,12 @@ import json
 import numpy as np
 import pytest
 
-from planner.period_search import coarse_frequency_step, lomb_scargle_power, recover_periods
-from planner.recovery import (
+from planner.variables.period_search import (
+    coarse_frequency_step,
+    lomb_scargle_power,
+    recover_periods,
+)
+from planner.variables.recovery import (
     OOSTERHOFF_I,
     OOSTERHOFF_II,
     RRAB_SHAPE,

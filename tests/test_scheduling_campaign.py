@@ -16,9 +16,9 @@ import pytest
 
 from planner.cli import main
 from planner.errors import InputError
-from planner.resources import targets_dir
+from planner.inputs.campaign_file import read_campaign_file
+from planner.inputs.resources import targets_dir
 from planner.scheduling.campaign import plan_campaign
-from planner.scheduling.campaign_file import read_campaign_file
 from planner.scheduling.validate import validate_plan
 
 DEMO = targets_dir() / "demo" / "campaign.toml"
@@ -57,7 +57,7 @@ def test_every_campaign_night_passes_the_validator(demo_plan):
 
 def test_tip_frames_dark_low_and_cadence_spaced(demo_plan):
     import astropy.units as u
-    from astropy.coordinates import EarthLocation, get_body, AltAz
+    from astropy.coordinates import AltAz, EarthLocation, get_body
     from astropy.time import Time
 
     campaign, plan = demo_plan

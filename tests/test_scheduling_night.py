@@ -15,14 +15,15 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from planner.catalog import load_catalog
+from planner.inputs.catalog import load_catalog
+from planner.inputs.sites import resolve_site
+from planner.inputs.targets import resolve_targets
+from planner.model.constraints import constraints_for_site
+from planner.model.target import Target
 from planner.scheduling.frame import night_frame, requests_for_targets
 from planner.scheduling.night import plan_night
 from planner.scheduling.validate import validate_plan
 from planner.scheduling.visits import Exposure, VisitRequest, body_s, parse_visit_spec
-from planner.sites import resolve_site
-from planner.targets import Target, resolve_targets
-from planner.visibility import constraints_for_site
 
 SITE = resolve_site("demo")
 NIGHT = dt.date(2027, 5, 12)
@@ -171,10 +172,10 @@ def test_random_target_sets_pass_the_validator(seed, n, frames, exposure, day):
 def test_usable_window_agrees_with_the_almanac(spec, start):
     """The planner's quick twilight search against the almanac's (itself held to astroplan
     in tests/test_almanac.py): same events within 5 s, same nights without darkness."""
-    from planner.almanac import almanac_for_nights
-    from planner.ephemeris import site_geometry
-    from planner.nights import night_spans_jd
     from planner.scheduling.frame import usable_windows_jd
+    from planner.sky.almanac import almanac_for_nights
+    from planner.sky.ephemeris import site_geometry
+    from planner.sky.nights import night_spans_jd
 
     site = resolve_site(spec)
     nights = [start + dt.timedelta(days=i) for i in range(0, 60, 3)]

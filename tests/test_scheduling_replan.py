@@ -8,12 +8,12 @@ import datetime as dt
 import pytest
 
 from planner.cli import main
-from planner.nights import iso_utc
-from planner.resources import targets_dir
+from planner.inputs.campaign_file import read_campaign_file
+from planner.inputs.resources import targets_dir
 from planner.scheduling.campaign import plan_through_night
-from planner.scheduling.campaign_file import read_campaign_file
 from planner.scheduling.replan import parse_closed, parse_now, replan_night
 from planner.scheduling.validate import validate_plan
+from planner.sky.nights import iso_utc
 
 DEMO = targets_dir() / "demo" / "campaign.toml"
 NIGHT = dt.date(2027, 1, 8)
@@ -125,7 +125,7 @@ def test_replan_command_json(capsys):
 def test_done_visits_and_weather_from_the_logbook(setup, tmp_path, capsys):
     import json
 
-    from planner.logbook import Logbook, NewEntry
+    from planner.logbook.store import Logbook, NewEntry
 
     campaign, original, _ = setup
     folder = tmp_path / "camp"

@@ -1,4 +1,4 @@
-"""Tests for planner.sidereal: sidereal time and the equatorial → horizontal kernels.
+"""Tests for planner.sky.sidereal: sidereal time and the equatorial → horizontal kernels.
 
 Outside references
 ------------------
@@ -19,7 +19,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from planner.sidereal import (
+from planner.sky.sidereal import (
     altaz_deg,
     altitude_deg,
     culmination_altitudes_deg,
@@ -69,7 +69,7 @@ def test_meeus_12a_apparent_sidereal_time():
     # 2 ms of time (30 mas) covers the nutation-model difference (~7 mas here).
     from astropy.time import Time
 
-    from planner.ephemeris import build_ephemeris, local_sidereal_deg
+    from planner.sky.ephemeris import build_ephemeris, local_sidereal_deg
 
     jd_utc = Time(JD_MEEUS_12A, format="jd", scale="ut1").utc.jd
     eph = build_ephemeris(jd_utc - 1.0, jd_utc + 1.0)

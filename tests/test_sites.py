@@ -1,4 +1,4 @@
-"""Tests for planner.sites: the site-profile parser, its messages, the bundled profiles.
+"""Tests for planner.inputs.sites: the site-profile parser, its messages, the bundled profiles.
 
 Outside references: the collecting area and sec z are worked by hand (written
 out beside each check); the templates' sky and extinction are compared with the
@@ -20,16 +20,16 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from planner.errors import InputError, SiteProfileError
-from planner.resources import site_profiles_dir
-from planner.sites import (
+from planner.inputs.resources import site_profiles_dir
+from planner.inputs.sites import (
     BANDS,
-    SiteProfile,
     bundled_site_names,
     load_site_profile,
     parse_site_profile,
     resolve_site,
     site_from_coordinates,
 )
+from planner.model.site import SiteProfile
 
 DATA = Path(__file__).parent / "data"
 FULL = (DATA / "sites_full.toml").read_text(encoding="utf-8")

@@ -1,4 +1,4 @@
-"""Tests of planner.targets: reading target lists and resolving names.
+"""Tests of planner.inputs.targets: reading target lists and resolving names.
 
 Reference values: the degrees in tests/data/targets_degrees.csv were computed by
 hand arithmetic, ra = 15 (h + m/60 + s/3600) and dec = sign (d + m/60 + s/3600),
@@ -14,15 +14,15 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from planner.catalog import Catalog, load_catalog
 from planner.errors import InputError, TargetListError
-from planner.targets import (
-    Target,
+from planner.inputs.catalog import Catalog, load_catalog
+from planner.inputs.targets import (
     catalog_targets,
     read_target_list,
     resolve_targets,
     targets_from_names,
 )
+from planner.model.target import Target
 
 DATA = Path(__file__).parent / "data"
 EXAMPLES = Path(__file__).parent.parent / "targets" / "examples"

@@ -16,10 +16,10 @@ import pytest
 from rich.cells import cell_len
 
 from planner.commands.schedule import plan_campaign_night
-from planner.nights import jd_to_datetime, local_hhmm
-from planner.resources import targets_dir
-from planner.scheduling.campaign_file import read_campaign_file
-from planner.sites import resolve_site
+from planner.inputs.campaign_file import read_campaign_file
+from planner.inputs.resources import targets_dir
+from planner.inputs.sites import resolve_site
+from planner.sky.nights import jd_to_datetime, local_hhmm
 
 DEMO_TARGETS = ("NGC 104", "NGC 362", "NGC 1851", "NGC 2808", "NGC 3201")
 SIZES = [(80, 24), (160, 50)]

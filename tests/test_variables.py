@@ -1,4 +1,4 @@
-"""Tests for planner.variables: phases, heliocentric dates, coverage, alias warnings."""
+"""Tests for planner.variables.phases: phases, heliocentric dates, coverage, alias warnings."""
 
 from __future__ import annotations
 
@@ -6,8 +6,7 @@ import numpy as np
 import pytest
 from astropy.time import Time
 
-from planner.recovery import RRAB_SHAPE, RRC_SHAPE, template_magnitude
-from planner.variables import (
+from planner.variables.phases import (
     RRAB_MINIMUM_LIGHT,
     RRAB_RISING_BRANCH,
     RRC_MINIMUM_LIGHT,
@@ -18,6 +17,7 @@ from planner.variables import (
     phase_drift_per_day,
     phases,
 )
+from planner.variables.recovery import RRAB_SHAPE, RRC_SHAPE, template_magnitude
 
 # RR Lyr itself, the ephemeris as listed in the GCVS (Samus et al., General Catalogue
 # of Variable Stars), FROM MEMORY: HJD(max) = 2442923.4193 + 0.56686776 E.  (Le Borgne

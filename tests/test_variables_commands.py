@@ -38,7 +38,7 @@ def _gcplan(argv, monkeypatch):
 def test_phases_json_shape(monkeypatch, capsys):
     from astropy.time import Time
 
-    from planner.variables import heliocentric_jd, phases
+    from planner.variables.phases import heliocentric_jd, phases
 
     status = _gcplan(["phases", "--variables", str(DATA / "variables_good.csv"),
                       "--times", str(DATA / "variables_times.csv"), "--bins", "10", "--json"], monkeypatch)

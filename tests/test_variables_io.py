@@ -1,4 +1,4 @@
-"""Tests for planner.variables_io and the ``gcplan phases`` command."""
+"""Tests for planner.inputs.variable_files and the ``gcplan phases`` command."""
 
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from planner.errors import InputError
-from planner.variables_io import VariablesError, read_times, read_variables
+from planner.inputs.variable_files import VariablesError, read_times, read_variables
 
 DATA = Path(__file__).parent / "data"
 ROOT = Path(__file__).resolve().parents[1]

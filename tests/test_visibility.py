@@ -1,4 +1,4 @@
-"""Tests for planner.visibility: targets × times in one vectorised computation.
+"""Tests for planner.sky.visibility: targets × times in one vectorised computation.
 
 Outside reference: astropy's full transforms with refraction off —
 ``SkyCoord(...).transform_to(AltAz(location=..., obstime=..., pressure=0))``
@@ -17,10 +17,10 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from planner.ephemeris import build_ephemeris, site_geometry
-from planner.sidereal import wrap_180
-from planner.visibility import (
-    Constraints,
+from planner.model.constraints import Constraints
+from planner.sky.ephemeris import build_ephemeris, site_geometry
+from planner.sky.sidereal import wrap_180
+from planner.sky.visibility import (
     angular_separation_deg,
     apparent_places,
     constraint_margin_deg,
@@ -41,8 +41,8 @@ def _runtime():
 
 @pytest.fixture(scope="module")
 def catalog_radec():
-    from planner.catalog import load_catalog
-    from planner.targets import catalog_targets
+    from planner.inputs.catalog import load_catalog
+    from planner.inputs.targets import catalog_targets
 
     targets = catalog_targets(load_catalog())
     assert len(targets) >= 140
@@ -55,7 +55,7 @@ def year_ephemeris():
 
 
 def kasten_young(alt_deg):
-    """Kasten & Young 1989 eq. 3, as quoted in REFERENCES.md (independent of planner.airmass)."""
+    """Kasten & Young 1989 eq. 3, as quoted in REFERENCES.md (independent of planner.sky.airmass)."""
     h = np.asarray(alt_deg, dtype=float)
     return 1.0 / (np.sin(np.radians(h)) + 0.50572 * (h + 6.07995) ** -1.6364)
 

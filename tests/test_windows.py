@@ -1,4 +1,4 @@
-"""Tests for planner.windows: observable hours and windows per target and night.
+"""Tests for planner.sky.windows: observable hours and windows per target and night.
 
 Outside reference: a brute-force night built here with astropy's full
 transforms (``AltAz(location=..., obstime=..., pressure=0)``, refraction off)
@@ -31,12 +31,13 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from planner.almanac import TWILIGHT_ALTITUDE_DEG, almanac_for_nights
-from planner.ephemeris import build_ephemeris, site_geometry
-from planner.nights import iso_utc, night_spans_jd
-from planner.sites import resolve_site
-from planner.visibility import Constraints, apparent_places, constraints_for_site
-from planner.windows import visibility_for_nights
+from planner.inputs.sites import resolve_site
+from planner.model.constraints import Constraints, constraints_for_site
+from planner.sky.almanac import TWILIGHT_ALTITUDE_DEG, almanac_for_nights
+from planner.sky.ephemeris import build_ephemeris, site_geometry
+from planner.sky.nights import iso_utc, night_spans_jd
+from planner.sky.visibility import apparent_places
+from planner.sky.windows import visibility_for_nights
 
 STEP_S = 10.0
 EDGE_TOL_D = 1.0 / 1440.0
@@ -52,13 +53,13 @@ def _runtime():
 
 @pytest.fixture(scope="module")
 def catalog():
-    from planner.catalog import load_catalog
+    from planner.inputs.catalog import load_catalog
 
     return load_catalog()
 
 
 def targets_named(names, catalog):
-    from planner.targets import targets_from_names
+    from planner.inputs.targets import targets_from_names
 
     return targets_from_names(names, catalog)
 
@@ -426,7 +427,7 @@ def test_transit_and_moon_separation_against_astropy(catalog):
 
 def test_run_of_nights_is_visibility_for_nights(catalog):
     # The run-of-nights core gives the same numbers as the pieces put together.
-    from planner.night_summary import run_of_nights
+    from planner.sky.night_summary import run_of_nights
 
     site = resolve_site("demo")
     targets = targets_named(["NGC 6273", "NGC 104"], catalog)

@@ -7,7 +7,7 @@ from planner.commands import common
 
 def demo_campaign_path():
     """The bundled, invented demo campaign."""
-    from planner.resources import targets_dir
+    from planner.inputs.resources import targets_dir
 
     return targets_dir() / "demo" / "campaign.toml"
 
@@ -33,7 +33,7 @@ def register(sub) -> None:
 def run_app(args) -> int:
     """Read the campaign (bad input fails here, as one line), then run the app until q."""
     from planner.commands.schedule import check_seeing
-    from planner.scheduling.campaign_file import read_campaign_file
+    from planner.inputs.campaign_file import read_campaign_file
     from planner.tui.app import PlannerApp
     from planner.tui.clock import frozen_clock, system_clock
 

@@ -26,7 +26,12 @@ def run(args) -> int:
     import json
     from pathlib import Path
 
-    from planner.commands.schedule import campaign_from_args, campaign_json, check_seeing, night_sheet
+    from planner.commands.schedule import (
+        campaign_from_args,
+        campaign_json,
+        check_seeing,
+        night_sheet,
+    )
     from planner.errors import OutputError
     from planner.scheduling.campaign import plan_campaign
 
@@ -63,8 +68,8 @@ def run(args) -> int:
 
 def campaign_text(plan) -> str:
     from planner.cautions import PLAN_CAUTION
-    from planner.nights import local_hhmm
     from planner.scheduling.visits import exposures_text
+    from planner.sky.nights import local_hhmm
 
     c = plan.campaign
     zone = c.site.location.timezone

@@ -31,7 +31,7 @@ def add_site_arguments(parser: argparse.ArgumentParser, required: bool = True) -
 
 
 def site_from_args(args: argparse.Namespace):
-    from planner.sites import resolve_site
+    from planner.inputs.sites import resolve_site
 
     return resolve_site(args.site, getattr(args, "timezone", None))
 
@@ -52,8 +52,8 @@ def add_target_arguments(parser: argparse.ArgumentParser, required: bool = True)
 
 
 def targets_from_args(args: argparse.Namespace):
-    from planner.catalog import load_catalog
-    from planner.targets import resolve_targets
+    from planner.inputs.catalog import load_catalog
+    from planner.inputs.targets import resolve_targets
 
     return resolve_targets(args.targets, args.target, load_catalog())
 
@@ -64,7 +64,7 @@ def add_json_argument(parser: argparse.ArgumentParser) -> None:
 
 def parse_night_date(text: str, option: str = "--date") -> dt.date:
     """A night's local evening date, YYYY-MM-DD."""
-    from planner.nights import night_out_of_range
+    from planner.sky.nights import night_out_of_range
 
     try:
         night = dt.date.fromisoformat(text.strip())

@@ -10,8 +10,8 @@ from __future__ import annotations
 
 import datetime as dt
 import json
-import textwrap
 import sys
+import textwrap
 from pathlib import Path
 from zoneinfo import ZoneInfo
 
@@ -39,16 +39,16 @@ def current_night(local_now: dt.datetime) -> dt.date:
 
 
 def demo_targets():
-    from planner.catalog import load_catalog
-    from planner.resources import targets_dir
-    from planner.targets import read_target_list
+    from planner.inputs.catalog import load_catalog
+    from planner.inputs.resources import targets_dir
+    from planner.inputs.targets import read_target_list
 
     return read_target_list(targets_dir() / "demo" / "clusters.ecsv", load_catalog())
 
 
 def run(args) -> int:
     from planner.commands import common
-    from planner.sites import resolve_site
+    from planner.inputs.sites import resolve_site
 
     site = resolve_site(DEMO_SITE)
     if args.date:
@@ -88,9 +88,9 @@ def step_night(site, targets, night, out):
     """Tonight: almanac, windows, chart."""
     from planner.commands.common import to_jsonable
     from planner.commands.night import night_json, night_text
-    from planner.night_summary import night_curves, run_of_nights
+    from planner.model.constraints import constraints_for_site
     from planner.reports.charts import save_night_chart
-    from planner.visibility import constraints_for_site
+    from planner.sky.night_summary import night_curves, run_of_nights
 
     run_ = run_of_nights(site, targets, [night], constraints_for_site(site))
     _write(out / "night.txt", night_text(run_))
@@ -105,13 +105,13 @@ def step_night(site, targets, night, out):
 
 def step_semester(site, targets, night, out):
     """The next semester: hours per night, best nights and months."""
-    from planner.catalog import load_catalog
     from planner.commands.common import to_jsonable
     from planner.commands.observability import observability_json, observability_text
-    from planner.night_summary import run_of_nights, seasons
+    from planner.inputs.catalog import load_catalog
+    from planner.inputs.targets import catalog_targets
+    from planner.model.constraints import constraints_for_site
     from planner.reports.charts import save_observability_chart
-    from planner.targets import catalog_targets
-    from planner.visibility import constraints_for_site
+    from planner.sky.night_summary import run_of_nights, seasons
 
     nights = [night + dt.timedelta(days=i) for i in range(SEMESTER_NIGHTS)]
     constraints = constraints_for_site(site)
@@ -142,7 +142,7 @@ def step_exposures(site, targets, night, out):
     """Exposure table: every cluster × level × filter at the site's typical seeing, airmass 1.2, dark."""
     from astropy.table import Table
 
-    from planner.exposure import exposure_table
+    from planner.light.exposure import exposure_table
 
     rows = exposure_table(site, targets, tuple(DEMO_SNR), DEMO_FILTERS, DEMO_SNR)
     lines = textwrap.wrap(
@@ -178,7 +178,7 @@ def step_exposures(site, targets, night, out):
                "snr_reached", "saturation_s", "note"),
         dtype=(str, str, str, float, float, float, float, float, float, float, str),
     )
-    table.meta["note"] = "gcplan demo: invented campaign goals at a fictional site; see planner/exposure.py"
+    table.meta["note"] = "gcplan demo: invented campaign goals at a fictional site; see planner/light/exposure.py"
     table.write(out / "exposures.ecsv", format="ascii.ecsv", overwrite=True)
     return [
         ("exposures.txt", "frames for the RGB tip, HB and turnoff of each cluster in V and I"),
@@ -191,13 +191,13 @@ def step_phases(site, targets, night, out):
     import numpy as np
     from astropy.time import Time
 
-    from planner.almanac import dark_windows_jd
     from planner.commands.common import to_jsonable
     from planner.commands.phases import phase_report, report_json, report_text
-    from planner.recovery import visit_times_in_windows
+    from planner.inputs.resources import targets_dir
+    from planner.inputs.variable_files import read_variables
     from planner.reports.phase_plot import phase_coverage_axes
-    from planner.resources import targets_dir
-    from planner.variables_io import read_variables
+    from planner.sky.almanac import dark_windows_jd
+    from planner.variables.recovery import visit_times_in_windows
 
     variables = read_variables(targets_dir() / "demo" / "variables.ecsv")
     windows = dark_windows_jd(site, night, DEMO_VARIABLE_NIGHTS, site.limits.twilight)
@@ -241,11 +241,11 @@ def write_demo_schedule(out_dir, site=None):
 
     from planner.commands.common import to_jsonable
     from planner.commands.schedule import campaign_json, night_sheet
+    from planner.inputs.campaign_file import read_campaign_file
+    from planner.inputs.resources import targets_dir
+    from planner.model.constraints import constraints_for_site
     from planner.reports.schedule_plot import save_schedule_plot
-    from planner.resources import targets_dir
     from planner.scheduling.campaign import plan_campaign
-    from planner.scheduling.campaign_file import read_campaign_file
-    from planner.visibility import constraints_for_site
 
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)

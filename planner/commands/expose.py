@@ -8,7 +8,7 @@ import textwrap
 import numpy as np
 
 from planner.commands import common
-from planner.photometry import LEVEL_NAMES, LEVELS, LevelError
+from planner.light.photometry import LEVEL_NAMES, LEVELS, LevelError
 
 PLOT_SUFFIXES = (".png", ".pdf", ".svg")
 
@@ -51,7 +51,7 @@ SHORTEST_RR_LYRAE_PERIOD_D = 0.2
 
 
 def _level_from_args(args, band):
-    from planner.photometry import science_level, user_level
+    from planner.light.photometry import science_level, user_level
 
     if args.mag is not None:
         if args.level is not None:
@@ -59,8 +59,8 @@ def _level_from_args(args, band):
         return user_level(args.mag, band, args.target), None
     if args.target is None or args.level is None:
         raise LevelError("say what to reach: --mag M, or --target NAME with --level tip|hb|turnoff")
-    from planner.catalog import load_catalog
-    from planner.targets import targets_from_names
+    from planner.inputs.catalog import load_catalog
+    from planner.inputs.targets import targets_from_names
 
     target = targets_from_names([args.target], load_catalog())[0]
     return science_level(target, args.level, band), target
@@ -68,8 +68,8 @@ def _level_from_args(args, band):
 
 def plan_from_args(args, site):
     """The exposure plan (and extra JSON fields) for parsed ``args`` at ``site``."""
-    from planner.exposure import band_setup, exposure_for_level, saturation_time_s
-    from planner.photometry import science_level
+    from planner.light.exposure import band_setup, exposure_for_level, saturation_time_s
+    from planner.light.photometry import science_level
 
     setup = band_setup(site, args.filter)
     level, target = _level_from_args(args, setup.band)
@@ -114,7 +114,7 @@ def run(args) -> int:
 
 
 def write_plot(path, plan, site, args):
-    from planner.exposure import snr_of_exposure
+    from planner.light.exposure import snr_of_exposure
     from planner.reports.exposure_plot import save_snr_plot
 
     c = plan.inputs

@@ -80,7 +80,7 @@ def register(sub) -> None:
 
 
 def open_logbook(args):
-    from planner.logbook import Logbook, default_logbook_path
+    from planner.logbook.store import Logbook, default_logbook_path
 
     if args.logbook:
         return Logbook(args.logbook)
@@ -91,8 +91,8 @@ def open_logbook(args):
 
 def site_for(args, book, required: bool):
     """--site if given (remembered in the logbook if it has none), else the remembered one."""
-    from planner.logbook import LogbookError
-    from planner.sites import resolve_site
+    from planner.inputs.sites import resolve_site
+    from planner.logbook.store import LogbookError
 
     spec, zone = getattr(args, "site", None), getattr(args, "timezone", None)
     if spec:
@@ -113,7 +113,7 @@ def site_for(args, book, required: bool):
 
 def parse_time(text: str | None, option: str = "--time") -> float:
     """JD (UTC) of an ISO 8601 time (naive = UTC); now if not given."""
-    from planner.nights import datetime_to_jd
+    from planner.sky.nights import datetime_to_jd
 
     if text is None:
         return datetime_to_jd(dt.datetime.now(dt.timezone.utc))
@@ -125,14 +125,14 @@ def parse_time(text: str | None, option: str = "--time") -> float:
 
 
 def night_bounds(site, night: dt.date) -> tuple[float, float]:
-    from planner.nights import night_spans_jd
+    from planner.sky.nights import night_spans_jd
 
     start, end = night_spans_jd([night], site.location.timezone if site else "UTC")
     return float(start[0]), float(end[0])
 
 
 def entry_json(e) -> dict:
-    from planner.nights import iso_utc
+    from planner.sky.nights import iso_utc
 
     return {"id": e.id, "time": iso_utc(e.time_jd), "target": e.target, "filter": e.filter,
             "exposure_s": e.exposure_s, "frames": e.frames,
@@ -145,8 +145,8 @@ def entry_json(e) -> dict:
 
 
 def run_ingest(args) -> int:
-    from planner.catalog import load_catalog
-    from planner.fits_ingest import ingest_folder, watch_folder
+    from planner.inputs.catalog import load_catalog
+    from planner.logbook.ingest import ingest_folder, watch_folder
 
     with open_logbook(args) as book:
         site = site_for(args, book, required=True)
@@ -155,7 +155,7 @@ def run_ingest(args) -> int:
             report = ingest_folder(book, args.folder, site, catalog)
         else:
             if not Path(args.folder).is_dir():
-                from planner.logbook import LogbookError
+                from planner.logbook.store import LogbookError
 
                 raise LogbookError(f"frame folder {args.folder!r} does not exist or is not a folder")
             if args.interval <= 0:
@@ -189,7 +189,7 @@ def run_ingest(args) -> int:
 
 
 def run_add(args) -> int:
-    from planner.logbook import LogbookError, NewEntry, night_of_jd
+    from planner.logbook.store import LogbookError, NewEntry, night_of_jd
 
     if not (args.exposure >= 0):
         raise LogbookError(f"--exposure must be ≥ 0 seconds (got {args.exposure:g})")
@@ -216,8 +216,8 @@ def _manual_airmass(site, target, time_jd, total_s):
     """Airmass at mid-sequence for a catalog cluster when the site is known; else nothing."""
     if site is None:
         return None, None, None
-    from planner.catalog import load_catalog
-    from planner.fits_ingest import airmass_at
+    from planner.inputs.catalog import load_catalog
+    from planner.logbook.ingest import airmass_at
 
     hit = load_catalog().lookup(target)
     if hit is None:
@@ -239,7 +239,7 @@ def run_weather(args) -> int:
 
 
 def run_observer(args) -> int:
-    from planner.logbook import night_of_jd
+    from planner.logbook.store import night_of_jd
 
     with open_logbook(args) as book:
         site = site_for(args, book, required=False)
@@ -261,7 +261,7 @@ def _selected_entries(args, book):
 
 
 def run_list(args) -> int:
-    from planner.nights import iso_utc
+    from planner.sky.nights import iso_utc
 
     with open_logbook(args) as book:
         site, entries = _selected_entries(args, book)
@@ -340,7 +340,11 @@ def write_export(rows: list[dict], path: Path, fmt: str) -> None:
 
 
 def run_print(args) -> int:
-    from planner.reports.nightlog import collect_night_log, night_log_text, write_night_log_pdf
+    from planner.reports.nightlog import (
+        collect_night_log,
+        night_log_text,
+        write_night_log_pdf,
+    )
 
     night = common.parse_night_date(args.night, "--night")
     pdf = common.check_output_path(args.pdf, (".pdf",), "--pdf") if args.pdf else None
@@ -375,9 +379,9 @@ def demo_frame_plan(site, night: dt.date) -> list[dict]:
     import numpy as np
 
     from planner.commands.demo import demo_targets
-    from planner.nights import jd_to_datetime
-    from planner.night_summary import run_of_nights
-    from planner.visibility import constraints_for_site
+    from planner.model.constraints import constraints_for_site
+    from planner.sky.night_summary import run_of_nights
+    from planner.sky.nights import jd_to_datetime
 
     targets = demo_targets()
     run = run_of_nights(site, targets, [night], constraints_for_site(site))
@@ -433,9 +437,9 @@ def write_demo_log(out_dir, site, night: dt.date) -> dict:
     """
     import numpy as np
 
-    from planner.catalog import load_catalog
-    from planner.fits_ingest import ingest_folder, write_invented_frame
-    from planner.logbook import Logbook
+    from planner.inputs.catalog import load_catalog
+    from planner.logbook.ingest import ingest_folder, write_invented_frame
+    from planner.logbook.store import Logbook
     from planner.reports.nightlog import collect_night_log, write_night_log_pdf
 
     out = Path(out_dir)
@@ -460,7 +464,7 @@ def write_demo_log(out_dir, site, night: dt.date) -> dict:
             book.add_note(first - 10 / 1440.0, "Invented demo night: frames, observers, weather and notes "
                           "are made up by gcplan (not an observation).")
             book.add_note(first + 30 / 1440.0, "Seeing about 1.1\" in V, steady wind from the north (invented).")
-        from planner.almanac import almanac_for_nights
+        from planner.sky.almanac import almanac_for_nights
 
         dark0, dark1 = almanac_for_nights(site, [night]).dark_window_jd(site.limits.twilight)
         if np.isfinite(dark0[0]):

@@ -9,7 +9,7 @@ import numpy as np
 
 from planner.cautions import PLAN_CAUTION as CAUTION
 from planner.commands import common
-from planner.nights import iso_utc, jd_to_datetime, local_hhmm, utc_hhmm
+from planner.sky.nights import iso_utc, jd_to_datetime, local_hhmm, utc_hhmm
 
 
 def register(sub) -> None:
@@ -41,7 +41,7 @@ def add_constraint_arguments(p: argparse.ArgumentParser) -> None:
 
 def constraints_from_args(site, args):
     from planner.errors import ConstraintError
-    from planner.visibility import constraints_for_site
+    from planner.model.constraints import constraints_for_site
 
     if args.max_airmass is not None and not (args.max_airmass >= 1.0):
         raise ConstraintError(f"--max-airmass must be ≥ 1 (got {args.max_airmass:g})")
@@ -59,7 +59,7 @@ def constraints_from_args(site, args):
 
 
 def run(args) -> int:
-    from planner.night_summary import run_of_nights
+    from planner.sky.night_summary import run_of_nights
 
     night = common.parse_night_date(args.date)
     site = common.site_from_args(args)
@@ -72,8 +72,8 @@ def run(args) -> int:
     else:
         print(night_text(run_))
     if plot_path is not None:
-        from planner.night_summary import night_curves
         from planner.reports.charts import save_night_chart
+        from planner.sky.night_summary import night_curves
 
         save_night_chart(run_, night_curves(run_), plot_path)
         if not args.json:

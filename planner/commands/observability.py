@@ -7,7 +7,12 @@ import textwrap
 import numpy as np
 
 from planner.commands import common
-from planner.commands.night import CAUTION, add_constraint_arguments, constraints_from_args, site_json
+from planner.commands.night import (
+    CAUTION,
+    add_constraint_arguments,
+    constraints_from_args,
+    site_json,
+)
 
 
 def register(sub) -> None:
@@ -28,7 +33,7 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
-    from planner.night_summary import run_of_nights, seasons
+    from planner.sky.night_summary import run_of_nights, seasons
 
     start = common.parse_night_date(args.start, "--start")
     end = common.parse_night_date(args.end, "--end")

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import textwrap
-
 from dataclasses import asdict
 
 import numpy as np
@@ -14,7 +13,7 @@ TIME_SYSTEM = "HJD (UTC scale), heliocentric, for the geocentre; epochs must be 
 
 
 def register(sub) -> None:
-    from planner.variables import DEFAULT_MAX_DRIFT_PER_DAY
+    from planner.variables.phases import DEFAULT_MAX_DRIFT_PER_DAY
 
     p = sub.add_parser(
         "phases",
@@ -37,7 +36,7 @@ def register(sub) -> None:
 
 
 def check_options(args) -> None:
-    from planner.variables_io import VariablesOptionError
+    from planner.inputs.variable_files import VariablesOptionError
 
     if not 1 <= args.bins <= 1000:
         raise VariablesOptionError(f"--bins must be between 1 and 1000 (got {args.bins})")
@@ -47,7 +46,7 @@ def check_options(args) -> None:
 
 def phase_report(variables, times, n_bins: int, max_drift_per_day: float):
     """Everything the command shows, as plain data (also used by the plot)."""
-    from planner.variables import (
+    from planner.variables.phases import (
         alias_warnings,
         cluster_coverage_summary,
         heliocentric_jd,
@@ -83,7 +82,7 @@ def phase_report(variables, times, n_bins: int, max_drift_per_day: float):
 
 
 def report_json(variables, report) -> dict:
-    from planner.nights import iso_utc
+    from planner.sky.nights import iso_utc
 
     cov = report["coverage"]
     stars = []
@@ -155,7 +154,7 @@ def report_text(variables, report) -> str:
 
 
 def run(args) -> int:
-    from planner.variables_io import read_times, read_variables
+    from planner.inputs.variable_files import read_times, read_variables
 
     check_options(args)
     plot_path = common.check_output_path(args.plot, (".png", ".pdf"), "--plot") if args.plot else None

@@ -68,7 +68,7 @@ def register(sub) -> None:
 
 
 def check_options(args) -> None:
-    from planner.variables_io import VariablesOptionError as E
+    from planner.inputs.variable_files import VariablesOptionError as E
 
     if args.schedule:
         if args.nights is not None or args.visits_per_night is not None:
@@ -106,8 +106,8 @@ def _first_night(args, site) -> dt.date:
 
 
 def _cluster_entry(name: str):
-    from planner.catalog import load_catalog
-    from planner.variables_io import VariablesOptionError
+    from planner.inputs.catalog import load_catalog
+    from planner.inputs.variable_files import VariablesOptionError
 
     catalog = load_catalog()
     entry = catalog.lookup(name)
@@ -120,7 +120,7 @@ def _cluster_entry(name: str):
 
 
 def _hb_mag(site, filter_name: str, entry) -> float:
-    from planner.photometry import science_level
+    from planner.light.photometry import science_level
 
     band = site.filters[filter_name].band if filter_name in site.filters else filter_name
     return float(science_level(entry, "hb", band).magnitude)
@@ -128,8 +128,12 @@ def _hb_mag(site, filter_name: str, entry) -> float:
 
 def population_from_file(path: str, n_stars: int | None, site, filter_name: str, default_mag: float | None):
     """(StarSample, per-star mean magnitude, variables) for the variables of a table."""
-    from planner.recovery import OOSTERHOFF_I, StarSample, bailey_amplitude_mag
-    from planner.variables_io import read_variables
+    from planner.inputs.variable_files import read_variables
+    from planner.variables.recovery import (
+        OOSTERHOFF_I,
+        StarSample,
+        bailey_amplitude_mag,
+    )
 
     variables = read_variables(path)[: n_stars or None]
     types = tuple(v.type if v.type in ("RRab", "RRc") else ("RRc" if v.type == "RRd" else "RRab") for v in variables)
@@ -163,11 +167,16 @@ def population_from_file(path: str, n_stars: int | None, site, filter_name: str,
 def run(args) -> int:
     from astropy.time import Time
 
-    from planner.almanac import dark_windows_jd
-    from planner.exposure import snr_of_exposure
-    from planner.recovery import POPULATIONS, simulate_recovery, synthetic_population, visit_times_in_windows
-    from planner.variables import heliocentric_jd
-    from planner.variables_io import VariablesOptionError
+    from planner.inputs.variable_files import VariablesOptionError
+    from planner.light.exposure import snr_of_exposure
+    from planner.sky.almanac import dark_windows_jd
+    from planner.variables.phases import heliocentric_jd
+    from planner.variables.recovery import (
+        POPULATIONS,
+        simulate_recovery,
+        synthetic_population,
+        visit_times_in_windows,
+    )
 
     check_options(args)
     site = common.site_from_args(args)
@@ -178,8 +187,8 @@ def run(args) -> int:
     twilight = args.twilight or site.limits.twilight
     rng = np.random.default_rng(args.seed)
     if args.schedule:
-        from planner.logbook import night_of_jd
-        from planner.scheduling.plan_io import variable_visit_times
+        from planner.inputs.plan_files import variable_visit_times
+        from planner.logbook.store import night_of_jd
 
         jd = variable_visit_times(args.schedule, args.cluster)
         if jd.size < 4:

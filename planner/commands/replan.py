@@ -29,7 +29,13 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
-    from planner.commands.schedule import campaign_from_args, check_seeing, night_index, night_sheet, schedule_json
+    from planner.commands.schedule import (
+        campaign_from_args,
+        check_seeing,
+        night_index,
+        night_sheet,
+        schedule_json,
+    )
     from planner.scheduling.replan import parse_closed, parse_now, replan_night
 
     night = common.parse_night_date(args.date)
@@ -68,8 +74,13 @@ def read_logbook_night(campaign, night, path: str | None = None):
     import datetime as dt
     from pathlib import Path
 
-    from planner.logbook import Logbook, LogbookError, closed_periods, default_logbook_path
-    from planner.nights import local_noon_jd
+    from planner.logbook.store import (
+        Logbook,
+        LogbookError,
+        closed_periods,
+        default_logbook_path,
+    )
+    from planner.sky.nights import local_noon_jd
 
     p = Path(path) if path else default_logbook_path(campaign.source)
     if not p.is_file():

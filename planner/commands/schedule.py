@@ -12,9 +12,14 @@ import numpy as np
 
 from planner.cautions import PLAN_CAUTION
 from planner.commands import common
-from planner.commands.night import add_constraint_arguments, constraints_from_args, constraints_json, site_json
+from planner.commands.night import (
+    add_constraint_arguments,
+    constraints_from_args,
+    constraints_json,
+    site_json,
+)
 from planner.errors import InputError
-from planner.nights import iso_utc, local_hhmm, utc_hhmm
+from planner.sky.nights import iso_utc, local_hhmm, utc_hhmm
 
 
 class ScheduleOptionError(InputError):
@@ -54,7 +59,7 @@ def check_seeing(value, option="--seeing"):
 
 
 def campaign_from_args(args):
-    from planner.scheduling.campaign_file import read_campaign_file
+    from planner.inputs.campaign_file import read_campaign_file
 
     return read_campaign_file(args.campaign)
 
@@ -130,7 +135,7 @@ def run(args) -> int:
 
 def record_plan(args, plan, night) -> None:
     """Store the plan's visits in the logbook: one planned visit per filter of each visit."""
-    from planner.logbook import Logbook, default_logbook_path
+    from planner.logbook.store import Logbook, default_logbook_path
 
     if not (args.logbook or args.campaign):
         raise ScheduleOptionError("--record needs --logbook FILE (or --campaign, whose folder holds the logbook)")

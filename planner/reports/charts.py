@@ -20,11 +20,11 @@ from zoneinfo import ZoneInfo
 
 import numpy as np
 
-from planner.airmass import altitude_for_airmass
-from planner.almanac import SUNRISE_ALTITUDE_DEG, TWILIGHT_ALTITUDE_DEG
 from planner.cautions import SHORT_CAUTION as CAUTION
 from planner.errors import OutputError
-from planner.nights import datetime_to_jd, jd_to_datetime, local_hhmm, utc_hhmm
+from planner.sky.airmass import altitude_for_airmass
+from planner.sky.almanac import SUNRISE_ALTITUDE_DEG, TWILIGHT_ALTITUDE_DEG
+from planner.sky.nights import datetime_to_jd, jd_to_datetime, local_hhmm, utc_hhmm
 
 #: A4 landscape, inches.
 A4_LANDSCAPE_IN = (11.69, 8.27)
@@ -379,7 +379,7 @@ def observability_order(run) -> np.ndarray:
 
     Targets never observable in the run go last, by RA.
     """
-    from planner.night_summary import seasons
+    from planner.sky.night_summary import seasons
 
     index = {night: k for k, night in enumerate(run.nights)}
     best = np.array([len(index) if s.best_night is None else index[s.best_night] for s in seasons(run)])

@@ -20,10 +20,10 @@ from pathlib import Path
 
 import numpy as np
 
-from planner.almanac import Almanac, almanac_for_nights
 from planner.cautions import PLAN_CAUTION, SHORT_CAUTION
 from planner.errors import OutputError
-from planner.nights import jd_to_datetime, local_hhmm, night_spans_jd, utc_hhmm
+from planner.sky.almanac import Almanac, almanac_for_nights
+from planner.sky.nights import jd_to_datetime, local_hhmm, night_spans_jd, utc_hhmm
 
 #: Paper sizes, portrait, inches (ISO 216 A4 210 × 297 mm; US letter 8.5 × 11 in).
 PAPER_IN = {"a4": (8.27, 11.69), "letter": (8.5, 11.0)}
@@ -317,8 +317,8 @@ def _footer(fig, log: NightLog, size_in, number: int, total: int) -> None:
 
 def observed_targets(log: NightLog):
     """One :class:`~planner.targets.Target` per observed name with a position (entry or catalog)."""
-    from planner.catalog import load_catalog
-    from planner.targets import Target
+    from planner.inputs.catalog import load_catalog
+    from planner.model.target import Target
 
     catalog = None
     out: dict[str, Target] = {}
@@ -340,9 +340,9 @@ def observed_chart(log: NightLog, size_in, page: int | None = None):
     """The night chart (charts.night_chart) of the observed targets, a dot at every entry."""
     from matplotlib.figure import Figure
 
-    from planner.night_summary import night_curves, run_of_nights
+    from planner.model.constraints import constraints_for_site
     from planner.reports.charts import jd_to_mdate, night_chart
-    from planner.visibility import constraints_for_site
+    from planner.sky.night_summary import night_curves, run_of_nights
 
     targets = observed_targets(log)
     fig = Figure(figsize=size_in)
@@ -380,6 +380,6 @@ def observed_chart(log: NightLog, size_in, page: int | None = None):
 
 def closed_intervals(log: NightLog) -> list[tuple[float, float]]:
     """(closed, reopened) JD pairs of the night; a closure never reopened runs to the span's end."""
-    from planner.logbook import closed_periods
+    from planner.logbook.store import closed_periods
 
     return closed_periods(log.weather, float(log.almanac.span_end_jd[0]))

@@ -10,7 +10,11 @@ from typing import Sequence
 
 import numpy as np
 
-from planner.variables import RRAB_MINIMUM_LIGHT, RRAB_RISING_BRANCH, RRC_MINIMUM_LIGHT
+from planner.variables.phases import (
+    RRAB_MINIMUM_LIGHT,
+    RRAB_RISING_BRANCH,
+    RRC_MINIMUM_LIGHT,
+)
 
 
 def phase_coverage_axes(

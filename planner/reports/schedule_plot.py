@@ -13,13 +13,18 @@ from pathlib import Path
 
 import numpy as np
 
-from planner.reports.charts import A4_LANDSCAPE_IN, TARGET_COLOURS, jd_to_mdate, night_chart
+from planner.reports.charts import (
+    A4_LANDSCAPE_IN,
+    TARGET_COLOURS,
+    jd_to_mdate,
+    night_chart,
+)
 
 
 def schedule_chart(site, plan, fig=None):
     """Draw ``plan`` (a :class:`~planner.scheduling.night.NightPlan`) on a figure and return it."""
-    from planner.night_summary import night_curves, run_of_nights
-    from planner.targets import Target
+    from planner.model.target import Target
+    from planner.sky.night_summary import night_curves, run_of_nights
 
     names = list(dict.fromkeys(v.target for v in plan.visits))
     pos = {v.target: (v.ra_deg, v.dec_deg) for v in plan.visits}

@@ -27,8 +27,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from planner.catalog import normalize_name
-from planner.scheduling.campaign_file import CampaignError
+from planner.errors import CampaignError
+from planner.model.campaign import Campaign
+from planner.model.names import normalize_name
 from planner.scheduling.frame import night_frame
 from planner.scheduling.night import NightPlan, plan_night
 from planner.scheduling.visits import Exposure, VisitRequest, body_s
@@ -40,46 +41,6 @@ NOISE_FLOOR_MAG = 0.01
 MAG_PER_INVERSE_SNR = 2.5 / np.log(10.0)
 #: Seed of the recovery forecast's simulation (the forecast must be reproducible).
 FORECAST_SEED = 1
-
-
-@dataclass(frozen=True)
-class DepthGoal:
-    level: str  # tip | hb | turnoff
-    filter: str
-    snr: float
-    targets: tuple[str, ...]
-    visits: int = 1
-    max_airmass: float | None = None
-    dark: bool = False
-    max_seeing_arcsec: float | None = None
-    weight: float = 1.0
-
-
-@dataclass(frozen=True)
-class CadenceGoal:
-    filter: str
-    snr: float | None
-    exposure_s: float | None
-    visits_per_night: int
-    phase_bins: int = 20
-    min_spacing_min: float = 30.0
-    weight: float = 1.0
-
-
-@dataclass(frozen=True)
-class Campaign:
-    name: str
-    source: str
-    site: object  # SiteProfile
-    targets: tuple
-    variables: tuple
-    nights: tuple[dt.date, ...]
-    constraints: object
-    goals: tuple[DepthGoal, ...]
-    cadence: CadenceGoal | None
-    seeing_arcsec: float | None = None
-    invented: bool = False
-    max_frame_s: float | None = None  # longest single frame of the depth goals (cosmic rays, guiding)
 
 
 @dataclass(frozen=True)
@@ -101,10 +62,10 @@ def goal_exposures(campaign: Campaign, seeing_arcsec: float | None = None) -> di
 
     Returns ``{(goal index, target name): (Exposure, ...)}`` with the cadence under
     ``("variables", cluster name)``.  A goal no site filter can reach raises
-    :class:`~planner.scheduling.campaign_file.CampaignError`.
+    :class:`~planner.errors.CampaignError`.
     """
-    from planner.exposure import exposure_for_level, exposure_for_snr
-    from planner.photometry import science_level
+    from planner.light.exposure import exposure_for_level, exposure_for_snr
+    from planner.light.photometry import science_level
 
     site = campaign.site
     seeing = seeing_arcsec or campaign.seeing_arcsec or site.sky.typical_seeing_arcsec
@@ -288,9 +249,19 @@ def forecast_variables(campaign: Campaign, plans, exposures) -> tuple[dict, dict
     """Phase coverage and period recovery of each cluster's variables at the planned visit times."""
     from astropy.time import Time
 
-    from planner.exposure import snr_of_exposure
-    from planner.recovery import OOSTERHOFF_I, StarSample, bailey_amplitude_mag, simulate_recovery
-    from planner.variables import cluster_coverage_summary, heliocentric_jd, phase_coverage, phases
+    from planner.light.exposure import snr_of_exposure
+    from planner.variables.phases import (
+        cluster_coverage_summary,
+        heliocentric_jd,
+        phase_coverage,
+        phases,
+    )
+    from planner.variables.recovery import (
+        OOSTERHOFF_I,
+        StarSample,
+        bailey_amplitude_mag,
+        simulate_recovery,
+    )
 
     c = campaign.cadence
     by_norm = {normalize_name(t.name): t for t in campaign.targets}

@@ -11,10 +11,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from planner.almanac import dark_windows_for_spans
-from planner.ephemeris import Ephemeris, moon_phase, site_geometry
+from planner.model.constraints import Constraints
 from planner.scheduling.visits import VisitRequest
-from planner.visibility import Constraints
+from planner.sky.almanac import dark_windows_for_spans
+from planner.sky.ephemeris import Ephemeris, moon_phase, site_geometry
 
 
 @dataclass(frozen=True)
@@ -40,8 +40,8 @@ def night_frame(site, nights, constraints: Constraints, ut1_table=None) -> Night
     """The Sun and Moon over ``nights`` once.  ``ut1_table`` (from
     :func:`planner.earth_rotation.load_ut1_table`) saves re-reading the IERS table
     when a process plans many times."""
-    from planner.ephemeris import build_ephemeris
-    from planner.nights import night_spans_jd
+    from planner.sky.ephemeris import build_ephemeris
+    from planner.sky.nights import night_spans_jd
 
     nights = list(nights)
     loc = site.location

@@ -43,13 +43,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from planner.airmass import altitude_for_airmass
-from planner.almanac import MOONRISE_ALTITUDE_DEG, TWILIGHT_ALTITUDE_DEG
-from planner.ephemeris import Ephemeris, moon_phase, site_geometry
-from planner.photometry import sky_brightness_mag_arcsec2
+from planner.light.photometry import sky_brightness_mag_arcsec2
+from planner.model.constraints import Constraints
 from planner.scheduling.visits import Visit, VisitRequest, body_s, setup_s, shutter_s
-from planner.visibility import (
-    Constraints,
+from planner.sky.airmass import altitude_for_airmass
+from planner.sky.almanac import MOONRISE_ALTITUDE_DEG, TWILIGHT_ALTITUDE_DEG
+from planner.sky.ephemeris import Ephemeris, moon_phase, site_geometry
+from planner.sky.visibility import (
     angular_separation_deg,
     apparent_places,
     constraint_margin_deg,

@@ -24,8 +24,8 @@ import re
 from dataclasses import dataclass, replace
 
 from planner.errors import DateError
-from planner.nights import datetime_to_jd, iso_utc
 from planner.scheduling.night import NightPlan, plan_night
+from planner.sky.nights import datetime_to_jd, iso_utc
 
 #: A logbook entry counts for a planned visit when it starts this close to the visit (days).
 LOG_MATCH_D = 10.0 / 1440.0
@@ -61,7 +61,7 @@ def parse_moment(text: str, night: dt.date, zone: str, option: str = "--now") ->
 
 def parse_now(text: str, night: dt.date, zone: str) -> float:
     jd = parse_moment(text, night, zone, "--now")
-    from planner.nights import local_noon_jd
+    from planner.sky.nights import local_noon_jd
 
     start, end = local_noon_jd(night, zone), local_noon_jd(night + dt.timedelta(days=1), zone)
     if not start <= jd <= end:
@@ -107,7 +107,7 @@ class ReplanResult:
 
 
 def _norm(name: str) -> str:
-    from planner.catalog import normalize_name
+    from planner.model.names import normalize_name
 
     return normalize_name(name)
 
@@ -180,8 +180,8 @@ def _new_exposures(q, exposures, campaign):
 
 
 def _ephemeris(campaign, night):
-    from planner.ephemeris import build_ephemeris
-    from planner.nights import night_spans_jd
+    from planner.sky.ephemeris import build_ephemeris
+    from planner.sky.nights import night_spans_jd
 
     s, e = night_spans_jd([night], campaign.site.location.timezone)
     return build_ephemeris(float(s[0]), float(e[0]))

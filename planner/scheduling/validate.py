@@ -1,6 +1,6 @@
 """An independent check of a night plan with astropy's full AltAz transform.
 
-The planner works from its own fast kernels (:mod:`planner.visibility`:
+The planner works from its own fast kernels (:mod:`planner.sky.visibility`:
 sidereal time, apparent places and spherical trigonometry, the Sun and Moon
 interpolated from an ephemeris cache).  This validator shares none of that
 path: every visit's target, the Sun and the Moon go through astropy's
@@ -24,8 +24,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from planner.airmass import airmass_kasten_young, altitude_for_airmass
-from planner.almanac import MOONRISE_ALTITUDE_DEG, TWILIGHT_ALTITUDE_DEG
+from planner.sky.airmass import airmass_kasten_young, altitude_for_airmass
+from planner.sky.almanac import MOONRISE_ALTITUDE_DEG, TWILIGHT_ALTITUDE_DEG
 
 #: Points checked per visit: start, end, and evenly between (the middle among them).
 POINTS_PER_VISIT = 7

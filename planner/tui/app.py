@@ -16,7 +16,7 @@ from textual.binding import Binding
 from textual.reactive import reactive
 
 from planner.errors import InputError
-from planner.nights import datetime_to_jd
+from planner.sky.nights import datetime_to_jd
 from planner.tui.clock import Clock, system_clock
 from planner.tui.night_data import NightData, campaign_night_data
 from planner.tui.screens.help import HelpScreen

@@ -9,7 +9,7 @@ from __future__ import annotations
 import datetime as dt
 from dataclasses import dataclass
 
-from planner.night_summary import RunOfNights, run_of_nights
+from planner.sky.night_summary import RunOfNights, run_of_nights
 
 
 # eq=False: compared by identity, so the app's reactive sees each new night as new

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from planner.nights import jd_to_datetime, local_hhmm, utc_hhmm
+from planner.sky.nights import jd_to_datetime, local_hhmm, utc_hhmm
 
 #: Widest line the screens draw (80 columns less the scrollbar and a margin).
 LINE_WIDTH = 78

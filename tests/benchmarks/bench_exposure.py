@@ -17,8 +17,8 @@ import time
 
 import numpy as np
 
-from planner.exposure import exposure_grid
-from planner.sites import resolve_site
+from planner.inputs.sites import resolve_site
+from planner.light.exposure import exposure_grid
 
 BASELINE_SAMPLE = 20_000
 

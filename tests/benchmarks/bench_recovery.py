@@ -25,8 +25,8 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-from planner.period_search import recover_periods  # noqa: E402
-from planner.recovery import (  # noqa: E402
+from planner.variables.period_search import recover_periods  # noqa: E402
+from planner.variables.recovery import (  # noqa: E402
     OOSTERHOFF_I,
     nterms_for_types,
     simulate_magnitudes,

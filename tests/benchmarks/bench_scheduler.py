@@ -34,14 +34,14 @@ def main(argv=None) -> int:
     warnings.filterwarnings("ignore")
     import numpy as np
 
-    from planner.catalog import load_catalog
-    from planner.night_summary import run_of_nights
+    from planner.inputs.catalog import load_catalog
+    from planner.inputs.sites import resolve_site
+    from planner.inputs.targets import resolve_targets
+    from planner.model.constraints import constraints_for_site
     from planner.scheduling.frame import night_frame, requests_for_targets
     from planner.scheduling.night import plan_night
     from planner.scheduling.visits import Exposure
-    from planner.sites import resolve_site
-    from planner.targets import resolve_targets
-    from planner.visibility import constraints_for_site
+    from planner.sky.night_summary import run_of_nights
 
     site = resolve_site("demo")
     night = dt.date.fromisoformat(args.date)
@@ -60,7 +60,11 @@ def main(argv=None) -> int:
     # --- astroplan -----------------------------------------------------------
     import astropy.units as u
     from astroplan import FixedTarget, Observer, ObservingBlock, Transitioner
-    from astroplan.constraints import AirmassConstraint, AtNightConstraint, MoonSeparationConstraint
+    from astroplan.constraints import (
+        AirmassConstraint,
+        AtNightConstraint,
+        MoonSeparationConstraint,
+    )
     from astroplan.scheduling import PriorityScheduler, Schedule
     from astropy.coordinates import EarthLocation, SkyCoord
     from astropy.time import Time
@@ -86,7 +90,7 @@ def main(argv=None) -> int:
     sky_theirs = sum(b.number_exposures * b.time_per_exposure.to_value(u.s) for b in theirs)
 
     # --- gcplan ----------------------------------------------------------------
-    from planner.earth_rotation import load_ut1_table
+    from planner.sky.earth_rotation import load_ut1_table
 
     def ours(ut1):
         t0 = time.perf_counter()
@@ -106,9 +110,9 @@ def main(argv=None) -> int:
     sky_ours = plan.shutter_s
 
     # --- the demo campaign ----------------------------------------------------
-    from planner.resources import targets_dir
+    from planner.inputs.campaign_file import read_campaign_file
+    from planner.inputs.resources import targets_dir
     from planner.scheduling.campaign import plan_campaign
-    from planner.scheduling.campaign_file import read_campaign_file
 
     t0 = time.perf_counter()
     campaign = read_campaign_file(targets_dir() / "demo" / "campaign.toml")

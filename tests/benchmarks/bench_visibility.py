@@ -49,7 +49,7 @@ def astroplan_hours(site, targets, night, constraints_ap):
     from astropy.coordinates import EarthLocation, SkyCoord
     from astropy.time import Time
 
-    from planner.nights import night_spans_jd
+    from planner.sky.nights import night_spans_jd
 
     loc = site.location
     observer = Observer(
@@ -67,11 +67,11 @@ def astroplan_hours(site, targets, night, constraints_ap):
 
 def stage_times(site, targets, nights, constraints):
     """Time the pieces run_of_nights is made of, once each (warm)."""
-    from planner.almanac import almanac_for_nights
-    from planner.ephemeris import build_ephemeris, site_geometry
-    from planner.nights import night_spans_jd
-    from planner.visibility import apparent_places
-    from planner.windows import visibility_for_nights
+    from planner.sky.almanac import almanac_for_nights
+    from planner.sky.ephemeris import build_ephemeris, site_geometry
+    from planner.sky.nights import night_spans_jd
+    from planner.sky.visibility import apparent_places
+    from planner.sky.windows import visibility_for_nights
 
     out = {}
     loc = site.location
@@ -110,13 +110,18 @@ def main(argv=None) -> int:
     # astroplan's MoonSeparationConstraint separates GCRS (Moon) from ICRS
     # (targets) and astropy warns about it on every call: once is enough here.
     warnings.filterwarnings("ignore", category=NonRotationTransformationWarning)
-    from astroplan import AirmassConstraint, AltitudeConstraint, AtNightConstraint, MoonSeparationConstraint
+    from astroplan import (
+        AirmassConstraint,
+        AltitudeConstraint,
+        AtNightConstraint,
+        MoonSeparationConstraint,
+    )
 
-    from planner.catalog import load_catalog
-    from planner.night_summary import run_of_nights
-    from planner.sites import resolve_site
-    from planner.targets import catalog_targets
-    from planner.visibility import Constraints, constraints_for_site
+    from planner.inputs.catalog import load_catalog
+    from planner.inputs.sites import resolve_site
+    from planner.inputs.targets import catalog_targets
+    from planner.model.constraints import Constraints, constraints_for_site
+    from planner.sky.night_summary import run_of_nights
 
     t_import = time.perf_counter() - t_import
     site = resolve_site("demo")

@@ -3,10 +3,10 @@
 Run from the repository root:  python tests/data/variables_make_demo.py
 
 Nothing here is a real star.  Periods, amplitudes and types are drawn from the
-Oosterhoff models of planner.recovery (seeded); positions are random offsets of
+Oosterhoff models of planner.variables.recovery (seeded); positions are random offsets of
 1–4 arcmin from the cluster centres of the bundled catalog; epochs are random times
 of maximum in 2025; mean V is the cluster's horizontal-branch level from
-planner.photometry plus a small scatter.  Two stars are placed near 1/2 d and 1/3 d
+planner.light.photometry plus a small scatter.  Two stars are placed near 1/2 d and 1/3 d
 on purpose so that the demo shows the one-day alias warning.
 """
 
@@ -20,9 +20,9 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT))
 
-from planner.catalog import load_catalog  # noqa: E402
-from planner.photometry import science_level  # noqa: E402
-from planner.recovery import OOSTERHOFF_I, synthetic_population  # noqa: E402
+from planner.inputs.catalog import load_catalog  # noqa: E402
+from planner.light.photometry import science_level  # noqa: E402
+from planner.variables.recovery import OOSTERHOFF_I, synthetic_population  # noqa: E402
 
 # (catalog name, short label for ids, Oosterhoff model, number of stars): the
 # clusters of the demo campaign (targets/demo/clusters.ecsv).  All five are
@@ -74,10 +74,10 @@ def main() -> None:
     table.meta["invented"] = True
     table.meta["comments"] = [
         "INVENTED DATA for the gcplan demo: none of these stars is real.",
-        "Periods, types and amplitudes drawn from planner.recovery's Oosterhoff models;",
+        "Periods, types and amplitudes drawn from planner.variables.recovery's Oosterhoff models;",
         "positions are random offsets of 1-4 arcmin from the catalog cluster centres;",
         "epochs (times of maximum light, HJD UTC) are random dates in 2025;",
-        "mean V is the cluster's horizontal-branch level (planner.photometry) plus scatter.",
+        "mean V is the cluster's horizontal-branch level (planner.light.photometry) plus scatter.",
         f"Made by tests/data/variables_make_demo.py with seed {SEED}.",
     ]
     units = {"period_d": "d", "epoch_hjd": "d", "ra_deg": "deg", "dec_deg": "deg",

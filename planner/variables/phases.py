@@ -34,9 +34,9 @@ if TYPE_CHECKING:  # pragma: no cover - typing only
 
 # RRab rising branch, phase 0.85–1.0: the issue's definition, matching the rise time of
 # 0.1–0.2 of a period typical of RRab light curves (from memory; the adopted RRab
-# template in planner.recovery rises from minimum to maximum in 0.20 P).
+# template in planner.variables.recovery rises from minimum to maximum in 0.20 P).
 RRAB_RISING_BRANCH = (0.85, 1.0)
-# Minimum light: the phases where the adopted Fourier templates of planner.recovery
+# Minimum light: the phases where the adopted Fourier templates of planner.variables.recovery
 # (RRAB_SHAPE, RRC_SHAPE) lie within 10 % of the full amplitude of their faintest
 # point; tests/test_variables.py recomputes this from the templates.
 RRAB_MINIMUM_LIGHT = (0.74, 0.84)
@@ -46,24 +46,6 @@ RRC_MINIMUM_LIGHT = (0.51, 0.71)
 # With |δ| < 0.05 it takes more than 20 nights (longer than most runs) for the visits to
 # sweep once through the cycle, so the light curve keeps the same gaps.
 DEFAULT_MAX_DRIFT_PER_DAY = 0.05
-
-VARIABLE_TYPES = ("RRab", "RRc", "RRd")
-
-
-@dataclass(frozen=True)
-class Variable:
-    """One variable star with its ephemeris (epoch of maximum light, HJD UTC)."""
-
-    id: str
-    period_d: float
-    epoch_hjd: float
-    ra_deg: float
-    dec_deg: float
-    type: str | None = None  # one of VARIABLE_TYPES, or None when not known
-    cluster: str | None = None
-    amplitude_mag: float | None = None  # peak-to-peak, V
-    mean_mag: float | None = None  # V
-
 
 @dataclass(frozen=True, eq=False)
 class PhaseCoverage:

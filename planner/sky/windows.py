@@ -21,9 +21,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from planner.airmass import airmass_kasten_young
-from planner.almanac import MOONRISE_ALTITUDE_DEG, TWILIGHT_ALTITUDE_DEG, Almanac
-from planner.ephemeris import (
+from planner.model.constraints import Constraints
+from planner.sky.airmass import airmass_kasten_young
+from planner.sky.almanac import MOONRISE_ALTITUDE_DEG, TWILIGHT_ALTITUDE_DEG, Almanac
+from planner.sky.ephemeris import (
     Ephemeris,
     SiteGeometry,
     local_sidereal_deg,
@@ -31,16 +32,15 @@ from planner.ephemeris import (
     sun_radec_deg,
     transit_jd,
 )
-from planner.sidereal import (
+from planner.sky.sidereal import (
     SIDEREAL_DEG_PER_DAY,
     altitude_deg,
     culmination_altitudes_deg,
     hour_angle_at_altitude_deg,
     wrap_180,
 )
-from planner.visibility import (
+from planner.sky.visibility import (
     ApparentPlaces,
-    Constraints,
     constraint_margin_deg,
     sky_at,
     time_track,

@@ -25,7 +25,7 @@ from pathlib import Path
 from typing import Any
 
 from planner.errors import InputError
-from planner.variables import VARIABLE_TYPES, Variable
+from planner.model.variable import VARIABLE_TYPES, Variable
 
 REQUIRED = ("id", "period_d", "epoch_hjd")
 OPTIONAL = ("ra_deg", "dec_deg", "cluster", "type", "amplitude_mag", "mean_mag")
@@ -188,7 +188,7 @@ def read_variables(path: str | Path, catalog=None) -> tuple[Variable, ...]:
 
     def get_catalog():  # the bundled catalog, loaded at most once and only if needed
         if loaded[0] is None:
-            from planner.catalog import load_catalog
+            from planner.inputs.catalog import load_catalog
 
             loaded[0] = load_catalog()
         return loaded[0]

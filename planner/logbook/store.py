@@ -157,7 +157,7 @@ _MIGRATIONS = ((1, _V1), (2, _V2))
 
 def night_of_jd(jd: float, zone: str) -> dt.date:
     """The night (local evening date) a moment belongs to: local noon to the next local noon."""
-    from planner.nights import jd_to_datetime
+    from planner.sky.nights import jd_to_datetime
 
     return (jd_to_datetime(jd, zone) - dt.timedelta(hours=12)).date()
 
@@ -312,7 +312,7 @@ class Logbook:
         return new_id
 
     def _fulfil_visit(self, entry_id: int, entry: NewEntry, night: str) -> None:
-        from planner.catalog import normalize_name
+        from planner.model.names import normalize_name
 
         rows = self._db.execute(
             "SELECT id, target, filter FROM planned_visits WHERE night = ? AND done_entry_id IS NULL "

@@ -1,4 +1,4 @@
-"""Reading a campaign file (TOML): the shell side of :mod:`planner.scheduling.campaign`.
+"""Reading a campaign file (TOML) into a :class:`~planner.model.campaign.Campaign`.
 
 Schema (unknown keys are errors; paths are relative to the campaign file)::
 
@@ -31,8 +31,8 @@ from __future__ import annotations
 import datetime as dt
 from pathlib import Path
 
-from planner.errors import InputError
-from planner.tomlcheck import Schema, Table, read_toml, show
+from planner.errors import CampaignError, InputError
+from planner.inputs.tomlcheck import Schema, Table, read_toml, show
 
 _KEYS = {
     "": ("name", "invented", "site", "targets", "variables", "first_night", "last_night", "nights",
@@ -44,10 +44,6 @@ _KEYS = {
                 "priority"),
 }
 MAX_NIGHTS = 366
-
-
-class CampaignError(InputError):
-    """A campaign file that is missing, unreadable or invalid."""
 
 
 _SCHEMA = Schema(_KEYS, CampaignError)
@@ -86,12 +82,12 @@ def _path(top: Table, key: str, base: Path, required: bool, special: tuple[str, 
 
 def read_campaign_file(path: str | Path):
     """The :class:`~planner.scheduling.campaign.Campaign` in the file at ``path``."""
-    from planner.catalog import load_catalog
-    from planner.scheduling.campaign import Campaign, CadenceGoal, DepthGoal
-    from planner.sites import resolve_site
-    from planner.targets import resolve_targets
-    from planner.variables_io import read_variables
-    from planner.visibility import constraints_for_site
+    from planner.inputs.catalog import load_catalog
+    from planner.inputs.sites import resolve_site
+    from planner.inputs.targets import resolve_targets
+    from planner.inputs.variable_files import read_variables
+    from planner.model.campaign import CadenceGoal, Campaign, DepthGoal
+    from planner.model.constraints import constraints_for_site
 
     source = str(path)
     raw = read_toml(path, source, CampaignError, "campaign")
@@ -124,7 +120,7 @@ def read_campaign_file(path: str | Path):
         last = first + dt.timedelta(days=int(n) - 1)
     if last < first:
         top.fail(f"last_night {last} is before first_night {first}")
-    from planner.nights import night_out_of_range
+    from planner.sky.nights import night_out_of_range
 
     for key, night in (("first_night", first), ("last_night", last)):
         if night_out_of_range(night):

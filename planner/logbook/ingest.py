@@ -31,8 +31,8 @@ from typing import Callable, Mapping
 
 import numpy as np
 
-from planner.logbook import Logbook, NewEntry, night_of_jd
-from planner.nights import datetime_to_jd
+from planner.logbook.store import Logbook, NewEntry, night_of_jd
+from planner.sky.nights import datetime_to_jd
 
 #: File names taken as frames (case ignored).
 FRAME_SUFFIXES = (".fits", ".fit", ".fts", ".fits.gz", ".fit.gz", ".fits.fz")
@@ -213,8 +213,8 @@ def airmass_at(site, ra_deg, dec_deg, jd_utc) -> np.ndarray:
     local sidereal time from one :class:`~planner.ephemeris.Ephemeris` over
     the span, then spherical trigonometry — one vectorised pass for all frames.
     """
-    from planner.ephemeris import build_ephemeris, site_geometry
-    from planner.visibility import apparent_places, sky_at, time_track
+    from planner.sky.ephemeris import build_ephemeris, site_geometry
+    from planner.sky.visibility import apparent_places, sky_at, time_track
 
     ra = np.atleast_1d(np.asarray(ra_deg, dtype=float))
     dec = np.atleast_1d(np.asarray(dec_deg, dtype=float))
@@ -255,7 +255,7 @@ def ingest_folder(logbook: Logbook, folder: str | Path, site, catalog=None) -> I
     """
     root = Path(folder)
     if not root.is_dir():
-        from planner.logbook import LogbookError
+        from planner.logbook.store import LogbookError
 
         raise LogbookError(f"frame folder {str(folder)!r} does not exist or is not a folder")
     known = logbook.known_files()

@@ -32,7 +32,8 @@ from typing import Mapping
 
 import numpy as np
 
-from planner.ephemeris import (
+from planner.model.site import TWILIGHTS, SiteProfile
+from planner.sky.ephemeris import (
     Ephemeris,
     SiteGeometry,
     build_ephemeris,
@@ -42,9 +43,8 @@ from planner.ephemeris import (
     site_geometry,
     sun_radec_deg,
 )
-from planner.nights import night_spans_jd
-from planner.sidereal import altitude_deg
-from planner.sites import TWILIGHTS, SiteProfile
+from planner.sky.nights import night_spans_jd
+from planner.sky.sidereal import altitude_deg
 
 #: Sun's centre at sunset/sunrise, degrees (upper limb + 34′ refraction).
 SUNRISE_ALTITUDE_DEG = -0.833

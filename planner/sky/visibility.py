@@ -9,10 +9,10 @@ The pipeline for one site:
    epochs 15 days apart is good to 0.1″.
 2. :func:`sky_grid` — altitude, azimuth, hour angle, airmass and Moon
    separation for every target at every time, by spherical trigonometry of
-   the local sidereal time (:mod:`planner.sidereal`); the Sun and Moon come
+   the local sidereal time (:mod:`planner.sky.sidereal`); the Sun and Moon come
    from one :class:`~planner.ephemeris.Ephemeris`.
 3. :func:`constraint_margin_deg` — how far inside all constraints each
-   target-time is; :mod:`planner.windows` turns margins and closed forms into
+   target-time is; :mod:`planner.sky.windows` turns margins and closed forms into
    observable hours and windows per night.
 """
 
@@ -22,9 +22,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from planner.airmass import airmass_kasten_young, altitude_for_airmass
-from planner.almanac import MOONRISE_ALTITUDE_DEG
-from planner.ephemeris import (
+from planner.model.constraints import Constraints
+from planner.sky.airmass import airmass_kasten_young
+from planner.sky.almanac import MOONRISE_ALTITUDE_DEG
+from planner.sky.ephemeris import (
     Ephemeris,
     SiteGeometry,
     hour_angle_deg,
@@ -32,68 +33,10 @@ from planner.ephemeris import (
     moon_radec_deg,
     sun_radec_deg,
 )
-from planner.sidereal import altaz_deg, altitude_deg
-from planner.sites import TWILIGHTS, SiteProfile
+from planner.sky.sidereal import altaz_deg, altitude_deg
 
 #: Apparent places are computed at epochs this far apart (days) and interpolated.
 APPARENT_PLACE_STEP_D = 15.0
-
-
-@dataclass(frozen=True)
-class Constraints:
-    """What makes a target observable.  The altitude limit is the stricter of the two given."""
-
-    min_altitude_deg: float
-    max_airmass: float | None
-    twilight: str
-    min_moon_separation_deg: float
-    horizon_az_deg: tuple[float, ...] = ()
-    horizon_alt_deg: tuple[float, ...] = ()
-    sun_avoidance_deg: float = 0.0  # never point closer than this to the Sun
-
-    def describe(self) -> str:
-        """The limits in one phrase, as every text and figure of gcplan states them."""
-        parts = [f"altitude ≥ {self.altitude_limit_deg:.1f}°"]
-        if self.max_airmass is not None and np.isfinite(self.max_airmass):
-            parts[0] += f" (airmass ≤ {self.max_airmass:.2f})"
-        if self.min_moon_separation_deg > 0:
-            parts.append(f"Moon ≥ {self.min_moon_separation_deg:.0f}° away")
-        if self.sun_avoidance_deg > 0:
-            parts.append(f"Sun ≥ {self.sun_avoidance_deg:.0f}° away")
-        if self.horizon_az_deg:
-            parts.append("horizon mask")
-        return ", ".join(parts)
-
-    @property
-    def altitude_limit_deg(self) -> float:
-        if self.max_airmass is None:
-            return float(self.min_altitude_deg)
-        return float(max(self.min_altitude_deg, altitude_for_airmass(self.max_airmass)))
-
-
-def constraints_for_site(
-    site: SiteProfile,
-    *,
-    twilight: str | None = None,
-    max_airmass: float | None = None,
-    min_altitude_deg: float | None = None,
-    min_moon_separation_deg: float | None = None,
-) -> Constraints:
-    """The site's limits, with any of them overridden (from the command line)."""
-    lim = site.limits
-    if twilight is not None and twilight not in TWILIGHTS:
-        raise ValueError(f"twilight must be one of {', '.join(TWILIGHTS)}")
-    return Constraints(
-        min_altitude_deg=lim.min_altitude_deg if min_altitude_deg is None else float(min_altitude_deg),
-        max_airmass=lim.max_airmass if max_airmass is None else float(max_airmass),
-        twilight=lim.twilight if twilight is None else twilight,
-        min_moon_separation_deg=(
-            lim.min_moon_separation_deg if min_moon_separation_deg is None else float(min_moon_separation_deg)
-        ),
-        horizon_az_deg=tuple(lim.horizon_az_deg),
-        horizon_alt_deg=tuple(lim.horizon_alt_deg),
-        sun_avoidance_deg=lim.sun_avoidance_deg,
-    )
 
 
 @dataclass(frozen=True)

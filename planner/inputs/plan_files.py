@@ -9,9 +9,9 @@ from pathlib import Path
 
 import numpy as np
 
-from planner.catalog import normalize_name
 from planner.errors import InputError
-from planner.nights import datetime_to_jd
+from planner.model.names import normalize_name
+from planner.sky.nights import datetime_to_jd
 
 
 class PlanFileError(InputError):

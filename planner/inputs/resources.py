@@ -8,7 +8,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
-_PACKAGE_DIR = Path(__file__).resolve().parent
+# This file is planner/inputs/resources.py: the package is two levels up.
+_PACKAGE_DIR = Path(__file__).resolve().parent.parent
 
 
 def data_dir(name: str) -> Path:

@@ -22,7 +22,7 @@ and giving two of them is an error):
 Any other column is an error, with the closest known name suggested: a typo such
 as ``dec_dge`` must not silently drop the declination.  An empty cell is a
 missing value.  If ``name`` is a cluster of the bundled catalog (spacing, case
-and aliases such as "M 13" or "47 Tuc" understood, see :mod:`planner.catalog`),
+and aliases such as "M 13" or "47 Tuc" understood, see :mod:`planner.inputs.catalog`),
 every missing value, even ra and dec, comes from the catalog and
 ``catalog_name`` is set; values in the file win.  Two rows for the same target
 are an error.
@@ -41,28 +41,13 @@ import io
 import math
 import tomllib
 import warnings
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Iterable, Mapping, Sequence
 
-from planner.catalog import Catalog, ClusterEntry, normalize_name
 from planner.errors import TargetListError
-
-
-@dataclass(frozen=True)
-class Target:
-    name: str
-    ra_deg: float  # ICRS
-    dec_deg: float
-    distance_modulus_mag: float | None = None  # true, (m-M)_0
-    distance_kpc: float | None = None
-    ebv_mag: float | None = None  # E(B-V)
-    feh_dex: float | None = None  # [Fe/H]
-    half_light_radius_arcmin: float | None = None
-    v_mag: float | None = None  # integrated V
-    priority: float = 1.0  # > 0, larger is more important
-    catalog_name: str | None = None  # primary name in the bundled catalog, if it is there
-
+from planner.inputs.catalog import Catalog, ClusterEntry
+from planner.model.names import normalize_name
+from planner.model.target import Target
 
 SUFFIXES = (".ecsv", ".csv", ".toml")
 

@@ -49,106 +49,37 @@ from __future__ import annotations
 
 import math
 import re
-from dataclasses import dataclass, field, replace
+from dataclasses import replace
 from pathlib import Path
 from types import MappingProxyType
 from typing import Any, Mapping
 
 from planner.errors import SiteProfileError
-from planner.photometry import BANDS as _BAND_TABLE
-from planner.resources import site_profiles_dir
-from planner.tomlcheck import Schema, Table, bound, error, read_toml, show, suggest, toml_key
+from planner.inputs.resources import site_profiles_dir
+from planner.inputs.tomlcheck import (
+    Schema,
+    Table,
+    bound,
+    error,
+    read_toml,
+    show,
+    suggest,
+    toml_key,
+)
+from planner.model.bands import BANDS as _BAND_TABLE
+from planner.model.site import (
+    TWILIGHTS,
+    Camera,
+    Filter,
+    Limits,
+    Location,
+    SiteProfile,
+    Sky,
+    Telescope,
+)
 
-TWILIGHTS = ("civil", "nautical", "astronomical")
 #: Standard bands a site filter can stand for: those the photometry knows.
 BANDS = tuple(_BAND_TABLE)
-
-
-@dataclass(frozen=True)
-class Location:
-    name: str
-    latitude_deg: float
-    longitude_deg: float  # east-positive
-    elevation_m: float
-    timezone: str  # IANA name, e.g. "America/Santiago"
-
-
-@dataclass(frozen=True)
-class Limits:
-    min_altitude_deg: float
-    max_airmass: float
-    sun_avoidance_deg: float
-    min_moon_separation_deg: float
-    twilight: str  # which twilight bounds the usable night: one of TWILIGHTS
-    # Optional horizon mask: altitude (deg) of the local horizon at azimuths
-    # (deg, from north through east), linearly interpolated and wrapped at 360.
-    horizon_az_deg: tuple[float, ...] = ()
-    horizon_alt_deg: tuple[float, ...] = ()
-
-
-@dataclass(frozen=True)
-class Telescope:
-    name: str
-    aperture_m: float
-    obstruction_diameter_m: float
-    slew_rate_deg_s: float
-    settle_s: float
-    acquisition_s: float
-    filter_change_s: float
-
-    @property
-    def collecting_area_m2(self) -> float:
-        return math.pi / 4.0 * (self.aperture_m**2 - self.obstruction_diameter_m**2)
-
-
-@dataclass(frozen=True)
-class Camera:
-    name: str
-    pixel_scale_arcsec: float
-    read_noise_e: float
-    gain_e_per_adu: float
-    dark_e_per_s: float  # per pixel
-    full_well_e: float
-    linearity_limit_e: float  # ≤ full_well_e
-    readout_s: float
-    min_exposure_s: float
-    detector_pixels: tuple[int, int]
-    # FITS header keywords for cameras that do not use the standard names
-    # (standard name -> this camera's name), e.g. {"FILTER": "FILTNAME"}.
-    fits_keywords: Mapping[str, str] = field(default_factory=lambda: MappingProxyType({}))
-
-
-@dataclass(frozen=True)
-class Filter:
-    name: str  # the name used at this site, e.g. "V" or "Ic"
-    band: str  # the standard band it stands for: U B V R I J H Ks (photometry tables)
-    throughput: float | None = None  # total: optics × filter × QE, excluding the atmosphere
-    bandwidth_angstrom: float | None = None  # None: the standard band's width
-    zero_point_mag: float | None = None  # magnitude giving 1 e-/s above the atmosphere
-
-
-@dataclass(frozen=True)
-class Sky:
-    typical_seeing_arcsec: float
-    dark_mag_arcsec2: Mapping[str, float]  # per filter name, zenith, moonless
-    extinction_mag_per_airmass: Mapping[str, float]  # per filter name
-
-
-@dataclass(frozen=True)
-class SiteProfile:
-    location: Location
-    limits: Limits
-    telescope: Telescope
-    camera: Camera
-    filters: Mapping[str, Filter]
-    sky: Sky
-    source: str = "<memory>"  # the file (or option) it was read from, for messages
-    notes: str = ""
-
-    @property
-    def name(self) -> str:
-        return self.location.name
-
 
 # --- Parsing and validation ------------------------------------------------
 

@@ -21,7 +21,7 @@ from typing import Mapping, Sequence
 
 import numpy as np
 
-from planner.period_search import PeriodSearch, recover_periods
+from planner.variables.period_search import PeriodSearch, recover_periods
 
 RECOVERY_TOLERANCE = 1e-3  # |ΔP|/P below which a period counts as recovered (issue 4)
 TWO_PI = 2.0 * np.pi

@@ -10,7 +10,7 @@ resolution would take minutes.  Instead we sample, once per site and span:
 
 every :data:`SAMPLE_STEP_D` days, and interpolate them with four-point
 Lagrange polynomials.  Local sidereal time then comes from Meeus eq. 12.4 in
-numpy (:mod:`planner.sidereal`), and the Moon is made topocentric with the
+numpy (:mod:`planner.sky.sidereal`), and the Moon is made topocentric with the
 observer's geocentric vector (its parallax reaches 1°).  Tests hold every
 quantity here to astropy's full AltAz transform and to skyfield/DE421.
 
@@ -24,8 +24,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from planner.earth_rotation import UT1Table, load_ut1_table, ut1_minus_utc_s
-from planner.sidereal import SIDEREAL_DEG_PER_DAY, gmst_deg, wrap_180
+from planner.sky.earth_rotation import UT1Table, load_ut1_table, ut1_minus_utc_s
+from planner.sky.sidereal import SIDEREAL_DEG_PER_DAY, gmst_deg, wrap_180
 
 #: Spacing of the astropy samples, days.  The Moon's largest periodic terms
 #: (the equation of the centre, 6.3° over 27.55 d; the variation, 0.66° over
@@ -136,7 +136,7 @@ def iers_warning(eph: Ephemeris, jd_end: float) -> str | None:
     """One sentence for users when a span runs past the bundled IERS table, else None."""
     if jd_end <= eph.iers_end_jd:
         return None
-    from planner.nights import jd_to_datetime
+    from planner.sky.nights import jd_to_datetime
 
     end = jd_to_datetime(eph.iers_end_jd)
     return (

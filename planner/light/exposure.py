@@ -24,7 +24,7 @@ The model
 * Frame times are rounded up to 0.01 s below 1 s, 0.1 s below 10 s, 1 s below 100 s,
   5 s below 1000 s and 10 s above (rounded down instead when that would pass the
   saturation limit).  ``round_frames=False`` gives the exact values.
-* Sky and photon rates: :mod:`planner.photometry` (twilight is not modelled).
+* Sky and photon rates: :mod:`planner.light.photometry` (twilight is not modelled).
 """
 
 from __future__ import annotations
@@ -36,7 +36,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from planner.errors import InputError
-from planner.photometry import (
+from planner.light.photometry import (
     LEVEL_NAMES,
     LevelError,
     ScienceLevel,

@@ -12,14 +12,20 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from planner.almanac import Almanac, almanac_for_nights
 from planner.cautions import CIVIL_TWILIGHT_CAUTION
-from planner.ephemeris import Ephemeris, build_ephemeris, iers_warning, site_geometry
-from planner.nights import night_spans_jd
-from planner.sites import SiteProfile
-from planner.targets import Target
-from planner.visibility import Constraints, SkyGrid, apparent_places, sky_grid
-from planner.windows import NightVisibility, visibility_for_nights
+from planner.model.constraints import Constraints
+from planner.model.site import SiteProfile
+from planner.model.target import Target
+from planner.sky.almanac import Almanac, almanac_for_nights
+from planner.sky.ephemeris import (
+    Ephemeris,
+    build_ephemeris,
+    iers_warning,
+    site_geometry,
+)
+from planner.sky.nights import night_spans_jd
+from planner.sky.visibility import SkyGrid, apparent_places, sky_grid
+from planner.sky.windows import NightVisibility, visibility_for_nights
 
 #: Step of the altitude curves drawn in the night's figure, days (2 minutes).
 CURVE_STEP_D = 2.0 / 1440.0

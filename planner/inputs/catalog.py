@@ -15,15 +15,14 @@ from __future__ import annotations
 
 import difflib
 import math
-import re
-import unicodedata
 from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
 from typing import Any, Mapping
 
 from planner.errors import CatalogError
-from planner.resources import catalog_path
+from planner.inputs.resources import catalog_path
+from planner.model.names import normalize_name
 
 #: Columns the catalog file must have (units in the names, as in the dataclass).
 REQUIRED_COLUMNS = (
@@ -101,41 +100,6 @@ class Catalog:
                 spellings.setdefault(normalize_name(spelling), spelling)
         close = difflib.get_close_matches(normalize_name(name), list(spellings), n=n, cutoff=0.6)
         return [spellings[key] for key in close]
-
-
-# Long forms read as the short forms Harris uses.  Genitives only for the two
-# clusters whose common names carry one ("47 Tuc", "omega Cen").
-_LONG_FORMS = (
-    (re.compile(r"^messier(?=\d)"), "m"),
-    (re.compile(r"centauri$"), "cen"),
-    (re.compile(r"tucanae$"), "tuc"),
-)
-_SEPARATORS = re.compile(r"[\s\-_.]+")
-_LEADING_ZEROS = re.compile(r"(?<!\d)0+(?=\d)")
-
-
-def normalize_name(name: str) -> str:
-    """A key for comparing cluster names.
-
-    Case, whitespace, hyphens, underscores and dots are ignored, as are leading
-    zeros of numbers; "Messier N" reads as "M N", "ω"/"Ω" as "omega", and the
-    genitives "Centauri"/"Tucanae" as "Cen"/"Tuc".
-
-    Examples
-    --------
-    >>> normalize_name("Messier 13") == normalize_name("m13")
-    True
-    >>> normalize_name("NGC0104") == normalize_name("NGC 104")
-    True
-    >>> normalize_name("ω Centauri") == normalize_name("omega Cen")
-    True
-    """
-    text = unicodedata.normalize("NFKC", str(name)).casefold().replace("ω", "omega")
-    text = _SEPARATORS.sub("", text)
-    text = _LEADING_ZEROS.sub("", text)
-    for pattern, short in _LONG_FORMS:
-        text = pattern.sub(short, text)
-    return text
 
 
 def _float_column(table: Any, column: str, source: str) -> list[float | None]:

@@ -1,0 +1,53 @@
+"""A campaign as the scheduler sees it: site, targets, variables, nights, goals.
+
+Built by :mod:`planner.inputs.campaign_file` from a campaign TOML file (whose
+docstring holds the schema).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass
+
+from planner.model.constraints import Constraints
+from planner.model.site import SiteProfile
+
+
+@dataclass(frozen=True)
+class DepthGoal:
+    level: str  # tip | hb | turnoff
+    filter: str
+    snr: float
+    targets: tuple[str, ...]
+    visits: int = 1
+    max_airmass: float | None = None
+    dark: bool = False
+    max_seeing_arcsec: float | None = None
+    weight: float = 1.0
+
+
+@dataclass(frozen=True)
+class CadenceGoal:
+    filter: str
+    snr: float | None
+    exposure_s: float | None
+    visits_per_night: int
+    phase_bins: int = 20
+    min_spacing_min: float = 30.0
+    weight: float = 1.0
+
+
+@dataclass(frozen=True)
+class Campaign:
+    name: str
+    source: str
+    site: SiteProfile
+    targets: tuple
+    variables: tuple
+    nights: tuple[dt.date, ...]
+    constraints: Constraints
+    goals: tuple[DepthGoal, ...]
+    cadence: CadenceGoal | None
+    seeing_arcsec: float | None = None
+    invented: bool = False
+    max_frame_s: float | None = None  # longest single frame of the depth goals (cosmic rays, guiding)

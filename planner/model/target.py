@@ -1,0 +1,23 @@
+"""A target: one cluster with the published facts the plans need.
+
+Built by :mod:`planner.inputs.targets` from a target list or the bundled catalog.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+
+@dataclass(frozen=True)
+class Target:
+    name: str
+    ra_deg: float  # ICRS
+    dec_deg: float
+    distance_modulus_mag: float | None = None  # true, (m-M)_0
+    distance_kpc: float | None = None
+    ebv_mag: float | None = None  # E(B-V)
+    feh_dex: float | None = None  # [Fe/H]
+    half_light_radius_arcmin: float | None = None
+    v_mag: float | None = None  # integrated V
+    priority: float = 1.0  # > 0, larger is more important
+    catalog_name: str | None = None  # primary name in the bundled catalog, if it is there
