@@ -20,8 +20,8 @@ import time
 import pytest
 
 from planner.cli import main
-from planner.logbook.ingest import write_invented_frame
 from planner.logbook.store import Logbook
+from planner.reports.demo_night import write_invented_frame
 
 NIGHT = "2027-05-12"
 CARDS = {"DATE-OBS": "2027-05-13T03:10:00", "EXPTIME": 60.0, "OBJECT": "NGC 2808", "FILTER": "V"}
@@ -232,8 +232,8 @@ def test_default_logbook_is_in_the_user_data_folder(tmp_path, monkeypatch, capsy
 def test_demo_log_is_invented_frames_of_the_demo_clusters(tmp_path):
     from astropy.io import fits
 
-    from planner.commands.log import write_demo_log
     from planner.inputs.sites import resolve_site
+    from planner.reports.demo_night import write_demo_log
 
     result = write_demo_log(tmp_path, resolve_site("demo"), dt.date(2027, 5, 12))
     assert result["added"] > 20 and result["skipped"] == 0

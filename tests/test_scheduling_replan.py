@@ -11,8 +11,9 @@ from planner.cli import main
 from planner.inputs.campaign_file import read_campaign_file
 from planner.inputs.resources import targets_dir
 from planner.scheduling.campaign import plan_through_night
-from planner.scheduling.replan import parse_closed, parse_now, replan_night
-from planner.scheduling.validate import validate_plan
+from planner.commands.replan import parse_closed, parse_now
+from planner.scheduling.replan import replan_night
+from helpers.validate import validate_plan
 from planner.sky.nights import iso_utc
 
 DEMO = targets_dir() / "demo" / "campaign.toml"

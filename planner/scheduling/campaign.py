@@ -161,15 +161,27 @@ def check_fits_the_night(campaign: Campaign, exposures: dict, frame) -> None:
                                 campaign.source)
 
 
+def night_index(campaign: Campaign, night: dt.date) -> int:
+    """Where ``night`` falls among the campaign's nights; a :class:`CampaignError` if it is not one."""
+    if night not in campaign.nights:
+        raise CampaignError(f"{night} is not a night of the campaign ({campaign.nights[0]} to "
+                            f"{campaign.nights[-1]})", campaign.source)
+    return campaign.nights.index(night)
+
+
+def plan_campaign_night(campaign: Campaign, night: dt.date, seeing_arcsec: float | None = None):
+    """The plan of one campaign night, the campaign planned up to it (earlier nights'
+    progress counts), and the requests it was planned from."""
+    plan, requests, _covered = plan_through_night(campaign, night, seeing_arcsec)
+    return plan, requests
+
+
 def plan_through_night(campaign: Campaign, night: dt.date, seeing_arcsec: float | None = None):
     """The campaign planned from its first night up to ``night`` (earlier nights' progress
     counts).  Returns that night's plan, its requests, and the phase bins covered before it."""
     from dataclasses import replace
 
-    if night not in campaign.nights:
-        raise CampaignError(f"{night} is not a night of the campaign ({campaign.nights[0]} to "
-                            f"{campaign.nights[-1]})", campaign.source)
-    k = campaign.nights.index(night)
+    k = night_index(campaign, night)
     state: dict = {}
     plan = plan_campaign(replace(campaign, nights=campaign.nights[: k + 1]), seeing_arcsec=seeing_arcsec,
                          forecast=False, _state=state)

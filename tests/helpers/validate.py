@@ -16,8 +16,8 @@ start, the middle, the end and a few points between.  It then checks:
 * that no two visits overlap;
 * that the airmass and Moon separation the plan reports agree with astropy.
 
-It returns the problems as text (empty: the plan passes).  Used by the tests;
-the shell may run it too (``gcplan schedule`` does not, to stay fast).
+It returns the problems as text (empty: the plan passes).  Test code only: it
+lives beside the tests, outside the package.
 """
 
 from __future__ import annotations
