@@ -63,7 +63,10 @@ def _level_from_args(args, band):
     from planner.inputs.targets import targets_from_names
 
     target = targets_from_names([args.target], load_catalog())[0]
-    return science_level(target, args.level, band), target
+    try:
+        return science_level(target, args.level, band), target
+    except LevelError as exc:
+        raise LevelError(f"{exc} (give it with --mag)") from None
 
 
 def plan_from_args(args, site):

@@ -36,9 +36,6 @@ from planner.scheduling.visits import Exposure, VisitRequest, body_s
 
 #: Airmass at which goal exposures are computed: the middle of a typical visit (from memory).
 EXPOSURE_AIRMASS = 1.2
-#: Crowding and flat-field floor added in quadrature to the photon noise (as ``gcplan recover``).
-NOISE_FLOOR_MAG = 0.01
-MAG_PER_INVERSE_SNR = 2.5 / np.log(10.0)
 #: Seed of the recovery forecast's simulation (the forecast must be reproducible).
 FORECAST_SEED = 1
 
@@ -269,16 +266,20 @@ def forecast_variables(campaign: Campaign, plans, exposures) -> tuple[dict, dict
         phases,
     )
     from planner.variables.recovery import (
+        NOISE_FLOOR_MAG,
         OOSTERHOFF_I,
+        RECOVERY_TOLERANCE,
         StarSample,
         bailey_amplitude_mag,
         simulate_recovery,
+        visit_noise_mag,
     )
 
     c = campaign.cadence
     by_norm = {normalize_name(t.name): t for t in campaign.targets}
     rng = np.random.default_rng(FORECAST_SEED)
-    coverage, recovery = {"phase_bins": c.phase_bins, "clusters": []}, {"clusters": [], "tolerance": 1e-3}
+    coverage = {"phase_bins": c.phase_bins, "clusters": []}
+    recovery = {"clusters": [], "tolerance": RECOVERY_TOLERANCE}
     total_rec, total_n = 0.0, 0
     for name in dict.fromkeys(_cluster_of(v, by_norm).name for v in campaign.variables
                               if _cluster_of(v, by_norm) is not None):
@@ -316,8 +317,7 @@ def forecast_variables(campaign: Campaign, plans, exposures) -> tuple[dict, dict
         mean = np.array([s.mean_mag if s.mean_mag is not None else 16.0 for s in stars])
         exp = exposures[("variables", name)][0]
         snr = np.asarray(snr_of_exposure(campaign.site, exp.filter, mean, exp.exposure_s), dtype=float)
-        snr = snr * np.sqrt(exp.frames)
-        sigma = np.hypot(MAG_PER_INVERSE_SNR / np.maximum(snr, 1e-6), NOISE_FLOOR_MAG)
+        sigma = visit_noise_mag(snr * np.sqrt(exp.frames))
         sample = StarSample(tuple(ids), period, amp, sim_types, np.array([s.epoch_hjd for s in stars]))
         result, _ = simulate_recovery(hjd, sample, mean, sigma, rng)
         recovery["clusters"].append({**entry, "recovered_fraction": round(result.recovered_fraction, 4),

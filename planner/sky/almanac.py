@@ -15,7 +15,7 @@ come from one :class:`~planner.sky.ephemeris.Ephemeris`, evaluated on a
 10-minute grid over each night; crossings are bracketed on the grid and
 refined by regula falsi (Illinois variant) to well under a second.  ``gcplan
 night`` uses it too, so that one night and a semester never disagree.
-``gcplan night --cross-check`` recomputes a night with astroplan's
+The night command's cross-check recomputes a night with astroplan's
 ``Observer`` (:mod:`planner.reports.cross_check`), which the tests also hold
 this path to, within a minute.
 """
