@@ -47,12 +47,4 @@ def run_app(args) -> int:
 
 def parse_now(text: str):
     """``--now``: an ISO 8601 time, UTC unless it carries an offset."""
-    import datetime as dt
-
-    from planner.errors import DateError
-
-    try:
-        moment = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
-    except ValueError:
-        raise DateError(f"--now must be a time YYYY-MM-DDTHH:MM (UTC), e.g. 2027-01-06T04:30 (got {text!r})") from None
-    return moment if moment.tzinfo else moment.replace(tzinfo=dt.timezone.utc)
+    return common.parse_utc_time(text, "--now", "a time YYYY-MM-DDTHH:MM (UTC), e.g. 2027-01-06T04:30")

@@ -141,6 +141,16 @@ def parse_night_date(text: str, option: str = "--date") -> dt.date:
     return night
 
 
+def parse_utc_time(text: str, option: str, expected: str) -> dt.datetime:
+    """An ISO 8601 time (``Z`` or an offset allowed; UTC without one), aware.
+    ``expected`` says, in the error, what the option takes."""
+    try:
+        moment = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
+    except (ValueError, AttributeError):
+        raise DateError(f"{option} must be {expected} (got {text!r})") from None
+    return moment if moment.tzinfo else moment.replace(tzinfo=dt.timezone.utc)
+
+
 def date_range(start: dt.date, end: dt.date, start_option="--start", end_option="--end") -> list[dt.date]:
     if end < start:
         raise DateError(f"{end_option} {end} is before {start_option} {start}")

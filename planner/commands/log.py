@@ -118,11 +118,7 @@ def parse_time(text: str | None, option: str = "--time") -> float:
 
     if text is None:
         return datetime_to_jd(dt.datetime.now(dt.timezone.utc))
-    try:
-        moment = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
-    except ValueError:
-        raise DateError(f"{option} must be an ISO 8601 time such as 2027-05-13T02:15:00Z (got {text!r})") from None
-    return datetime_to_jd(moment)
+    return datetime_to_jd(common.parse_utc_time(text, option, "an ISO 8601 time such as 2027-05-13T02:15:00Z"))
 
 
 def night_bounds(site, night: dt.date) -> tuple[float, float]:

@@ -32,6 +32,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from planner.reports.night_report import rounded
 from planner.sky.almanac import SUNRISE_ALTITUDE_DEG, TWILIGHT_ALTITUDE_DEG, Almanac
 from planner.sky.nights import iso_utc, jd_to_datetime
 
@@ -169,10 +170,6 @@ def cross_check(site, alm: Almanac, i: int = 0) -> CrossCheck:
     )
 
 
-def _round(x: float | None, nd: int) -> float | None:
-    return None if x is None else round(x, nd)
-
-
 def cross_check_json(check: CrossCheck) -> dict:
     """The ``cross_check`` object of ``gcplan night --json --cross-check``.
 
@@ -183,11 +180,11 @@ def cross_check_json(check: CrossCheck) -> dict:
     """
     return {
         "events": {key: {"gcplan": iso_utc(check.gcplan[key]), "astroplan": iso_utc(check.astroplan[key]),
-                         "difference_s": _round(check.difference_s(key), 1)} for key, _ in EVENTS},
+                         "difference_s": rounded(check.difference_s(key), 1)} for key, _ in EVENTS},
         "moon_illumination": {"at": iso_utc(check.middle_jd), "gcplan": round(check.gcplan_illumination, 5),
                               "astroplan": round(check.astroplan_illumination, 5),
                               "difference": round(check.gcplan_illumination - check.astroplan_illumination, 5)},
-        "max_abs_difference_s": _round(check.max_abs_difference_s, 1),
+        "max_abs_difference_s": rounded(check.max_abs_difference_s, 1),
         "found_by_one_only": check.found_by_one_only,
         "reference": check.reference,
     }

@@ -68,12 +68,12 @@ def night_json(run_, i: int = 0) -> dict:
                 "ra_deg": t.ra_deg,
                 "dec_deg": t.dec_deg,
                 "transit": iso_utc(vis.transit_jd[k, i]),
-                "max_altitude_deg": _round(vis.max_altitude_deg[k, i], 2),
-                "min_airmass": _round(vis.min_airmass[k, i], 3),
-                "observable_hours": _round(vis.observable_hours[k, i], 3),
+                "max_altitude_deg": rounded(vis.max_altitude_deg[k, i], 2),
+                "min_airmass": rounded(vis.min_airmass[k, i], 3),
+                "observable_hours": rounded(vis.observable_hours[k, i], 3),
                 "window": {"start": iso_utc(vis.window_start_jd[k, i]), "end": iso_utc(vis.window_end_jd[k, i])},
-                "moon_separation_deg": _round(vis.moon_separation_deg[k, i], 1),
-                "min_moon_separation_deg": _round(vis.min_moon_separation_deg[k, i], 1),
+                "moon_separation_deg": rounded(vis.moon_separation_deg[k, i], 1),
+                "min_moon_separation_deg": rounded(vis.min_moon_separation_deg[k, i], 1),
             }
         )
     return {
@@ -86,7 +86,10 @@ def night_json(run_, i: int = 0) -> dict:
     }
 
 
-def _round(x, nd):
+def rounded(x, nd: int) -> float | None:
+    """``x`` rounded to ``nd`` decimals for JSON; None (null) for NaN or no value."""
+    if x is None:
+        return None
     x = float(x)
     return None if not np.isfinite(x) else round(x, nd)
 

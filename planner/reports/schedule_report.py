@@ -8,16 +8,11 @@ import textwrap
 import numpy as np
 
 from planner.cautions import PLAN_CAUTION
-from planner.reports.night_report import constraints_json, site_json, utc_offset_label
+from planner.reports.night_report import constraints_json, rounded, site_json, utc_offset_label
 from planner.sky.nights import iso_utc, local_hhmm, utc_hhmm
 
 
 # ----------------------------------------------------------------- JSON
-
-
-def _r(x, nd):
-    x = float(x)
-    return round(x, nd) if np.isfinite(x) else None
 
 
 def visit_json(v) -> dict:
@@ -31,10 +26,10 @@ def visit_json(v) -> dict:
         "end": iso_utc(v.end_jd),
         "purpose": v.purpose,
         "exposures": [{"filter": e.filter, "frames": e.frames, "exposure_s": e.exposure_s} for e in v.exposures],
-        "airmass_start": _r(v.airmass_start, 3),
-        "airmass_end": _r(v.airmass_end, 3),
-        "moon_separation_deg": _r(v.moon_separation_deg, 1),
-        "slew_deg": _r(v.slew_deg, 2),
+        "airmass_start": rounded(v.airmass_start, 3),
+        "airmass_end": rounded(v.airmass_end, 3),
+        "moon_separation_deg": rounded(v.moon_separation_deg, 1),
+        "slew_deg": rounded(v.slew_deg, 2),
         "duration_s": round(v.duration_s, 1),
         "shutter_s": round(v.shutter_s, 2),
         "priority": v.priority,

@@ -16,8 +16,8 @@ requests made for that night:
 
 The forecast then puts every planned variable visit through
 :func:`planner.variables.phase_coverage` and :func:`planner.recovery.simulate_recovery`
-(light curves simulated at the planned times, noise from the exposure core).
-Pure computation apart from :func:`write_demo_schedule`, the demo's writer.
+(light curves simulated at the planned times, noise from the exposure core through
+:func:`planner.variables.recovery.visit_noise_mag`, as ``gcplan recover``).
 """
 
 from __future__ import annotations
