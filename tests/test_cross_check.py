@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import datetime as dt
 import json
+import socket
 
 import pytest
 
@@ -19,6 +20,16 @@ from planner.cli import main
 from planner.reports.cross_check import EVENTS
 
 EVENT_KEYS = [key for key, _ in EVENTS]
+
+
+@pytest.fixture(autouse=True)
+def _no_network(monkeypatch):
+    """astroplan must not download anything (IERS tables included): any connection fails the test."""
+    def refuse(*args, **kwargs):
+        raise AssertionError(f"network access attempted: {args!r}")
+
+    monkeypatch.setattr(socket.socket, "connect", refuse)
+    monkeypatch.setattr(socket, "create_connection", refuse)
 
 
 def night_json(capsys, *argv):

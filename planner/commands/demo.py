@@ -16,7 +16,6 @@ from zoneinfo import ZoneInfo
 
 from planner.commands import common
 from planner.errors import OutputError
-from planner.reports.demo_night import demo_targets
 
 DEMO_SITE = "demo"
 SEMESTER_NIGHTS = 183
@@ -41,6 +40,7 @@ def current_night(local_now: dt.datetime) -> dt.date:
 
 def run(args) -> int:
     from planner.inputs.sites import resolve_site
+    from planner.reports.demo_night import demo_targets
 
     site = resolve_site(DEMO_SITE)
     if args.date:

@@ -9,20 +9,19 @@ from pathlib import Path
 import numpy as np
 
 from planner.commands import common
-from planner.inputs.variable_files import VariablesOptionError
-from planner.variables.recovery import NOISE_FLOOR_MAG, RECOVERY_TOLERANCE
 
 # A cluster horizontal branch at about 12 kpc with little reddening: M_V ≈ 0.6
 # (Cacciari & Clementini 2003) + (m − M) ≈ 15.4.  Used when neither --mean-mag nor
 # --cluster (nor the variables file) says how bright the stars are.
 DEFAULT_MEAN_V_MAG = 16.0
 DEFAULT_EXPOSURE_S = 120.0
-# The error per visit added in quadrature to the exposure core's photon noise
-# (crowding, flat field): the core's floor, which the campaign forecast uses too.
-DEFAULT_NOISE_FLOOR_MAG = NOISE_FLOOR_MAG
 
 
 def register(sub) -> None:
+    # The error per visit added in quadrature to the exposure core's photon noise
+    # (crowding, flat field) defaults to the core's floor, which the campaign forecast uses too.
+    from planner.variables.recovery import NOISE_FLOOR_MAG, RECOVERY_TOLERANCE
+
     p = sub.add_parser(
         "recover",
         help="simulate a campaign's RR Lyrae light curves and see which periods it recovers",
@@ -57,9 +56,9 @@ def register(sub) -> None:
                    help=f"mean magnitude of the stars (default: the cluster's HB, else {DEFAULT_MEAN_V_MAG:g})")
     p.add_argument("--noise-mag", type=float, metavar="SIGMA",
                    help="photometric error per visit, mag (default: from the exposure calculation)")
-    p.add_argument("--noise-floor", type=float, default=DEFAULT_NOISE_FLOOR_MAG, metavar="SIGMA",
+    p.add_argument("--noise-floor", type=float, default=NOISE_FLOOR_MAG, metavar="SIGMA",
                    help="error per visit added in quadrature to the exposure calculation's, mag "
-                   f"(crowding, flat field; default {DEFAULT_NOISE_FLOOR_MAG:g})")
+                   f"(crowding, flat field; default {NOISE_FLOOR_MAG:g})")
     p.add_argument("--jitter-min", type=float, default=10.0, metavar="MIN",
                    help="random shift of each visit from its slot centre, minutes (default 10)")
     p.add_argument("--seed", type=int, default=1, help="random seed (default 1)")
@@ -68,6 +67,8 @@ def register(sub) -> None:
 
 
 def check_options(args) -> None:
+    from planner.inputs.variable_files import VariablesOptionError
+
     if args.schedule:
         if args.nights is not None or args.visits_per_night is not None:
             raise VariablesOptionError("--schedule gives the visit times; leave out --nights and --visits-per-night")
@@ -88,6 +89,8 @@ def check_options(args) -> None:
 
 
 def _check_counts(nights: int, visits_per_night: int) -> None:
+    from planner.inputs.variable_files import VariablesOptionError
+
     if not 1 <= nights <= 3700:
         raise VariablesOptionError(f"--nights must be between 1 and 3700 (got {nights})")
     if not 1 <= visits_per_night <= 500:
@@ -105,6 +108,7 @@ def _first_night(date_text: str | None, site) -> dt.date:
 
 def _cluster_entry(name: str):
     from planner.inputs.catalog import load_catalog
+    from planner.inputs.variable_files import VariablesOptionError
 
     catalog = load_catalog()
     entry = catalog.lookup(name)
@@ -174,6 +178,7 @@ class VisitTimes:
 def times_from_plan(path: str, cluster: str | None, site) -> VisitTimes:
     """The variable-star visits of a plan file (of ``cluster``, if given)."""
     from planner.inputs.plan_files import variable_visit_times
+    from planner.inputs.variable_files import VariablesOptionError
     from planner.logbook.store import night_of_jd
 
     jd = variable_visit_times(path, cluster)
@@ -257,6 +262,7 @@ def visit_noise(site, filter_name: str, mean_mag: np.ndarray, exposure_s: float,
 
 
 def run(args) -> int:
+    from planner.inputs.variable_files import VariablesOptionError
     from planner.variables.recovery import POPULATIONS, simulate_recovery
 
     check_options(args)
@@ -305,6 +311,8 @@ def recovery_result(summary, search, visits: VisitTimes, population: Population,
                     site: str, twilight: str, filter_name: str, exposure_s: float, seed: int,
                     schedule: str | None) -> dict:
     """Everything ``gcplan recover`` reports, as its JSON."""
+    from planner.variables.recovery import RECOVERY_TOLERANCE
+
     jd = visits.jd
     return {
         "recovered_fraction": round(summary.recovered_fraction, 4),
