@@ -41,10 +41,11 @@ from zoneinfo import ZoneInfo
 
 import numpy as np
 import pytest
-from helpers.astroplan_reference import night_almanac_astroplan
 
 from planner.inputs.sites import resolve_site
 from planner.sky.almanac import almanac_for_nights
+
+from helpers.astroplan_reference import night_almanac_astroplan
 
 UNIX_EPOCH_JD = 2440587.5
 EPOCH = dt.datetime(1970, 1, 1, tzinfo=dt.timezone.utc)

@@ -19,6 +19,7 @@ from planner.errors import InputError
 from planner.inputs.campaign_file import read_campaign_file
 from planner.inputs.resources import targets_dir
 from planner.scheduling.campaign import plan_campaign
+
 from helpers.validate import validate_plan
 
 DEMO = targets_dir() / "demo" / "campaign.toml"

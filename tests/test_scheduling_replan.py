@@ -8,13 +8,14 @@ import datetime as dt
 import pytest
 
 from planner.cli import main
+from planner.commands.replan import parse_closed, parse_now
 from planner.inputs.campaign_file import read_campaign_file
 from planner.inputs.resources import targets_dir
 from planner.scheduling.campaign import plan_through_night
-from planner.commands.replan import parse_closed, parse_now
 from planner.scheduling.replan import replan_night
-from helpers.validate import validate_plan
 from planner.sky.nights import iso_utc
+
+from helpers.validate import validate_plan
 
 DEMO = targets_dir() / "demo" / "campaign.toml"
 NIGHT = dt.date(2027, 1, 8)
