@@ -208,6 +208,8 @@ def cross_check_text(check: CrossCheck) -> str:
     worst = check.max_abs_difference_s
     lines.append(f"  largest difference {worst:.1f} s" if worst is not None else "  no event to compare")
     labels = dict(EVENTS)
+    if any(check.difference_s(key) is None for key, _ in EVENTS):
+        lines.append("  —: the event does not happen this night (between local noon and noon)")
     if check.found_by_one_only:
         lines.append("  found by one only: " + ", ".join(labels[k] for k in check.found_by_one_only))
     lines.extend(textwrap.wrap(f"reference: {check.reference}", 78, initial_indent="  ", subsequent_indent="    "))
