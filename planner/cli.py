@@ -44,8 +44,11 @@ def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(
         prog="gcplan",
         description=(
-            "Plan photometric campaigns on Galactic globular clusters: the night's "
-            "almanac, what is up and for how long, over a night and a semester."
+            "Plan photometric campaigns on Galactic globular clusters (RGB tip, RR Lyrae): "
+            "the night's almanac and each cluster's window, hours over a semester, exposure "
+            "times to an S/N, RR Lyrae phase coverage and period recovery, timed night plans "
+            "and whole campaigns re-planned after weather, an observing log filled from FITS "
+            "headers, a demo on invented data and a terminal app."
         ),
         epilog=(
             "Times are UTC internally; text output shows the site's local time and UTC. "

@@ -23,7 +23,8 @@ Outside references
     (geometric), like the module's; its Sun includes the 8.8″ parallax the
     module neglects (< 0.1 minute of a sunset).
 
-* astroplan's ``Observer`` through :func:`planner.almanac.night_almanac_astroplan`
+* astroplan's ``Observer`` through ``tests/helpers/astroplan_reference.py`` (built on
+  :mod:`planner.reports.cross_check`, the code of ``gcplan night --cross-check``)
   (the design names astroplan for the Moon and twilight).
 
 Every event is held to 1 minute (the issue's bound); measured agreement is
@@ -42,7 +43,9 @@ import numpy as np
 import pytest
 
 from planner.inputs.sites import resolve_site
-from planner.sky.almanac import almanac_for_nights, night_almanac_astroplan
+from planner.sky.almanac import almanac_for_nights
+
+from helpers.astroplan_reference import night_almanac_astroplan
 
 UNIX_EPOCH_JD = 2440587.5
 EPOCH = dt.datetime(1970, 1, 1, tzinfo=dt.timezone.utc)

@@ -142,3 +142,24 @@ def test_demo_writes_its_folder(tmp_path, capsys):
     night = json.loads((out_dir / "night.json").read_text())
     assert night["night"] == "2027-01-05" and len(night["targets"]) == 5
     assert not any("5904" in t["name"] for t in night["targets"])
+    # The exposure table: units in the columns (ECSV unit fields), whole frames.
+    from astropy.table import Table
+
+    table = Table.read(out_dir / "exposures.ecsv", format="ascii.ecsv")
+    assert str(table["frame_time"].unit) == "s" and str(table["exposure_time"].unit) == "s"
+    assert str(table["saturation_time"].unit) == "s" and str(table["magnitude"].unit) == "mag"
+    assert table["frames"].dtype.kind == "i" and min(table["frames"]) >= 1
+    assert "unit: s" in (out_dir / "exposures.ecsv").read_text()
+    done = ~table["frames"].mask if hasattr(table["frames"], "mask") else slice(None)
+    assert all(abs(e - n * t) < 1e-6 * e for e, n, t in zip(table["exposure_time"][done], table["frames"][done],
+                                                            table["frame_time"][done]))
+
+
+def test_top_level_help_names_every_kind_of_work(capsys):
+    with pytest.raises(SystemExit):
+        main(["--help"])
+    out = capsys.readouterr().out
+    description = " ".join(out.split("positional arguments")[0].lower().split())
+    for words in ("almanac", "semester", "exposure", "phase coverage", "period recovery", "night plans",
+                  "campaigns", "observing log", "demo", "terminal app"):
+        assert words in description, words

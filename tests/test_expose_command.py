@@ -123,3 +123,23 @@ def test_unknown_level_rejected_by_argparse(capsys):
         gcplan(["expose", "--site", "demo", "--filter", "V", "--target", "NGC 6397", "--level", "bump",
                 "--snr", "10"], capsys)
     assert stop.value.code == 2
+
+
+def test_core_says_what_is_missing_and_the_command_names_its_option(capsys):
+    # The core's message states what is missing, with no option name (the app shows it
+    # too); the command adds its own option when it passes the error on.
+    from types import SimpleNamespace
+
+    from planner.light.photometry import LevelError, science_level
+
+    target = SimpleNamespace(name="Invented 3", distance_modulus_mag=None, ebv_mag=0.1, feh_dex=-1.2)
+    for level, band in (("hb", "V"), ("tip", "U")):
+        if band == "U":
+            target = SimpleNamespace(name="Invented 3", distance_modulus_mag=14.0, ebv_mag=0.1, feh_dex=-1.2)
+        with pytest.raises(LevelError) as err:
+            science_level(target, level, band)
+        assert "magnitude" in str(err.value) and "--" not in str(err.value)
+    status, out, err = gcplan(["expose", "--site", "demo", "--filter", "U", "--target", "47 Tuc", "--level", "tip",
+                               "--snr", "10"], capsys)
+    assert status == 2 and out == "" and err.count("\n") == 1
+    assert "U - V" in err and "--mag" in err

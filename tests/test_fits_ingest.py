@@ -20,9 +20,9 @@ from planner.logbook.ingest import (
     parse_angle_deg,
     read_frame_header,
     watch_folder,
-    write_invented_frame,
 )
 from planner.logbook.store import Logbook
+from planner.reports.demo_night import write_invented_frame
 from planner.sky.nights import datetime_to_jd
 
 CARDS = {"DATE-OBS": "2027-05-13T03:10:00.5", "EXPTIME": 120.0, "OBJECT": "NGC 362", "FILTER": "V",

@@ -20,8 +20,8 @@ import time
 import pytest
 
 from planner.cli import main
-from planner.logbook.ingest import write_invented_frame
 from planner.logbook.store import Logbook
+from planner.reports.demo_night import write_invented_frame
 
 NIGHT = "2027-05-12"
 CARDS = {"DATE-OBS": "2027-05-13T03:10:00", "EXPTIME": 60.0, "OBJECT": "NGC 2808", "FILTER": "V"}
@@ -232,8 +232,8 @@ def test_default_logbook_is_in_the_user_data_folder(tmp_path, monkeypatch, capsy
 def test_demo_log_is_invented_frames_of_the_demo_clusters(tmp_path):
     from astropy.io import fits
 
-    from planner.commands.log import write_demo_log
     from planner.inputs.sites import resolve_site
+    from planner.reports.demo_night import write_demo_log
 
     result = write_demo_log(tmp_path, resolve_site("demo"), dt.date(2027, 5, 12))
     assert result["added"] > 20 and result["skipped"] == 0
@@ -277,3 +277,30 @@ def test_recorded_plan_is_marked_done_by_ingested_frames(tmp_path, capsys):
     with Logbook(camp_dir / "logbook.sqlite") as lb:
         done = [v for v in lb.planned_visits("2027-01-06") if v.done_entry_id is not None]
     assert len(done) == 1 and done[0].target == first.target and done[0].filter == first.filter
+
+
+def test_print_json_holds_the_night_almanac_entries_and_weather(tmp_path, book, capsys):
+    from planner.inputs.sites import resolve_site
+    from planner.sky.almanac import almanac_for_nights
+    from planner.sky.nights import iso_utc
+
+    _frames(tmp_path / "frames")
+    run(capsys, "log", "ingest", str(tmp_path / "frames"), "--logbook", book, "--site", "demo")
+    run(capsys, "log", "weather", "closed", "--logbook", book, "--time", "2027-05-13T04:00Z", "--note", "fog")
+    run(capsys, "log", "note", "dew on the secondary", "--logbook", book, "--time", "2027-05-13T04:05Z")
+    code, out, err = run(capsys, "log", "print", "--logbook", book, "--night", NIGHT, "--json")
+    assert code == 0 and err == ""
+    data = json.loads(out)
+    assert data["night"] == NIGHT and data["site"]["timezone"] == "America/Santiago"
+    alm = almanac_for_nights(resolve_site("demo"), [dt.date(2027, 5, 12)])
+    assert data["almanac"]["sun"]["set"] == iso_utc(alm.sunset_jd[0])
+    assert data["almanac"]["twilight"]["astronomical"]["morning"] == iso_utc(alm.morning_jd["astronomical"][0])
+    assert [e["time"] for e in data["entries"]] == [f"2027-05-13T03:1{i}:00Z" for i in range(3)]
+    assert {e["target"] for e in data["entries"]} == {"NGC 2808"}
+    assert data["weather"] == [{"id": data["weather"][0]["id"], "time": "2027-05-13T04:00:00Z", "state": "closed",
+                                "note": "fog"}]
+    assert [n["text"] for n in data["notes"]] == ["dew on the secondary"]
+    # the PDF and the JSON together: the file is written, stdout stays JSON
+    pdf = tmp_path / "log.pdf"
+    code, out, _ = run(capsys, "log", "print", "--logbook", book, "--night", NIGHT, "--json", "--pdf", str(pdf))
+    assert code == 0 and json.loads(out)["night"] == NIGHT and pdf.read_bytes().startswith(b"%PDF")

@@ -18,7 +18,7 @@ import time
 
 import pytest
 
-from planner.logbook.ingest import watch_folder, write_invented_frame
+from planner.logbook.ingest import watch_folder
 from planner.logbook.store import (
     _MIGRATIONS,
     SCHEMA_VERSION,
@@ -27,6 +27,7 @@ from planner.logbook.store import (
     NewEntry,
     night_of_jd,
 )
+from planner.reports.demo_night import write_invented_frame
 
 JD0 = 2461538.5  # 2027-05-13 00:00 UTC
 

@@ -243,3 +243,17 @@ def test_benchmark_script_runs_small(capsys):
     module.main(["--stars", "8", "--nights", "4", "--visits", "5"])
     lines = capsys.readouterr().out.strip().splitlines()
     assert lines[-1].startswith("ratio baseline/ours:")
+
+
+def test_visit_noise_is_photon_noise_and_floor_in_quadrature():
+    from planner.variables.recovery import MAG_PER_INVERSE_SNR, NOISE_FLOOR_MAG, visit_noise_mag
+
+    # σ = 2.5 / ln 10 / (S/N) ⊕ floor: S/N 100 gives 0.01086 mag of photon noise
+    assert MAG_PER_INVERSE_SNR == pytest.approx(1.0857, abs=1e-4)
+    sigma = visit_noise_mag([100.0, 1e6], 0.01)
+    assert sigma[0] == pytest.approx(np.hypot(0.0108574, 0.01), rel=1e-4)
+    assert sigma[1] == pytest.approx(0.01, rel=1e-6)  # bright: the floor alone
+    assert visit_noise_mag(50.0) == pytest.approx(np.hypot(MAG_PER_INVERSE_SNR / 50.0, NOISE_FLOOR_MAG))
+    # no signal: a huge but finite error, so a search still runs (and finds nothing)
+    faint = visit_noise_mag([0.0, -1.0])
+    assert np.all(np.isfinite(faint)) and np.all(faint > 1e5)

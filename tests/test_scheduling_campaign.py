@@ -1,7 +1,7 @@
 """The demo campaign over its 14 nights, the schedule/campaign commands' JSON, and bad input.
 
 Checks against outside references: every night passes the astropy validator
-(planner.scheduling.validate); the Moon's illumination for dark time is the
+(tests/helpers/validate.py); the Moon's illumination for dark time is the
 planner's own, so the tip frames' "dark" is re-checked with astropy's Moon.
 """
 
@@ -19,7 +19,8 @@ from planner.errors import InputError
 from planner.inputs.campaign_file import read_campaign_file
 from planner.inputs.resources import targets_dir
 from planner.scheduling.campaign import plan_campaign
-from planner.scheduling.validate import validate_plan
+
+from helpers.validate import validate_plan
 
 DEMO = targets_dir() / "demo" / "campaign.toml"
 ISO_Z = re.compile(r"^\d{4}-\d\d-\d\dT\d\d:\d\d:\d\dZ$")

@@ -1,7 +1,7 @@
 """The night planner: every visit checked by an independent astropy validator, no
 overlaps, inside the night, overheads as the site profile gives them, gaps reported.
 
-The reference is astropy's full ICRS → AltAz transform (planner.scheduling.validate),
+The reference is astropy's full ICRS → AltAz transform (tests/helpers/validate.py),
 which shares no code with the planner's fast kernels.
 """
 
@@ -22,8 +22,9 @@ from planner.model.constraints import constraints_for_site
 from planner.model.target import Target
 from planner.scheduling.frame import night_frame, requests_for_targets
 from planner.scheduling.night import plan_night
-from planner.scheduling.validate import validate_plan
 from planner.scheduling.visits import Exposure, VisitRequest, body_s, parse_visit_spec
+
+from helpers.validate import validate_plan
 
 SITE = resolve_site("demo")
 NIGHT = dt.date(2027, 5, 12)

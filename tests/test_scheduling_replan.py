@@ -8,12 +8,14 @@ import datetime as dt
 import pytest
 
 from planner.cli import main
+from planner.commands.replan import parse_closed, parse_now
 from planner.inputs.campaign_file import read_campaign_file
 from planner.inputs.resources import targets_dir
 from planner.scheduling.campaign import plan_through_night
-from planner.scheduling.replan import parse_closed, parse_now, replan_night
-from planner.scheduling.validate import validate_plan
+from planner.scheduling.replan import replan_night
 from planner.sky.nights import iso_utc
+
+from helpers.validate import validate_plan
 
 DEMO = targets_dir() / "demo" / "campaign.toml"
 NIGHT = dt.date(2027, 1, 8)
@@ -103,12 +105,20 @@ def test_clock_times_and_iso_parse():
     (["--now", "01:00", "--closed", "3am-4am"], "--closed"),
     (["--now", "01:00", "--closed", "02:00-01:00"], "not after"),
     (["--now", "25:10"], "clock time"),
+    (["--now", "01:00", "--seeing", "25"], "--seeing must be a FWHM between 0.1 and 10 arcsec"),
 ])
 def test_bad_now_and_closed_are_one_line_errors(capsys, opts, word):
     code = main(["replan", "--campaign", str(DEMO), "--date", str(NIGHT)] + opts)
     out, err = capsys.readouterr()
     assert code == 2 and out == "" and err.startswith("gcplan: error:") and err.count("\n") == 1
     assert word in err
+
+
+def test_night_outside_the_campaign_names_the_date_option(capsys):
+    code = main(["replan", "--campaign", str(DEMO), "--date", "2027-03-01", "--now", "01:00"])
+    _, err = capsys.readouterr()
+    assert code == 2 and err.count("\n") == 1
+    assert "--date 2027-03-01 is not a night of the campaign" in err and "campaign.toml" in err
 
 
 def test_replan_command_json(capsys):

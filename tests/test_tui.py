@@ -15,10 +15,10 @@ from zoneinfo import ZoneInfo
 import pytest
 from rich.cells import cell_len
 
-from planner.commands.schedule import plan_campaign_night
 from planner.inputs.campaign_file import read_campaign_file
 from planner.inputs.resources import targets_dir
 from planner.inputs.sites import resolve_site
+from planner.scheduling.campaign import plan_campaign_night
 from planner.sky.nights import jd_to_datetime, local_hhmm
 
 DEMO_TARGETS = ("NGC 104", "NGC 362", "NGC 1851", "NGC 2808", "NGC 3201")
@@ -31,7 +31,7 @@ def demo():
 
     configure_runtime()
     campaign = read_campaign_file(targets_dir() / "demo" / "campaign.toml")
-    plan, _, _ = plan_campaign_night(campaign, campaign.nights[0])
+    plan, _ = plan_campaign_night(campaign, campaign.nights[0])
     first = plan.visits[0]
     # The clock stopped halfway through the night's first visit.
     moment = jd_to_datetime((first.start_jd + first.end_jd) / 2.0)
@@ -134,7 +134,7 @@ def test_next_and_previous_night_and_quit(demo):
             second = campaign.nights[1]
             assert app.night == second
             assert f"{second:%Y-%m-%d}" in screen_lines(app)[0]
-            expected, _, _ = plan_campaign_night(campaign, second)
+            expected, _ = plan_campaign_night(campaign, second)
             await pilot.press("2")
             await pilot.pause()
             zone = campaign.site.location.timezone

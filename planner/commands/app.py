@@ -32,14 +32,13 @@ def register(sub) -> None:
 
 def run_app(args) -> int:
     """Read the campaign (bad input fails here, as one line), then run the app until q."""
-    from planner.commands.schedule import check_seeing
     from planner.inputs.campaign_file import read_campaign_file
     from planner.tui.app import PlannerApp
     from planner.tui.clock import frozen_clock, system_clock
 
     night = common.parse_night_date(args.date) if getattr(args, "date", None) else None
     seeing = getattr(args, "seeing", None)
-    check_seeing(seeing)
+    common.check_seeing(seeing)
     clock = frozen_clock(parse_now(args.now)) if getattr(args, "now", None) else system_clock
     campaign = read_campaign_file(getattr(args, "campaign", None) or demo_campaign_path())
     PlannerApp(campaign, night=night, clock=clock, seeing_arcsec=seeing).run()
@@ -48,12 +47,4 @@ def run_app(args) -> int:
 
 def parse_now(text: str):
     """``--now``: an ISO 8601 time, UTC unless it carries an offset."""
-    import datetime as dt
-
-    from planner.errors import DateError
-
-    try:
-        moment = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
-    except ValueError:
-        raise DateError(f"--now must be a time YYYY-MM-DDTHH:MM (UTC), e.g. 2027-01-06T04:30 (got {text!r})") from None
-    return moment if moment.tzinfo else moment.replace(tzinfo=dt.timezone.utc)
+    return common.parse_utc_time(text, "--now", "a time YYYY-MM-DDTHH:MM (UTC), e.g. 2027-01-06T04:30")

@@ -1,4 +1,10 @@
-"""Arguments and output helpers shared by the sub-commands (shell code)."""
+"""Arguments and output helpers shared by the sub-commands (shell code).
+
+The only module one command may import of another: the options several
+commands take (site, targets, constraints, seeing, a campaign file) are
+parsed here, once, and the JSON of every command is written by
+:func:`print_json` / :func:`json_text`.
+"""
 
 from __future__ import annotations
 
@@ -12,7 +18,11 @@ from typing import Any
 
 import numpy as np
 
-from planner.errors import DateError, OutputError
+from planner.errors import CampaignError, DateError, InputError, OutputError
+
+
+class OptionError(InputError):
+    """Command-line options that do not go together or hold an impossible value."""
 
 
 def add_site_arguments(parser: argparse.ArgumentParser, required: bool = True) -> None:
@@ -58,6 +68,61 @@ def targets_from_args(args: argparse.Namespace):
     return resolve_targets(args.targets, args.target, load_catalog())
 
 
+def add_constraint_arguments(p: argparse.ArgumentParser) -> None:
+    p.add_argument(
+        "--twilight",
+        choices=("civil", "nautical", "astronomical"),
+        help="which twilight bounds the usable night (default: the site profile's)",
+    )
+    p.add_argument("--max-airmass", type=float, metavar="X", help="airmass limit (≥ 1)")
+    p.add_argument("--min-altitude", type=float, metavar="DEG", help="altitude limit, degrees")
+    p.add_argument("--min-moon-separation", type=float, metavar="DEG", help="closest approach to the Moon, degrees")
+
+
+def constraints_from_args(site, args):
+    from planner.errors import ConstraintError
+    from planner.model.constraints import constraints_for_site
+
+    if args.max_airmass is not None and not (args.max_airmass >= 1.0):
+        raise ConstraintError(f"--max-airmass must be ≥ 1 (got {args.max_airmass:g})")
+    if args.min_altitude is not None and not (-5.0 <= args.min_altitude < 90.0):
+        raise ConstraintError(f"--min-altitude must be between -5 and 90 degrees (got {args.min_altitude:g})")
+    if args.min_moon_separation is not None and not (0.0 <= args.min_moon_separation <= 180.0):
+        raise ConstraintError(f"--min-moon-separation must be 0..180 degrees (got {args.min_moon_separation:g})")
+    return constraints_for_site(
+        site,
+        twilight=args.twilight,
+        max_airmass=args.max_airmass,
+        min_altitude_deg=args.min_altitude,
+        min_moon_separation_deg=args.min_moon_separation,
+    )
+
+
+def check_seeing(value, option: str = "--seeing") -> None:
+    """A seeing option, if given, must be a FWHM the planner can use."""
+    from planner.model.constraints import seeing_problem
+
+    problem = seeing_problem(value)
+    if problem:
+        raise OptionError(f"{option} {problem}")
+
+
+def campaign_from_args(args):
+    from planner.inputs.campaign_file import read_campaign_file
+
+    return read_campaign_file(args.campaign)
+
+
+def check_campaign_night(campaign, night: dt.date, option: str = "--date") -> int:
+    """The index of ``night`` among the campaign's nights; the option named if it is not one."""
+    from planner.scheduling.campaign import night_index
+
+    try:
+        return night_index(campaign, night)
+    except CampaignError as exc:
+        raise OptionError(f"{option} {exc.detail}", exc.source) from None
+
+
 def add_json_argument(parser: argparse.ArgumentParser) -> None:
     parser.add_argument("--json", action="store_true", help="machine-readable JSON on stdout")
 
@@ -74,6 +139,16 @@ def parse_night_date(text: str, option: str = "--date") -> dt.date:
     if problem:
         raise DateError(f"{option}: {problem}")
     return night
+
+
+def parse_utc_time(text: str, option: str, expected: str) -> dt.datetime:
+    """An ISO 8601 time (``Z`` or an offset allowed; UTC without one), aware.
+    ``expected`` says, in the error, what the option takes."""
+    try:
+        moment = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
+    except (ValueError, AttributeError):
+        raise DateError(f"{option} must be {expected} (got {text!r})") from None
+    return moment if moment.tzinfo else moment.replace(tzinfo=dt.timezone.utc)
 
 
 def date_range(start: dt.date, end: dt.date, start_option="--start", end_option="--end") -> list[dt.date]:
@@ -118,14 +193,27 @@ def to_jsonable(obj: Any) -> Any:
 _INDENT_LIMIT_CHARS = 200_000
 
 
+def json_text(obj: Any, compact_above: int | None = None) -> str:
+    """JSON of core results (see :func:`to_jsonable`), indented for reading; compact
+    when the text is longer than ``compact_above`` characters."""
+    data = to_jsonable(obj)
+    if compact_above is not None:
+        text = json.dumps(data, ensure_ascii=False, allow_nan=False, separators=(",", ":"))
+        if len(text) > compact_above:
+            return text
+    return json.dumps(data, indent=2, ensure_ascii=False, allow_nan=False)
+
+
 def print_json(obj: Any) -> None:
     """JSON on stdout: indented for reading, compact when it is large."""
-    data = to_jsonable(obj)
-    text = json.dumps(data, ensure_ascii=False, allow_nan=False, separators=(",", ":"))
-    if len(text) <= _INDENT_LIMIT_CHARS:
-        text = json.dumps(data, indent=2, ensure_ascii=False, allow_nan=False)
-    sys.stdout.write(text)
+    sys.stdout.write(json_text(obj, _INDENT_LIMIT_CHARS))
     sys.stdout.write("\n")
+
+
+def write_json(path: Path, obj: Any) -> Path:
+    """JSON written to a file, indented, with a final newline."""
+    Path(path).write_text(json_text(obj) + "\n", encoding="utf-8")
+    return Path(path)
 
 
 def check_output_path(path: str, suffixes: tuple[str, ...], option: str) -> Path:

@@ -9,12 +9,12 @@ gcplan, and it is here in the shell) unless ``--date`` is given.
 from __future__ import annotations
 
 import datetime as dt
-import json
 import sys
 import textwrap
 from pathlib import Path
 from zoneinfo import ZoneInfo
 
+from planner.commands import common
 from planner.errors import OutputError
 
 DEMO_SITE = "demo"
@@ -38,17 +38,9 @@ def current_night(local_now: dt.datetime) -> dt.date:
     return local_now.date() - dt.timedelta(days=1 if local_now.hour < 12 else 0)
 
 
-def demo_targets():
-    from planner.inputs.catalog import load_catalog
-    from planner.inputs.resources import targets_dir
-    from planner.inputs.targets import read_target_list
-
-    return read_target_list(targets_dir() / "demo" / "clusters.ecsv", load_catalog())
-
-
 def run(args) -> int:
-    from planner.commands import common
     from planner.inputs.sites import resolve_site
+    from planner.reports.demo_night import demo_targets
 
     site = resolve_site(DEMO_SITE)
     if args.date:
@@ -86,15 +78,14 @@ def _write(path: Path, text: str) -> None:
 
 def step_night(site, targets, night, out):
     """Tonight: almanac, windows, chart."""
-    from planner.commands.common import to_jsonable
-    from planner.commands.night import night_json, night_text
     from planner.model.constraints import constraints_for_site
     from planner.reports.charts import save_night_chart
+    from planner.reports.night_report import night_json, night_text
     from planner.sky.night_summary import night_curves, run_of_nights
 
     run_ = run_of_nights(site, targets, [night], constraints_for_site(site))
     _write(out / "night.txt", night_text(run_))
-    _write(out / "night.json", json.dumps(to_jsonable(night_json(run_)), indent=2, ensure_ascii=False))
+    common.write_json(out / "night.json", night_json(run_))
     save_night_chart(run_, night_curves(run_), out / "night.png")
     return [
         ("night.txt", f"the night of {night}: almanac and each cluster's window"),
@@ -105,19 +96,18 @@ def step_night(site, targets, night, out):
 
 def step_semester(site, targets, night, out):
     """The next semester: hours per night, best nights and months."""
-    from planner.commands.common import to_jsonable
-    from planner.commands.observability import observability_json, observability_text
     from planner.inputs.catalog import load_catalog
     from planner.inputs.targets import catalog_targets
     from planner.model.constraints import constraints_for_site
     from planner.reports.charts import save_observability_chart
+    from planner.reports.observability_report import observability_json, observability_text
     from planner.sky.night_summary import run_of_nights, seasons
 
     nights = [night + dt.timedelta(days=i) for i in range(SEMESTER_NIGHTS)]
     constraints = constraints_for_site(site)
     run_ = run_of_nights(site, targets, nights, constraints)
     _write(out / "semester.txt", observability_text(run_, seasons(run_)))
-    _write(out / "semester.json", json.dumps(to_jsonable(observability_json(run_, seasons(run_))), indent=2))
+    common.write_json(out / "semester.json", observability_json(run_, seasons(run_)))
     save_observability_chart(run_, out / "semester.png")
     # The whole bundled catalog as well: which other clusters the site could take.
     everything = run_of_nights(site, catalog_targets(load_catalog()), nights, constraints)
@@ -140,8 +130,6 @@ DEMO_VARIABLE_NIGHTS = 7
 
 def step_exposures(site, targets, night, out):
     """Exposure table: every cluster × level × filter at the site's typical seeing, airmass 1.2, dark."""
-    from astropy.table import Table
-
     from planner.light.exposure import exposure_table
 
     rows = exposure_table(site, targets, tuple(DEMO_SNR), DEMO_FILTERS, DEMO_SNR)
@@ -168,16 +156,7 @@ def step_exposures(site, targets, night, out):
     lines.append("  saturates: frame time at which the level's brightest stars reach the linearity")
     lines.append("  limit of the camera.")
     _write(out / "exposures.txt", "\n".join(lines))
-    table = Table(
-        rows=[
-            (r.target, r.level, r.filter, r.snr_goal, r.magnitude, r.frames, r.frame_s, r.exposure_s,
-             r.snr_reached, r.saturation_s, r.note)
-            for r in rows
-        ],
-        names=("target", "level", "filter", "snr_goal", "magnitude", "frames", "frame_s", "exposure_s",
-               "snr_reached", "saturation_s", "note"),
-        dtype=(str, str, str, float, float, float, float, float, float, float, str),
-    )
+    table = exposure_rows_table(rows)
     table.meta["note"] = "gcplan demo: invented campaign goals at a fictional site; see planner/light/exposure.py"
     table.write(out / "exposures.ecsv", format="ascii.ecsv", overwrite=True)
     return [
@@ -186,16 +165,41 @@ def step_exposures(site, targets, night, out):
     ]
 
 
+def exposure_rows_table(rows):
+    """The exposure rows as a table with units in the columns (ECSV ``unit:``), frames whole;
+    a level that could not be computed has its numbers masked and says why in ``note``."""
+    from astropy.table import MaskedColumn, Table
+
+    def column(name, values, dtype, unit=None):
+        fill = "" if dtype is str else 0
+        return MaskedColumn([fill if v is None else v for v in values], name=name,
+                            mask=[v is None for v in values], dtype=dtype, unit=unit)
+
+    table = Table([
+        column("target", [r.target for r in rows], str),
+        column("level", [r.level for r in rows], str),
+        column("filter", [r.filter for r in rows], str),
+        column("snr_goal", [r.snr_goal for r in rows], float),
+        column("magnitude", [r.magnitude for r in rows], float, "mag"),
+        column("frames", [r.frames for r in rows], int),
+        column("frame_time", [r.frame_s for r in rows], float, "s"),
+        column("exposure_time", [r.exposure_s for r in rows], float, "s"),
+        column("snr_reached", [r.snr_reached for r in rows], float),
+        column("saturation_time", [r.saturation_s for r in rows], float, "s"),
+        column("note", [r.note for r in rows], str),
+    ])
+    return table
+
+
 def step_phases(site, targets, night, out):
     """Phase coverage of the invented variables for a week of visits spread through the dark windows."""
     import numpy as np
     from astropy.time import Time
 
-    from planner.commands.common import to_jsonable
-    from planner.commands.phases import phase_report, report_json, report_text
     from planner.inputs.resources import targets_dir
     from planner.inputs.variable_files import read_variables
     from planner.reports.phase_plot import phase_coverage_axes
+    from planner.reports.phases_report import phase_report, report_json, report_text
     from planner.sky.almanac import dark_windows_jd
     from planner.variables.recovery import visit_times_in_windows
 
@@ -207,7 +211,7 @@ def step_phases(site, targets, night, out):
     times = Time(jd, format="jd", scale="utc")
     report = phase_report(variables, times, 20, 0.05)
     _write(out / "phases.txt", report_text(variables, report))
-    _write(out / "phases.json", json.dumps(to_jsonable(report_json(variables, report)), indent=2))
+    common.write_json(out / "phases.json", report_json(variables, report))
     ax = phase_coverage_axes(report["ids"], report["periods"], report["phase"], report["types"], 20)
     ax.figure.savefig(out / "phases.png", dpi=120)
     return [
@@ -220,7 +224,7 @@ def step_phases(site, targets, night, out):
 
 def step_log(site, targets, night, out):
     """An invented night of frames, ingested into a logbook and printed as a night log."""
-    from planner.commands.log import write_demo_log
+    from planner.reports.demo_night import write_demo_log
 
     write_demo_log(out, site, night)
     return [
@@ -239,12 +243,12 @@ def write_demo_schedule(out_dir, site=None):
     """
     from dataclasses import replace
 
-    from planner.commands.common import to_jsonable
-    from planner.commands.schedule import campaign_json, night_sheet
     from planner.inputs.campaign_file import read_campaign_file
     from planner.inputs.resources import targets_dir
     from planner.model.constraints import constraints_for_site
+    from planner.reports.campaign_report import campaign_json
     from planner.reports.schedule_plot import save_schedule_plot
+    from planner.reports.schedule_report import night_sheet
     from planner.scheduling.campaign import plan_campaign
 
     out = Path(out_dir)
@@ -261,9 +265,7 @@ def write_demo_schedule(out_dir, site=None):
         p = out / f"schedule_{night_plan.night.isoformat()}.txt"
         _write(p, night_sheet(campaign.site, night_plan))
         written.append(p)
-    p = out / "campaign.json"
-    _write(p, json.dumps(to_jsonable(campaign_json(plan)), indent=2, ensure_ascii=False))
-    written.append(p)
+    written.append(common.write_json(out / "campaign.json", campaign_json(plan)))
     first = plan.nights[0]
     written.append(save_schedule_plot(campaign.site, first, out / f"schedule_{first.night.isoformat()}.png"))
     return written

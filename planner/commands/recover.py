@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -14,22 +15,20 @@ from planner.commands import common
 # --cluster (nor the variables file) says how bright the stars are.
 DEFAULT_MEAN_V_MAG = 16.0
 DEFAULT_EXPOSURE_S = 120.0
-# σ_mag = 2.5 / ln 10 / (S/N): the magnitude error of a flux measured to S/N.
-MAG_PER_INVERSE_SNR = 2.5 / np.log(10.0)
-# Crowding, flat fielding and the comparison stars rarely let cluster photometry do
-# better than about 0.01 mag per point, whatever the photon statistics (a rule of
-# thumb, from memory); added in quadrature to the exposure core's noise.
-DEFAULT_NOISE_FLOOR_MAG = 0.01
 
 
 def register(sub) -> None:
+    # The error per visit added in quadrature to the exposure core's photon noise
+    # (crowding, flat field) defaults to the core's floor, which the campaign forecast uses too.
+    from planner.variables.recovery import NOISE_FLOOR_MAG, RECOVERY_TOLERANCE
+
     p = sub.add_parser(
         "recover",
         help="simulate a campaign's RR Lyrae light curves and see which periods it recovers",
         description="Lay V visits in each night's dark window for K nights, simulate the light "
         "curves of a synthetic Oosterhoff I/II population or of the variables in a file, add "
         "noise from the exposure calculation, search each with Lomb–Scargle and report the "
-        "fraction recovered (|ΔP|/P < 1e-3), the one-day aliases and the failures.",
+        f"fraction recovered (|ΔP|/P < {RECOVERY_TOLERANCE:g}), the one-day aliases and the failures.",
     )
     common.add_site_arguments(p)
     p.add_argument("--population", required=True, metavar="oosterhoff-1|oosterhoff-2|FILE",
@@ -57,9 +56,9 @@ def register(sub) -> None:
                    help=f"mean magnitude of the stars (default: the cluster's HB, else {DEFAULT_MEAN_V_MAG:g})")
     p.add_argument("--noise-mag", type=float, metavar="SIGMA",
                    help="photometric error per visit, mag (default: from the exposure calculation)")
-    p.add_argument("--noise-floor", type=float, default=DEFAULT_NOISE_FLOOR_MAG, metavar="SIGMA",
+    p.add_argument("--noise-floor", type=float, default=NOISE_FLOOR_MAG, metavar="SIGMA",
                    help="error per visit added in quadrature to the exposure calculation's, mag "
-                   f"(crowding, flat field; default {DEFAULT_NOISE_FLOOR_MAG:g})")
+                   f"(crowding, flat field; default {NOISE_FLOOR_MAG:g})")
     p.add_argument("--jitter-min", type=float, default=10.0, metavar="MIN",
                    help="random shift of each visit from its slot centre, minutes (default 10)")
     p.add_argument("--seed", type=int, default=1, help="random seed (default 1)")
@@ -68,37 +67,39 @@ def register(sub) -> None:
 
 
 def check_options(args) -> None:
-    from planner.inputs.variable_files import VariablesOptionError as E
+    from planner.inputs.variable_files import VariablesOptionError
 
     if args.schedule:
         if args.nights is not None or args.visits_per_night is not None:
-            raise E("--schedule gives the visit times; leave out --nights and --visits-per-night")
+            raise VariablesOptionError("--schedule gives the visit times; leave out --nights and --visits-per-night")
     elif args.nights is None or args.visits_per_night is None:
-        raise E("give --nights K and --visits-per-night V, or --schedule FILE")
+        raise VariablesOptionError("give --nights K and --visits-per-night V, or --schedule FILE")
     else:
-        _check_counts(args, E)
+        _check_counts(args.nights, args.visits_per_night)
     if args.stars is not None and not 1 <= args.stars <= 100_000:
-        raise E(f"--stars must be between 1 and 100000 (got {args.stars})")
+        raise VariablesOptionError(f"--stars must be between 1 and 100000 (got {args.stars})")
     if not args.exposure > 0:
-        raise E(f"--exposure must be a positive number of seconds (got {args.exposure:g})")
+        raise VariablesOptionError(f"--exposure must be a positive number of seconds (got {args.exposure:g})")
     if args.noise_mag is not None and not 0 < args.noise_mag < 5:
-        raise E(f"--noise-mag must be between 0 and 5 mag (got {args.noise_mag:g})")
+        raise VariablesOptionError(f"--noise-mag must be between 0 and 5 mag (got {args.noise_mag:g})")
     if not 0 <= args.noise_floor < 5:
-        raise E(f"--noise-floor must be between 0 and 5 mag (got {args.noise_floor:g})")
+        raise VariablesOptionError(f"--noise-floor must be between 0 and 5 mag (got {args.noise_floor:g})")
     if not 0 <= args.jitter_min <= 120:
-        raise E(f"--jitter-min must be between 0 and 120 minutes (got {args.jitter_min:g})")
+        raise VariablesOptionError(f"--jitter-min must be between 0 and 120 minutes (got {args.jitter_min:g})")
 
 
-def _check_counts(args, E) -> None:
-    if not 1 <= args.nights <= 3700:
-        raise E(f"--nights must be between 1 and 3700 (got {args.nights})")
-    if not 1 <= args.visits_per_night <= 500:
-        raise E(f"--visits-per-night must be between 1 and 500 (got {args.visits_per_night})")
+def _check_counts(nights: int, visits_per_night: int) -> None:
+    from planner.inputs.variable_files import VariablesOptionError
+
+    if not 1 <= nights <= 3700:
+        raise VariablesOptionError(f"--nights must be between 1 and 3700 (got {nights})")
+    if not 1 <= visits_per_night <= 500:
+        raise VariablesOptionError(f"--visits-per-night must be between 1 and 500 (got {visits_per_night})")
 
 
-def _first_night(args, site) -> dt.date:
-    if args.date:
-        return common.parse_night_date(args.date)
+def _first_night(date_text: str | None, site) -> dt.date:
+    if date_text:
+        return common.parse_night_date(date_text)
     from zoneinfo import ZoneInfo
 
     # The shell reads the clock (the core never does): tonight at the site.
@@ -120,20 +121,19 @@ def _cluster_entry(name: str):
 
 
 def _hb_mag(site, filter_name: str, entry) -> float:
-    from planner.light.photometry import science_level
+    from planner.light.photometry import LevelError, science_level
 
     band = site.filters[filter_name].band if filter_name in site.filters else filter_name
-    return float(science_level(entry, "hb", band).magnitude)
+    try:
+        return float(science_level(entry, "hb", band).magnitude)
+    except LevelError as exc:
+        raise LevelError(f"{exc}; give the stars' mean magnitude (--mean-mag)") from None
 
 
 def population_from_file(path: str, n_stars: int | None, site, filter_name: str, default_mag: float | None):
     """(StarSample, per-star mean magnitude, variables) for the variables of a table."""
     from planner.inputs.variable_files import read_variables
-    from planner.variables.recovery import (
-        OOSTERHOFF_I,
-        StarSample,
-        bailey_amplitude_mag,
-    )
+    from planner.variables.recovery import OOSTERHOFF_I, StarSample, bailey_amplitude_mag
 
     variables = read_variables(path)[: n_stars or None]
     types = tuple(v.type if v.type in ("RRab", "RRc") else ("RRc" if v.type == "RRd" else "RRab") for v in variables)
@@ -164,19 +164,106 @@ def population_from_file(path: str, n_stars: int | None, site, filter_name: str,
     return stars, np.array(mags), variables
 
 
-def run(args) -> int:
+@dataclass(frozen=True)
+class VisitTimes:
+    """When the stars are observed: JD (UTC) of each visit and the nights they span."""
+
+    jd: np.ndarray
+    first_night: dt.date
+    nights: int
+    visits_per_night: float
+    windows: np.ndarray  # (nights, 2) dark windows, JD; zeros when the times come from a plan
+
+
+def times_from_plan(path: str, cluster: str | None, site) -> VisitTimes:
+    """The variable-star visits of a plan file (of ``cluster``, if given)."""
+    from planner.inputs.plan_files import variable_visit_times
+    from planner.inputs.variable_files import VariablesOptionError
+    from planner.logbook.store import night_of_jd
+
+    jd = variable_visit_times(path, cluster)
+    if jd.size < 4:
+        raise VariablesOptionError(f"--schedule {path!r} holds {jd.size} usable visit(s)"
+                                   + (f" of {cluster}" if cluster else "") + "; at least 4 are needed")
+    seen = sorted({night_of_jd(t, site.location.timezone) for t in jd})
+    return VisitTimes(jd, seen[0], (seen[-1] - seen[0]).days + 1, round(jd.size / len(seen), 2),
+                      np.full((len(seen), 2), 0.0))
+
+
+def times_in_dark_windows(site, first: dt.date, nights: int, visits_per_night: int, twilight: str,
+                          jitter_min: float, rng) -> VisitTimes:
+    """``visits_per_night`` visits spread through each night's dark window, ``nights`` nights from ``first``."""
+    from planner.sky.almanac import dark_windows_jd
+    from planner.variables.recovery import visit_times_in_windows
+
+    windows = dark_windows_jd(site, first, nights, twilight)
+    jd = visit_times_in_windows(windows, visits_per_night, rng, jitter_min / 1440.0)
+    return VisitTimes(jd, first, nights, visits_per_night, windows)
+
+
+@dataclass(frozen=True)
+class Population:
+    """The stars simulated, their mean magnitudes, their times (HJD or JD) and where they came from."""
+
+    stars: object  # planner.variables.recovery.StarSample
+    mean_mag: np.ndarray
+    times: np.ndarray
+    time_system: str
+    source: str
+    label: str
+
+
+def synthetic_stars(name: str, n_stars: int, mean_mag: float | None, site, filter_name: str, entry,
+                    jd: np.ndarray, rng) -> Population:
+    """A synthetic Oosterhoff population; one position (the cluster's) for all stars."""
     from astropy.time import Time
 
-    from planner.inputs.variable_files import VariablesOptionError
-    from planner.light.exposure import snr_of_exposure
-    from planner.sky.almanac import dark_windows_jd
     from planner.variables.phases import heliocentric_jd
-    from planner.variables.recovery import (
-        POPULATIONS,
-        simulate_recovery,
-        synthetic_population,
-        visit_times_in_windows,
-    )
+    from planner.variables.recovery import POPULATIONS, synthetic_population
+
+    model = POPULATIONS[name]
+    if entry is not None:  # one position: the times stay shared by all stars
+        t = heliocentric_jd(Time(jd, format="jd", scale="utc"), [entry.ra_deg], [entry.dec_deg])[0]
+        time_system = f"HJD (UTC) for {entry.name}"
+    else:
+        t, time_system = jd, "JD (UTC); no cluster given, so no heliocentric correction"
+    stars = synthetic_population(model, n_stars, rng, reference_time_d=float(t[0]))
+    if mean_mag is None:
+        mean_mag = _hb_mag(site, filter_name, entry) if entry else DEFAULT_MEAN_V_MAG
+    return Population(stars, np.full(len(stars.star_id), mean_mag), t, time_system, model.source, model.name)
+
+
+def file_stars(path: str, n_stars: int | None, mean_mag: float | None, site, filter_name: str, entry,
+               jd: np.ndarray) -> Population:
+    """The variables of a table, each at its own position."""
+    from astropy.time import Time
+
+    from planner.variables.phases import heliocentric_jd
+
+    default = mean_mag if mean_mag is not None else (_hb_mag(site, filter_name, entry) if entry else None)
+    stars, mean, variables = population_from_file(path, n_stars, site, filter_name, default)
+    t = heliocentric_jd(Time(jd, format="jd", scale="utc"), [v.ra_deg for v in variables],
+                        [v.dec_deg for v in variables])
+    return Population(stars, mean, t, "HJD (UTC) per star, as the file's epochs", f"variables table {path}", path)
+
+
+def visit_noise(site, filter_name: str, mean_mag: np.ndarray, exposure_s: float, noise_mag: float | None,
+                floor_mag: float) -> tuple[np.ndarray, str]:
+    """The error of each star per visit, mag, and a phrase saying where it came from."""
+    from planner.light.exposure import snr_of_exposure
+    from planner.variables.recovery import visit_noise_mag
+
+    if noise_mag is not None:
+        return np.full(mean_mag.shape, noise_mag), "--noise-mag"
+    snr = np.asarray(snr_of_exposure(site, filter_name, mean_mag, exposure_s), dtype=float)
+    return visit_noise_mag(snr, floor_mag), (
+        f"exposure core ({exposure_s:g} s in {filter_name} at airmass 1.2, no Moon) "
+        f"with a {floor_mag:g} mag floor in quadrature")
+
+
+def run(args) -> int:
+    from planner.inputs.variable_files import VariablesOptionError
+    from planner.variables.recovery import POPULATIONS, simulate_recovery
 
     check_options(args)
     site = common.site_from_args(args)
@@ -187,67 +274,47 @@ def run(args) -> int:
     twilight = args.twilight or site.limits.twilight
     rng = np.random.default_rng(args.seed)
     if args.schedule:
-        from planner.inputs.plan_files import variable_visit_times
-        from planner.logbook.store import night_of_jd
-
-        jd = variable_visit_times(args.schedule, args.cluster)
-        if jd.size < 4:
-            raise VariablesOptionError(f"--schedule {args.schedule!r} holds {jd.size} usable visit(s)"
-                                       + (f" of {args.cluster}" if args.cluster else "") + "; at least 4 are needed")
-        nights_seen = sorted({night_of_jd(t, site.location.timezone) for t in jd})
-        first = nights_seen[0]
-        args.nights = (nights_seen[-1] - first).days + 1
-        args.visits_per_night = round(jd.size / len(nights_seen), 2)
-        windows = np.full((len(nights_seen), 2), 0.0)
+        visits = times_from_plan(args.schedule, args.cluster, site)
     else:
-        first = _first_night(args, site)
-        windows = dark_windows_jd(site, first, args.nights, twilight)
-        jd = visit_times_in_windows(windows, args.visits_per_night, rng, args.jitter_min / 1440.0)
-    if jd.size < 4:
+        visits = times_in_dark_windows(site, _first_night(args.date, site), args.nights, args.visits_per_night,
+                                       twilight, args.jitter_min, rng)
+    if visits.jd.size < 4:
         raise VariablesOptionError(
-            f"only {jd.size} visits fit in {args.nights} night(s) from {first} at {site.name!r} "
-            f"({twilight} twilight): give more nights, more visits or a lighter twilight"
+            f"only {visits.jd.size} visits fit in {visits.nights} night(s) from {visits.first_night} at "
+            f"{site.name!r} ({twilight} twilight): give more nights, more visits or a lighter twilight"
         )
-    times = Time(jd, format="jd", scale="utc")
     entry = _cluster_entry(args.cluster) if args.cluster else None
-
-    population = args.population
-    if population.lower() in POPULATIONS:
-        model = POPULATIONS[population.lower()]
-        if entry is not None:  # one position: the times stay shared by all stars
-            t = heliocentric_jd(times, [entry.ra_deg], [entry.dec_deg])[0]
-            time_system = f"HJD (UTC) for {entry.name}"
-        else:
-            t, time_system = jd, "JD (UTC); no cluster given, so no heliocentric correction"
-        stars = synthetic_population(model, args.stars or 200, rng, reference_time_d=float(t[0]))
-        if args.mean_mag is not None:
-            mean = np.full(len(stars.star_id), args.mean_mag)
-        else:
-            mean = np.full(len(stars.star_id), _hb_mag(site, args.filter, entry) if entry else DEFAULT_MEAN_V_MAG)
-        source, label = model.source, model.name
-    elif Path(population).is_file():
-        default = args.mean_mag if args.mean_mag is not None else (_hb_mag(site, args.filter, entry) if entry else None)
-        stars, mean, variables = population_from_file(population, args.stars, site, args.filter, default)
-        t = heliocentric_jd(times, [v.ra_deg for v in variables], [v.dec_deg for v in variables])
-        time_system = "HJD (UTC) per star, as the file's epochs"
-        source, label = f"variables table {population}", population
+    if args.population.lower() in POPULATIONS:
+        population = synthetic_stars(args.population.lower(), args.stars or 200, args.mean_mag, site, args.filter,
+                                     entry, visits.jd, rng)
+    elif Path(args.population).is_file():
+        population = file_stars(args.population, args.stars, args.mean_mag, site, args.filter, entry, visits.jd)
     else:
-        raise VariablesOptionError(
-            f"--population {population!r} is neither {' nor '.join(POPULATIONS)} nor an existing variables file"
-        )
-
-    if args.noise_mag is not None:
-        sigma = np.full(mean.shape, args.noise_mag)
-        noise_source = "--noise-mag"
+        raise VariablesOptionError(f"--population {args.population!r} is neither {' nor '.join(POPULATIONS)} "
+                                   "nor an existing variables file")
+    sigma, noise_source = visit_noise(site, args.filter, population.mean_mag, args.exposure, args.noise_mag,
+                                      args.noise_floor)
+    summary, search = simulate_recovery(population.times, population.stars, population.mean_mag, sigma, rng)
+    result = recovery_result(summary, search, visits, population, sigma, noise_source, site=site.name,
+                             twilight=twilight, filter_name=args.filter, exposure_s=args.exposure, seed=args.seed,
+                             schedule=args.schedule)
+    if args.json:
+        common.print_json(result)
     else:
-        snr = np.asarray(snr_of_exposure(site, args.filter, mean, args.exposure), dtype=float)
-        photon = np.where(snr > 0, MAG_PER_INVERSE_SNR / np.where(snr > 0, snr, 1.0), np.inf)
-        sigma = np.hypot(photon, args.noise_floor)
-        noise_source = (f"exposure core ({args.exposure:g} s in {args.filter} at airmass 1.2, no Moon) "
-                        f"with a {args.noise_floor:g} mag floor in quadrature")
-    summary, search = simulate_recovery(t, stars, mean, sigma, rng)
+        from planner.reports.recovery_report import recover_text
 
-    result = {
+        print(recover_text(result))
+    return 0
+
+
+def recovery_result(summary, search, visits: VisitTimes, population: Population, sigma, noise_source: str, *,
+                    site: str, twilight: str, filter_name: str, exposure_s: float, seed: int,
+                    schedule: str | None) -> dict:
+    """Everything ``gcplan recover`` reports, as its JSON."""
+    from planner.variables.recovery import RECOVERY_TOLERANCE
+
+    jd = visits.jd
+    return {
         "recovered_fraction": round(summary.recovered_fraction, 4),
         "alias_fraction": round(summary.alias_fraction, 4),
         "stars": summary.n_stars,
@@ -258,54 +325,26 @@ def run(args) -> int:
             for f in summary.failures
         ],
         "outcome_fractions": {k: round(v, 4) for k, v in summary.fractions.items()},
-        "tolerance": 1e-3,
-        "population": label,
-        "population_source": source,
-        "site": site.name,
-        "first_night": first.isoformat(),
-        "nights": args.nights,
-        "nights_with_dark_time": int(np.sum(np.all(np.isfinite(windows), axis=1))),
-        "visits_per_night": args.visits_per_night,
+        "tolerance": RECOVERY_TOLERANCE,
+        "population": population.label,
+        "population_source": population.source,
+        "site": site,
+        "first_night": visits.first_night.isoformat(),
+        "nights": visits.nights,
+        "nights_with_dark_time": int(np.sum(np.all(np.isfinite(visits.windows), axis=1))),
+        "visits_per_night": visits.visits_per_night,
         "n_epochs": int(jd.size),
         "baseline_d": round(float(jd.max() - jd.min()), 4),
         "twilight": twilight,
-        "time_system": time_system,
-        "filter": args.filter,
-        "exposure_s": args.exposure,
-        "mean_mag": round(float(np.median(mean)), 3),
+        "time_system": population.time_system,
+        "filter": filter_name,
+        "exposure_s": exposure_s,
+        "mean_mag": round(float(np.median(population.mean_mag)), 3),
         "noise_mag": round(float(np.median(sigma)), 4),
         "noise_source": noise_source,
         "coarse_step_per_d": search.coarse_step_per_d,
-        "seed": args.seed,
-        "note": (f"visit times from the plan {args.schedule}" if args.schedule else
+        "seed": seed,
+        "note": (f"visit times from the plan {schedule}" if schedule else
                  "visits fill each night's dark window; whether each cluster is above the horizon "
                  "then is not checked here (use a schedule for that)"),
     }
-    if args.json:
-        common.print_json(result)
-    else:
-        print(recover_text(result))
-    return 0
-
-
-def recover_text(r: dict) -> str:
-    lines = [
-        f"{r['stars']} stars ({r['population']}), {r['nights']} nights from {r['first_night']} at "
-        f"{r['site']} ({r['nights_with_dark_time']} with {r['twilight']} darkness), "
-        f"{r['visits_per_night']} visits a night: {r['n_epochs']} epochs over {r['baseline_d']:.2f} d",
-        f"noise {r['noise_mag']:.4f} mag at {r['filter']} = {r['mean_mag']:.2f} ({r['noise_source']})",
-        "",
-        f"recovered (|ΔP|/P < 1e-3): {100 * r['recovered_fraction']:5.1f} %",
-    ]
-    for name, frac in r["outcome_fractions"].items():
-        if name != "recovered":
-            lines.append(f"{name + ':':<27}{100 * frac:5.1f} %")
-    if r["failures"]:
-        lines += ["", f"{'id':<16} {'type':<5} {'P (d)':>9} {'found (d)':>10}  outcome"]
-        for f in r["failures"][:30]:
-            found = "—" if f["recovered_period_d"] is None else f"{f['recovered_period_d']:.5f}"
-            lines.append(f"{f['id']:<16} {f['type']:<5} {f['period_d']:>9.5f} {found:>10}  {f['outcome']}")
-        if len(r["failures"]) > 30:
-            lines.append(f"... and {len(r['failures']) - 30} more (see --json)")
-    lines += ["", f"Note: {r['note']}."]
-    return "\n".join(lines)

@@ -2,7 +2,15 @@
 
 from __future__ import annotations
 
+import datetime as dt
+import re
+from zoneinfo import ZoneInfo
+
 from planner.commands import common
+from planner.errors import DateError
+from planner.sky.nights import datetime_to_jd, iso_utc, local_noon_jd
+
+_HHMM = re.compile(r"^\s*(\d{1,2}):(\d{2})\s*$")
 
 
 def register(sub) -> None:
@@ -29,19 +37,13 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
-    from planner.commands.schedule import (
-        campaign_from_args,
-        check_seeing,
-        night_index,
-        night_sheet,
-        schedule_json,
-    )
-    from planner.scheduling.replan import parse_closed, parse_now, replan_night
+    from planner.reports.schedule_report import night_sheet, schedule_json
+    from planner.scheduling.replan import replan_night
 
     night = common.parse_night_date(args.date)
-    check_seeing(args.seeing)
-    campaign = campaign_from_args(args)
-    night_index(campaign, night)
+    common.check_seeing(args.seeing)
+    campaign = common.campaign_from_args(args)
+    common.check_campaign_night(campaign, night)
     zone = campaign.site.location.timezone
     now = parse_now(args.now, night, zone)
     closed = tuple(parse_closed(text, night, zone) for text in args.closed)
@@ -66,12 +68,58 @@ def run(args) -> int:
     return 0
 
 
+def _local_clock(hh: int, mm: int, night: dt.date, zone: str, option: str, text: str) -> float:
+    if not (0 <= hh <= 23 and 0 <= mm <= 59):
+        raise DateError(f"{option} {text!r}: {hh:02d}:{mm:02d} is not a clock time (00:00..23:59)")
+    day = night if hh >= 12 else night + dt.timedelta(days=1)  # the night runs from noon to noon
+    return datetime_to_jd(dt.datetime.combine(day, dt.time(hh, mm), tzinfo=ZoneInfo(zone)))
+
+
+def parse_moment(text: str, night: dt.date, zone: str, option: str = "--now") -> float:
+    """JD (UTC) of ``text``: ISO 8601 with a zone (``2027-01-06T03:10Z``, ``...-03:00``), an ISO
+    date-time without one (the site's local time), or a local clock time ``HH:MM`` on the night."""
+    m = _HHMM.match(text)
+    if m:
+        return _local_clock(int(m[1]), int(m[2]), night, zone, option, text)
+    try:
+        moment = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00").replace("z", "+00:00"))
+    except ValueError:
+        raise DateError(f"{option} {text!r} is not a moment: give ISO 8601 such as 2027-01-06T03:10Z "
+                        "(or with an offset, or local time without one) or a local HH:MM") from None
+    if moment.tzinfo is None:
+        moment = moment.replace(tzinfo=ZoneInfo(zone))
+    return datetime_to_jd(moment)
+
+
+def parse_now(text: str, night: dt.date, zone: str) -> float:
+    jd = parse_moment(text, night, zone, "--now")
+    start, end = local_noon_jd(night, zone), local_noon_jd(night + dt.timedelta(days=1), zone)
+    if not start <= jd <= end:
+        raise DateError(f"--now {text!r} is not in the night of {night} (local noon to noon)")
+    return jd
+
+
+def parse_closed(text: str, night: dt.date, zone: str) -> tuple[float, float]:
+    """``START/END`` (ISO 8601, as :func:`parse_moment`) or local ``HH:MM-HH:MM``."""
+    m = re.fullmatch(r"\s*(\d{1,2}:\d{2})\s*-\s*(\d{1,2}:\d{2})\s*", text)
+    if m:
+        a, b = (parse_moment(x, night, zone, "--closed") for x in (m[1], m[2]))
+    elif "/" in text:
+        left, _, right = text.partition("/")
+        a, b = parse_moment(left, night, zone, "--closed"), parse_moment(right, night, zone, "--closed")
+    else:
+        raise DateError(f"--closed {text!r}: give START/END in ISO 8601 (2027-01-06T02:00Z/2027-01-06T03:30Z) "
+                        "or local HH:MM-HH:MM (23:10-00:40)")
+    if b <= a:
+        raise DateError(f"--closed {text!r}: the end ({iso_utc(b)}) is not after the start ({iso_utc(a)})")
+    return a, b
+
+
 def read_logbook_night(campaign, night, path: str | None = None):
     """What the logbook says of a night: (target, time_jd) of its frames, its closed
     periods ('closed' until the next 'open', or the night's end), and a note on the
     source.  The file is ``path``, else ``logbook.sqlite`` beside the campaign file;
     with neither present, nothing is known from it."""
-    import datetime as dt
     from pathlib import Path
 
     from planner.logbook.store import (
@@ -80,8 +128,6 @@ def read_logbook_night(campaign, night, path: str | None = None):
         closed_periods,
         default_logbook_path,
     )
-    from planner.sky.nights import local_noon_jd
-
     p = Path(path) if path else default_logbook_path(campaign.source)
     if not p.is_file():
         if path:

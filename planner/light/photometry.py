@@ -289,7 +289,7 @@ def absolute_level_mag(level: str, band: str, feh_dex: float, *, period_d: float
                              f"{TRGB_NIR_MH[0]}..{TRGB_NIR_MH[1]}: extrapolated")
             return m, TRGB_NIR_SOURCE, "none needed", False, tuple(notes)
         if band == "U":
-            raise LevelError("the tip level has no stated U - V colour; give the magnitude (--mag) instead")
+            raise LevelError("the tip level has no stated U - V colour: its magnitude must be given instead")
         if vi > 2.2:
             notes.append(f"tip colour {vi:.2f} is redder than the Rizzi et al. colour term's range")
         m_v = m_i + vi
@@ -329,7 +329,7 @@ def science_level(target, level: str, band: str, *, period_d: float | None = Non
     for attr, what in needs:
         if _missing(getattr(target, attr, None)):
             raise LevelError(f"target {name!r} has no {attr} ({what}); the {level} level needs it: "
-                             "add it to the target list or give the magnitude (--mag)")
+                             "add it to the target list, or a magnitude is needed")
     absolute, calibration, colour, thumb, notes = absolute_level_mag(
         level, band, target.feh_dex, period_d=period_d)
     a_band = float(interstellar_extinction_mag(band, target.ebv_mag))

@@ -363,20 +363,3 @@ def watch_folder(logbook: Logbook, folder: str | Path, site, catalog=None, inter
     except KeyboardInterrupt:
         pass
     return IngestReport(tuple(added), skipped, 0)
-
-
-# --- invented frames (demo and tests) ------------------------------------------
-
-
-def write_invented_frame(path: str | Path, cards: Mapping[str, object], shape=(16, 16), seed: int = 0) -> Path:
-    """Write a tiny invented FITS frame (int16 noise) with ``cards``, labelled invented in a COMMENT."""
-    from astropy.io import fits
-
-    rng = np.random.default_rng(seed)
-    hdu = fits.PrimaryHDU(rng.normal(1000.0, 10.0, shape).astype(np.int16))
-    for key, value in cards.items():
-        hdu.header[key] = value
-    hdu.header["COMMENT"] = "INVENTED frame written by gcplan for a demo or a test; not an observation."
-    path = Path(path)
-    hdu.writeto(path, overwrite=True)
-    return path

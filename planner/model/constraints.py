@@ -69,3 +69,16 @@ def constraints_for_site(
         horizon_alt_deg=tuple(lim.horizon_alt_deg),
         sun_avoidance_deg=lim.sun_avoidance_deg,
     )
+
+
+#: Seeing FWHM the planner accepts, arcsec: below 0.1″ no site delivers it, above
+#: 10″ no photometry is planned (bounds of the scheduling commands).
+SEEING_RANGE_ARCSEC = (0.1, 10.0)
+
+
+def seeing_problem(value: float | None) -> str | None:
+    """What is wrong with a planned seeing FWHM (arcsec), or None (also for no value)."""
+    lo, hi = SEEING_RANGE_ARCSEC
+    if value is not None and not lo <= value <= hi:
+        return f"must be a FWHM between {lo:g} and {hi:g} arcsec (got {value:g})"
+    return None

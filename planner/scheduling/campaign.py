@@ -16,8 +16,8 @@ requests made for that night:
 
 The forecast then puts every planned variable visit through
 :func:`planner.variables.phase_coverage` and :func:`planner.recovery.simulate_recovery`
-(light curves simulated at the planned times, noise from the exposure core).
-Pure computation apart from :func:`write_demo_schedule`, the demo's writer.
+(light curves simulated at the planned times, noise from the exposure core through
+:func:`planner.variables.recovery.visit_noise_mag`, as ``gcplan recover``).
 """
 
 from __future__ import annotations
@@ -36,9 +36,6 @@ from planner.scheduling.visits import Exposure, VisitRequest, body_s
 
 #: Airmass at which goal exposures are computed: the middle of a typical visit (from memory).
 EXPOSURE_AIRMASS = 1.2
-#: Crowding and flat-field floor added in quadrature to the photon noise (as ``gcplan recover``).
-NOISE_FLOOR_MAG = 0.01
-MAG_PER_INVERSE_SNR = 2.5 / np.log(10.0)
 #: Seed of the recovery forecast's simulation (the forecast must be reproducible).
 FORECAST_SEED = 1
 
@@ -161,15 +158,27 @@ def check_fits_the_night(campaign: Campaign, exposures: dict, frame) -> None:
                                 campaign.source)
 
 
+def night_index(campaign: Campaign, night: dt.date) -> int:
+    """Where ``night`` falls among the campaign's nights; a :class:`CampaignError` if it is not one."""
+    if night not in campaign.nights:
+        raise CampaignError(f"{night} is not a night of the campaign ({campaign.nights[0]} to "
+                            f"{campaign.nights[-1]})", campaign.source)
+    return campaign.nights.index(night)
+
+
+def plan_campaign_night(campaign: Campaign, night: dt.date, seeing_arcsec: float | None = None):
+    """The plan of one campaign night, the campaign planned up to it (earlier nights'
+    progress counts), and the requests it was planned from."""
+    plan, requests, _covered = plan_through_night(campaign, night, seeing_arcsec)
+    return plan, requests
+
+
 def plan_through_night(campaign: Campaign, night: dt.date, seeing_arcsec: float | None = None):
     """The campaign planned from its first night up to ``night`` (earlier nights' progress
     counts).  Returns that night's plan, its requests, and the phase bins covered before it."""
     from dataclasses import replace
 
-    if night not in campaign.nights:
-        raise CampaignError(f"{night} is not a night of the campaign ({campaign.nights[0]} to "
-                            f"{campaign.nights[-1]})", campaign.source)
-    k = campaign.nights.index(night)
+    k = night_index(campaign, night)
     state: dict = {}
     plan = plan_campaign(replace(campaign, nights=campaign.nights[: k + 1]), seeing_arcsec=seeing_arcsec,
                          forecast=False, _state=state)
@@ -257,16 +266,20 @@ def forecast_variables(campaign: Campaign, plans, exposures) -> tuple[dict, dict
         phases,
     )
     from planner.variables.recovery import (
+        NOISE_FLOOR_MAG,
         OOSTERHOFF_I,
+        RECOVERY_TOLERANCE,
         StarSample,
         bailey_amplitude_mag,
         simulate_recovery,
+        visit_noise_mag,
     )
 
     c = campaign.cadence
     by_norm = {normalize_name(t.name): t for t in campaign.targets}
     rng = np.random.default_rng(FORECAST_SEED)
-    coverage, recovery = {"phase_bins": c.phase_bins, "clusters": []}, {"clusters": [], "tolerance": 1e-3}
+    coverage = {"phase_bins": c.phase_bins, "clusters": []}
+    recovery = {"clusters": [], "tolerance": RECOVERY_TOLERANCE}
     total_rec, total_n = 0.0, 0
     for name in dict.fromkeys(_cluster_of(v, by_norm).name for v in campaign.variables
                               if _cluster_of(v, by_norm) is not None):
@@ -304,8 +317,7 @@ def forecast_variables(campaign: Campaign, plans, exposures) -> tuple[dict, dict
         mean = np.array([s.mean_mag if s.mean_mag is not None else 16.0 for s in stars])
         exp = exposures[("variables", name)][0]
         snr = np.asarray(snr_of_exposure(campaign.site, exp.filter, mean, exp.exposure_s), dtype=float)
-        snr = snr * np.sqrt(exp.frames)
-        sigma = np.hypot(MAG_PER_INVERSE_SNR / np.maximum(snr, 1e-6), NOISE_FLOOR_MAG)
+        sigma = visit_noise_mag(snr * np.sqrt(exp.frames))
         sample = StarSample(tuple(ids), period, amp, sim_types, np.array([s.epoch_hjd for s in stars]))
         result, _ = simulate_recovery(hjd, sample, mean, sigma, rng)
         recovery["clusters"].append({**entry, "recovered_fraction": round(result.recovered_fraction, 4),

@@ -1,7 +1,7 @@
 """The Sun and Moon of a run of nights, computed once, and each night's usable window.
 
 Shared by every night of a campaign (:mod:`planner.scheduling.campaign`) and by the
-one-night commands; also the ad-hoc requests of ``gcplan schedule --visit``.
+one-night commands; also the ad-hoc requests of a one-night schedule (every target once, one visit).
 """
 
 from __future__ import annotations

@@ -33,7 +33,8 @@ greediness leaves idle.
 
 Constraints hold over each visit's whole duration, from the start of its
 slew to its last readout, on the slot grid with a small safety margin
-(:data:`MARGIN_DEG`), checked independently by :mod:`planner.scheduling.validate`.
+(:data:`MARGIN_DEG`), checked independently by the tests (astropy's full AltAz,
+tests/helpers/validate.py).
 """
 
 from __future__ import annotations

@@ -1,12 +1,12 @@
 """Re-planning the rest of a night from a given moment.
 
-Rules (issue 5):
+Rules:
 
 * **Nothing before ``now`` changes.**  The night's plan is made exactly as
   ``gcplan schedule`` makes it; its visits that started before ``now`` are kept
   with their times, marked *done*, *under way* (started, not finished) or
-  *missed* (not done: not in ``--done``/the logbook when either says what was
-  done, or — when neither does — inside a closed period).
+  *missed* (not done: not among the visits said to be done nor in the logbook
+  when either says what was done, or — when neither does — inside a closed period).
 * **What changed:** closed periods after ``now``, a new seeing (every goal's
   frames recomputed by the exposure core; goals whose seeing limit is now
   exceeded wait for another night), a missed visit (its request wants time
@@ -20,69 +20,13 @@ Rules (issue 5):
 from __future__ import annotations
 
 import datetime as dt
-import re
 from dataclasses import dataclass, replace
 
-from planner.errors import DateError
 from planner.scheduling.night import NightPlan, plan_night
-from planner.sky.nights import datetime_to_jd, iso_utc
+from planner.sky.nights import iso_utc
 
 #: A logbook entry counts for a planned visit when it starts this close to the visit (days).
 LOG_MATCH_D = 10.0 / 1440.0
-_HHMM = re.compile(r"^\s*(\d{1,2}):(\d{2})\s*$")
-
-
-def _local_clock(hh: int, mm: int, night: dt.date, zone: str, option: str, text: str) -> float:
-    from zoneinfo import ZoneInfo
-
-    if not (0 <= hh <= 23 and 0 <= mm <= 59):
-        raise DateError(f"{option} {text!r}: {hh:02d}:{mm:02d} is not a clock time (00:00..23:59)")
-    day = night if hh >= 12 else night + dt.timedelta(days=1)  # the night runs from noon to noon
-    return datetime_to_jd(dt.datetime.combine(day, dt.time(hh, mm), tzinfo=ZoneInfo(zone)))
-
-
-def parse_moment(text: str, night: dt.date, zone: str, option: str = "--now") -> float:
-    """JD (UTC) of ``text``: ISO 8601 with a zone (``2027-01-06T03:10Z``, ``...-03:00``), an ISO
-    date-time without one (the site's local time), or a local clock time ``HH:MM`` on the night."""
-    from zoneinfo import ZoneInfo
-
-    m = _HHMM.match(text)
-    if m:
-        return _local_clock(int(m[1]), int(m[2]), night, zone, option, text)
-    try:
-        moment = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00").replace("z", "+00:00"))
-    except ValueError:
-        raise DateError(f"{option} {text!r} is not a moment: give ISO 8601 such as 2027-01-06T03:10Z "
-                        "(or with an offset, or local time without one) or a local HH:MM") from None
-    if moment.tzinfo is None:
-        moment = moment.replace(tzinfo=ZoneInfo(zone))
-    return datetime_to_jd(moment)
-
-
-def parse_now(text: str, night: dt.date, zone: str) -> float:
-    jd = parse_moment(text, night, zone, "--now")
-    from planner.sky.nights import local_noon_jd
-
-    start, end = local_noon_jd(night, zone), local_noon_jd(night + dt.timedelta(days=1), zone)
-    if not start <= jd <= end:
-        raise DateError(f"--now {text!r} is not in the night of {night} (local noon to noon)")
-    return jd
-
-
-def parse_closed(text: str, night: dt.date, zone: str) -> tuple[float, float]:
-    """``START/END`` (ISO 8601, as :func:`parse_moment`) or local ``HH:MM-HH:MM``."""
-    m = re.fullmatch(r"\s*(\d{1,2}:\d{2})\s*-\s*(\d{1,2}:\d{2})\s*", text)
-    if m:
-        a, b = (parse_moment(x, night, zone, "--closed") for x in (m[1], m[2]))
-    elif "/" in text:
-        left, _, right = text.partition("/")
-        a, b = parse_moment(left, night, zone, "--closed"), parse_moment(right, night, zone, "--closed")
-    else:
-        raise DateError(f"--closed {text!r}: give START/END in ISO 8601 (2027-01-06T02:00Z/2027-01-06T03:30Z) "
-                        "or local HH:MM-HH:MM (23:10-00:40)")
-    if b <= a:
-        raise DateError(f"--closed {text!r}: the end ({iso_utc(b)}) is not after the start ({iso_utc(a)})")
-    return a, b
 
 
 @dataclass(frozen=True)

@@ -26,7 +26,7 @@ from planner.errors import InputError
 
 
 class VisitError(InputError):
-    """A visit specification that cannot be used (an --visit option, a campaign goal)."""
+    """A visit specification that cannot be used (a command-line visit, a campaign goal)."""
 
 
 @dataclass(frozen=True)
@@ -135,9 +135,11 @@ def setup_s(site, slew_deg, first_filter_changes):
             + np.where(first_filter_changes, tel.filter_change_s, 0.0))
 
 
-def parse_visit_spec(text: str, site, option: str = "--visit") -> tuple[Exposure, ...]:
+def parse_visit_spec(text: str, site, option: str = "visit") -> tuple[Exposure, ...]:
     """``"filter=V,frames=2,exposure=300"``; several sequences joined with ``;``
-    (``"filter=V,frames=2,exposure=300;filter=I,frames=3,exposure=120"``)."""
+    (``"filter=V,frames=2,exposure=300;filter=I,frames=3,exposure=120"``).
+
+    ``option`` names where the text came from in the messages (a command passes its option)."""
     out = []
     for part in [p for p in text.split(";") if p.strip()]:
         fields = {}

@@ -10,17 +10,14 @@ over its distance: 14.7′–16.8′), the convention of the almanacs.  Events t
 midnight sun, polar night, a summer night that never gets astronomically
 dark, a night without a moonrise — are NaN here and ``null`` in JSON.
 
-Two paths give the same :class:`Almanac`:
-
-* :func:`almanac_for_nights` — the fast path for any number of nights: the Sun
-  and Moon come from one :class:`~planner.ephemeris.Ephemeris`, evaluated on a
-  10-minute grid over each night; crossings are bracketed on the grid and
-  refined by regula falsi (Illinois variant) to well under a second.
-* :func:`night_almanac_astroplan` — one night through astroplan's ``Observer``
-  (slower: about 0.02 s per twilight and 0.08 s per moonrise at its default
-  resolution).  Tests hold the fast path to it within a minute; ``gcplan
-  night`` uses the fast path too, so that one night and a semester never
-  disagree.
+:func:`almanac_for_nights` computes any number of nights: the Sun and Moon
+come from one :class:`~planner.sky.ephemeris.Ephemeris`, evaluated on a
+10-minute grid over each night; crossings are bracketed on the grid and
+refined by regula falsi (Illinois variant) to well under a second.  ``gcplan
+night`` uses it too, so that one night and a semester never disagree.
+The night command's cross-check recomputes a night with astroplan's
+``Observer`` (:mod:`planner.reports.cross_check`), which the tests also hold
+this path to, within a minute.
 """
 
 from __future__ import annotations
@@ -285,71 +282,3 @@ def dark_windows_jd(
     nights = [first_night + dt.timedelta(days=i) for i in range(n_nights)]
     start, end = almanac_for_nights(site, nights).dark_window_jd(twilight)
     return np.column_stack([start, end])
-
-
-def night_almanac_astroplan(site: SiteProfile, night: dt.date) -> Almanac:
-    """One night through astroplan's Observer: the slow, independent path.
-
-    astroplan's rise/set horizon defaults to 0°; the almanac's −0.833° is
-    passed explicitly.  Its ``Observer`` uses no refraction unless given a
-    pressure, so altitudes are geometric, as in the fast path.  Its default
-    150-point grid over 24 h interpolates linearly between samples 10 minutes
-    apart, which misplaces grazing events at high latitude by a minute or
-    more (a moonrise at 64° N rising 0.004°/min came out 72 s early): a
-    1-minute grid makes it a reference.
-    """
-    import astropy.units as u
-    from astroplan import Observer
-    from astropy.coordinates import EarthLocation
-    from astropy.time import Time
-
-    loc = site.location
-    observer = Observer(
-        location=EarthLocation.from_geodetic(loc.longitude_deg * u.deg, loc.latitude_deg * u.deg, loc.elevation_m * u.m),
-        timezone=loc.timezone,
-    )
-    span_start, span_end = night_spans_jd([night], loc.timezone)
-    t0 = Time(span_start[0], format="jd", scale="utc")
-    grid = {"n_grid_points": 1441}
-
-    def within(t):
-        jd = float(np.ma.filled(np.ma.masked_invalid(np.atleast_1d(t.jd)), np.nan)[0]) if t is not None else np.nan
-        return jd if span_start[0] <= jd <= span_end[0] else np.nan
-
-    horizon = SUNRISE_ALTITUDE_DEG * u.deg
-    sunset = within(observer.sun_set_time(t0, which="next", horizon=horizon, **grid))
-    after = Time(sunset, format="jd") if np.isfinite(sunset) else t0
-    sunrise = within(observer.sun_rise_time(after, which="next", horizon=horizon, **grid))
-    evening, morning = {}, {}
-    for name in TWILIGHTS:
-        h = TWILIGHT_ALTITUDE_DEG[name] * u.deg
-        ev = within(observer.sun_set_time(t0, which="next", horizon=h, **grid))
-        start = Time(ev, format="jd") if np.isfinite(ev) else t0
-        mo = within(observer.sun_rise_time(start, which="next", horizon=h, **grid))
-        evening[name], morning[name] = np.array([ev]), np.array([mo])
-    m_h = MOONRISE_ALTITUDE_DEG * u.deg
-    moonrise = within(observer.moon_rise_time(t0, which="next", horizon=m_h, **grid))
-    moonset = within(observer.moon_set_time(t0, which="next", horizon=m_h, **grid))
-    middle = (sunset + sunrise) / 2.0 if np.isfinite(sunset) and np.isfinite(sunrise) else np.nan
-    if not np.isfinite(middle):
-        middle = float(observer.midnight(t0, which="next").jd)
-    t_mid = Time(middle, format="jd")
-    samples = Time(np.linspace(span_start[0], span_end[0], 289), format="jd")
-    sun_alt = observer.sun_altaz(samples).alt.degree
-    return Almanac(
-        nights=(night,),
-        timezone=loc.timezone,
-        span_start_jd=span_start,
-        span_end_jd=span_end,
-        sunset_jd=np.array([sunset]),
-        sunrise_jd=np.array([sunrise]),
-        evening_jd=MappingProxyType(evening),
-        morning_jd=MappingProxyType(morning),
-        moonrise_jd=np.array([moonrise]),
-        moonset_jd=np.array([moonset]),
-        middle_jd=np.array([middle]),
-        moon_illumination=np.array([float(observer.moon_illumination(t_mid))]),
-        moon_phase_angle_deg=np.array([float(observer.moon_phase(t_mid).to_value(u.deg))]),
-        sun_min_altitude_deg=np.array([sun_alt.min()]),
-        sun_max_altitude_deg=np.array([sun_alt.max()]),
-    )

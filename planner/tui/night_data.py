@@ -30,12 +30,12 @@ class NightData:
 
 def campaign_night_data(campaign, night: dt.date, seeing_arcsec: float | None = None) -> NightData:
     """Almanac, target windows and (for a campaign night) the plan of ``night``."""
-    from planner.commands.schedule import plan_campaign_night
+    from planner.scheduling.campaign import plan_campaign_night
 
     run = run_of_nights(campaign.site, list(campaign.targets), [night], campaign.constraints)
     if night not in campaign.nights:
         note = (f"{night} is not a night of this campaign "
                 f"({campaign.nights[0]} to {campaign.nights[-1]}): no plan")
         return NightData(night, run, None, note)
-    plan, _requests, _ = plan_campaign_night(campaign, night, seeing_arcsec)
+    plan, _requests = plan_campaign_night(campaign, night, seeing_arcsec)
     return NightData(night, run, plan)

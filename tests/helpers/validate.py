@@ -16,8 +16,8 @@ start, the middle, the end and a few points between.  It then checks:
 * that no two visits overlap;
 * that the airmass and Moon separation the plan reports agree with astropy.
 
-It returns the problems as text (empty: the plan passes).  Used by the tests;
-the shell may run it too (``gcplan schedule`` does not, to stay fast).
+It returns the problems as text (empty: the plan passes).  Test code only: it
+lives beside the tests, outside the package.
 """
 
 from __future__ import annotations
@@ -47,25 +47,12 @@ def validate_plan(site, plan, requests=None) -> list[str]:
     from astropy.coordinates import AltAz, EarthLocation, SkyCoord, get_body
     from astropy.time import Time
 
-    problems: list[str] = []
     visits = [v for v in plan.visits if v.status in ("planned", "done", "under way")]
     if not visits:
-        return problems
+        return []
+    problems = _timing_problems(plan, visits)
     c = plan.constraints
     by_key = {q.key: q for q in (requests or [])}
-    order = sorted(visits, key=lambda v: v.start_jd)
-    for a, b in zip(order, order[1:]):
-        if b.start_jd < a.end_jd - TIME_TOL_D:
-            problems.append(f"visits {a.id} ({a.target}) and {b.id} ({b.target}) overlap")
-    for v in visits:
-        if not (v.start_jd <= v.science_start_jd <= v.end_jd):
-            problems.append(f"visit {v.id}: start, science start and end out of order")
-        if v.start_jd < plan.window_start_jd - TIME_TOL_D or v.end_jd > plan.window_end_jd + TIME_TOL_D:
-            problems.append(f"visit {v.id} ({v.target}) lies outside the usable window")
-        for a, b in plan.closed:
-            if v.start_jd < b - TIME_TOL_D and v.end_jd > a + TIME_TOL_D and v.status == "planned":
-                problems.append(f"visit {v.id} ({v.target}) falls in a closed period")
-
     frac = np.linspace(0.0, 1.0, POINTS_PER_VISIT)
     jd = np.array([v.start_jd + (v.end_jd - v.start_jd) * frac for v in visits])  # (V, P)
     loc = site.location
@@ -123,6 +110,24 @@ def validate_plan(site, plan, requests=None) -> list[str]:
         if abs(v.moon_separation_deg - mid_sep) > REPORTED_MOON_TOL_DEG:
             problems.append(f"visit {v.id} ({v.target}): reported Moon separation {v.moon_separation_deg:.1f}°, "
                             f"astropy {mid_sep:.1f}°")
+    return problems
+
+
+def _timing_problems(plan, visits) -> list[str]:
+    """Overlaps, visits out of order, outside the usable window or in a closed period."""
+    problems = []
+    order = sorted(visits, key=lambda v: v.start_jd)
+    for a, b in zip(order, order[1:]):
+        if b.start_jd < a.end_jd - TIME_TOL_D:
+            problems.append(f"visits {a.id} ({a.target}) and {b.id} ({b.target}) overlap")
+    for v in visits:
+        if not (v.start_jd <= v.science_start_jd <= v.end_jd):
+            problems.append(f"visit {v.id}: start, science start and end out of order")
+        if v.start_jd < plan.window_start_jd - TIME_TOL_D or v.end_jd > plan.window_end_jd + TIME_TOL_D:
+            problems.append(f"visit {v.id} ({v.target}) lies outside the usable window")
+        for a, b in plan.closed:
+            if v.start_jd < b - TIME_TOL_D and v.end_jd > a + TIME_TOL_D and v.status == "planned":
+                problems.append(f"visit {v.id} ({v.target}) falls in a closed period")
     return problems
 
 

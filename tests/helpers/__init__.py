@@ -1,0 +1,1 @@
+"""Test-only code: independent references the tests hold gcplan to, and writers of test inputs."""
