@@ -297,6 +297,7 @@ def _compare_with_astroplan(spec, tz, night):
         assert abs(fast.middle_jd[0] - slow.middle_jd[0]) < ONE_MINUTE_D
 
 
+@pytest.mark.slow
 def test_fast_path_vs_astroplan_demo():
     _compare_with_astroplan("demo", None, "2027-05-12")
 
