@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import re
 
 import pytest
 
@@ -81,11 +82,21 @@ def test_text_reads_like_an_observers_note(capsys):
 
 
 def test_plot_is_written(tmp_path, capsys):
+    from figure_reading import figures_saved
+
     path = tmp_path / "snr.png"
-    status, out, _ = gcplan(["expose", "--site", "demo", "--filter", "V", "--mag", "11", "--snr", "2000",
-                             "--plot", str(path)], capsys)
+    with figures_saved() as saved:
+        status, out, _ = gcplan(["expose", "--site", "demo", "--filter", "V", "--mag", "11", "--snr", "2000",
+                                 "--plot", str(path)], capsys)
     assert status == 0 and "plot written" in out
-    assert path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    # The figure written shows the choice the note prints (what else it draws is
+    # checked in tests/test_figures.py).
+    assert path.exists() and len(saved) == 1
+    take = re.search(r"Take (\d+) x ([\d.]+) s", out)
+    assert take, out
+    chosen = [ln for ln in saved[0].axes[0].lines if ln.get_label().startswith("chosen:")]
+    assert len(chosen) == 1 and chosen[0].get_xdata()[0] == pytest.approx(float(take[2]))
+    assert chosen[0].get_label() == f"chosen: {take[1]} × {float(take[2]):g} s"
 
 
 @pytest.mark.parametrize("argv, words", [
