@@ -24,9 +24,9 @@ Outside references
     module neglects (< 0.1 minute of a sunset).
 
 * astroplan's ``Observer`` through :func:`planner.almanac.night_almanac_astroplan`
-  (the design names astroplan for the Moon and twilight).
+  (a second, slower computation of the Moon and the twilights with astropy).
 
-Every event is held to 1 minute (the issue's bound); measured agreement is
+Every event is held to 1 minute (gcplan's required accuracy); measured agreement is
 far better for the Sun (≤ 0.06 min) and within 0.8 min for the Moon at
 64.1°N, where it rises slowly and at a slant.
 """

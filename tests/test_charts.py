@@ -11,7 +11,8 @@ Outside references:
 * the altitude curves, read back at their drawn times, are held to skyfield's
   apparent altitude (no refraction) of the catalog position;
 * the airmass scale is held to Kasten & Young (1989), Applied Optics 28, 4735,
-  eq. 3, written out here, and its check value 1.9943 at 30° (REFERENCES.md).
+  eq. 3, written out here, and its check value 1.9943 at 30° (tests/REFERENCES.md,
+  "Airmass").
 """
 
 from __future__ import annotations

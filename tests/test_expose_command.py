@@ -17,7 +17,7 @@ from planner.errors import InputError
 from planner.inputs.sites import resolve_site
 from planner.light.exposure import exposure_for_snr
 
-ISSUE_FIELDS = ("filter", "magnitude", "level", "target", "snr_goal", "exposure_s", "frames", "frame_s",
+REQUIRED_FIELDS = ("filter", "magnitude", "level", "target", "snr_goal", "exposure_s", "frames", "frame_s",
                 "snr_reached", "saturation_s", "sky_mag_arcsec2", "source_e_per_s", "sky_e_per_s_per_pixel",
                 "aperture_radius_arcsec", "aperture_pixels", "enclosed_fraction", "inputs", "warnings")
 INPUT_FIELDS = ("airmass", "seeing_fwhm_arcsec", "moon_illumination", "moon_separation_deg", "moon_altitude_deg",
@@ -38,12 +38,12 @@ def gcplan(argv, capsys):
     return status, out, err
 
 
-def test_json_has_the_issue_fields(capsys):
+def test_json_has_the_required_fields(capsys):
     status, out, _ = gcplan(["expose", "--site", "demo", "--filter", "V", "--mag", "17.5", "--snr", "80", "--json"],
                             capsys)
     assert status == 0
     data = json.loads(out)
-    for key in ISSUE_FIELDS:
+    for key in REQUIRED_FIELDS:
         assert key in data
     for key in INPUT_FIELDS:
         assert key in data["inputs"]

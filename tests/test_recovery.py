@@ -217,8 +217,9 @@ def test_population_statistics(model, mean_ab, mean_c, overtone):
     assert rrc.mean() == pytest.approx(overtone, abs=0.03)
     assert stars.period_d[~rrc].mean() == pytest.approx(mean_ab, abs=0.015)
     assert stars.period_d[rrc].mean() == pytest.approx(mean_c, abs=0.015)
-    # All RR Lyrae periods 0.2–1.0 d and A_V below 2 mag (Catelan & Cortés 2008;
-    # REFERENCES.md [S]); RRc amplitudes 0.3–0.6 mag (REFERENCES.md [M]).
+    # All RR Lyrae periods 0.2–1.0 d and A_V below 2 mag (Catelan & Cortés 2008, read);
+    # RRc amplitudes 0.3–0.6 mag (from memory); tests/REFERENCES.md, "RR Lyrae and the
+    # horizontal branch".
     assert stars.period_d.min() >= 0.2 and stars.period_d.max() <= 1.0
     assert stars.amplitude_mag.max() < 2.0
     assert np.all((stars.amplitude_mag[rrc] >= 0.3) & (stars.amplitude_mag[rrc] <= 0.6))

@@ -6,7 +6,7 @@ for altitude and azimuth, ``HADec`` (same options) for the hour angle, and
 ``get_body("moon"/"sun", t, location=...)`` in the same AltAz frame for the
 separations as the observer sees them — for the whole bundled catalog at a
 few hundred instants over a year, and for random targets at random sites
-(hypothesis).  The issue's accuracy: altitude within 0.01°.
+(hypothesis).  gcplan's altitudes must be within 0.01°.
 Airmass: Kasten & Young 1989, Applied Optics 28, 4735, eq. 3, written out here.
 """
 
@@ -55,7 +55,7 @@ def year_ephemeris():
 
 
 def kasten_young(alt_deg):
-    """Kasten & Young 1989 eq. 3, as quoted in REFERENCES.md (independent of planner.sky.airmass)."""
+    """Kasten & Young 1989 eq. 3 (tests/REFERENCES.md, "Airmass"; independent of planner.sky.airmass)."""
     h = np.asarray(alt_deg, dtype=float)
     return 1.0 / (np.sin(np.radians(h)) + 0.50572 * (h + 6.07995) ** -1.6364)
 
@@ -115,7 +115,7 @@ def _compare(grid, ref, dec):
     }
 
 
-# Bounds (degrees).  Altitude: the issue's 0.01° (measured 0.0009° over the
+# Bounds (degrees).  Altitude: gcplan's required 0.01° (measured 0.0009° over the
 # catalog: annual aberration, precession and nutation are astropy's own,
 # interpolated between 15-day epochs; diurnal aberration, 0.3″, and polar
 # motion are what the module leaves out).  Azimuth and hour angle as arcs: the
@@ -199,7 +199,7 @@ def test_horizon_mask_interpolates_and_wraps():
 
 
 def test_altitude_limit_is_the_stricter_one():
-    # Kasten & Young give 1.9943 at h = 30° (REFERENCES.md table), so that
+    # Kasten & Young give 1.9943 at h = 30° (tests/REFERENCES.md, "Airmass"), so that
     # airmass limit is the 30° altitude limit; 2.0 lies just below 30° (sec z
     # would put it at exactly 30°).
     assert Constraints(20.0, 1.9943, "nautical", 0.0).altitude_limit_deg == pytest.approx(30.0, abs=2e-3)

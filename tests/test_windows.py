@@ -67,7 +67,7 @@ def targets_named(names, catalog):
 
 
 def kasten_young(alt_deg):
-    """Kasten & Young 1989 eq. 3 (REFERENCES.md), written independently of planner.airmass."""
+    """Kasten & Young 1989 eq. 3 (tests/REFERENCES.md, "Airmass"), written independently of planner.sky.airmass."""
     h = np.asarray(alt_deg, dtype=float)
     with np.errstate(invalid="ignore"):
         x = 1.0 / (np.sin(np.radians(h)) + 0.50572 * (h + 6.07995) ** -1.6364)

@@ -1,6 +1,6 @@
 """Re-planning the rest of a night from a given moment.
 
-Rules (issue 5):
+Rules:
 
 * **Nothing before ``now`` changes.**  The night's plan is made exactly as
   ``gcplan schedule`` makes it; its visits that started before ``now`` are kept
