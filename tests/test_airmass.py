@@ -1,9 +1,9 @@
 """Tests for planner.sky.airmass: Kasten & Young (1989) air mass and its inverse.
 
 Outside reference: Kasten, F. & Young, A. T. 1989, Applied Optics 28, 4735,
-eq. 3; the check values in the airmass table of /work/shared/REFERENCES.md
-(computed from the formula as quoted there, and listed beside Hardie 1962,
-Young 1994 and Pickering 2002, which agree with it to ~1 % above 10°).
+eq. 3; the check values of tests/REFERENCES.md, "Airmass" (computed from the
+formula, and listed beside Hardie 1962, Young 1994 and Pickering 2002, which
+agree with it to ~1 % above 10°).
 """
 
 from __future__ import annotations
@@ -17,7 +17,7 @@ from planner.sky.airmass import airmass_kasten_young, altitude_for_airmass
 @pytest.mark.parametrize(
     "altitude_deg, expected",
     [
-        (30.0, 1.9943),  # REFERENCES.md airmass table, Kasten & Young 1989 column
+        (30.0, 1.9943),  # tests/REFERENCES.md, "Airmass", Kasten & Young 1989 column
         (10.0, 5.5860),
         (5.0, 10.3058),
     ],
@@ -38,7 +38,7 @@ def test_kasten_young_at_the_horizon_and_zenith():
 
 
 def test_between_published_formulas_at_10_degrees():
-    # REFERENCES.md table at h = 10°: Young 1994 5.5407, Hardie 1962 5.5979;
+    # tests/REFERENCES.md, "Airmass", at h = 10°: Young 1994 5.5407, Hardie 1962 5.5979;
     # Kasten & Young lies between the two and below sec z (5.7588).
     x = airmass_kasten_young(10.0)
     assert 5.5407 < x < 5.5979 < 5.7588

@@ -11,7 +11,8 @@ Outside references:
 * the altitude curves, read back at their drawn times, are held to skyfield's
   apparent altitude (no refraction) of the catalog position;
 * the airmass scale is held to Kasten & Young (1989), Applied Optics 28, 4735,
-  eq. 3, written out here, and its check value 1.9943 at 30° (REFERENCES.md).
+  eq. 3, written out here, and its check value 1.9943 at 30° (tests/REFERENCES.md,
+  "Airmass").
 """
 
 from __future__ import annotations
@@ -25,6 +26,7 @@ from zoneinfo import ZoneInfo
 import numpy as np
 import pytest
 
+from figure_reading import all_text
 from planner.config import configure_runtime
 from planner.errors import InputError
 from planner.inputs.catalog import load_catalog
@@ -125,15 +127,6 @@ def sky_spans(fig):
             x0, x1 = patch.get_x(), patch.get_x() + patch.get_width()
             out[gid[4:]] = (mdates.num2date(x0), mdates.num2date(x1))
     return out
-
-
-def all_text(fig) -> str:
-    texts = [t.get_text() for t in fig.texts]
-    for ax in fig.axes:
-        texts += [t.get_text() for t in ax.texts] + [ax.get_xlabel(), ax.get_ylabel()]
-    for legend in fig.legends:
-        texts += [t.get_text() for t in legend.get_texts()]
-    return "\n".join(texts)
 
 
 # --- figures build and save ----------------------------------------------------

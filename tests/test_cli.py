@@ -131,6 +131,7 @@ def test_bad_input_is_one_line_and_exit_2(capsys, argv, fragment):
     assert "Traceback" not in err
 
 
+@pytest.mark.slow
 def test_demo_writes_its_folder(tmp_path, capsys):
     out_dir = tmp_path / "demo-out"
     code, out, _ = run(capsys, "demo", "--out", str(out_dir), "--date", "2027-01-05")

@@ -9,7 +9,7 @@ Outside references
   random instants over a year at several sites.
 * Meeus, *Astronomical Algorithms*, 2nd ed., examples 47.a (the Moon's
   apparent place) and 48.a (illuminated fraction k = 0.6786, phase angle
-  69.0756°), 1992 April 12, 0h TD, as listed in /work/shared/REFERENCES.md.
+  69.0756°), 1992 April 12, 0h TD (tests/REFERENCES.md, "The Moon (Meeus)").
 * astroplan's ``moon_illumination`` and ``moon_phase_angle``.
 """
 
@@ -106,7 +106,7 @@ def test_sun_and_moon_against_astropy_altaz(year_ephemeris, lat, lon, elev):
     # dominates (documented "about 1e-3°", measured ≤ 2.1″ with half-day
     # samples); 10″ leaves room for that and for what the module neglects
     # (polar motion < 0.5″, diurnal aberration 0.3″), and is still a fifth of
-    # the issue's 0.01°.
+    # the 0.01° that gcplan's altitudes must meet.
     m_ra, m_dec, m_km = moon_radec_deg(eph, geo, jd)
     d_ra, d_dec = _sky_difference_arcsec(m_ra, m_dec, moon_ref.ra.degree, moon_ref.dec.degree)
     assert d_ra.max() < 10.0 and d_dec.max() < 10.0
@@ -114,7 +114,7 @@ def test_sun_and_moon_against_astropy_altaz(year_ephemeris, lat, lon, elev):
     # interpolation separates them (measured < 1 km); 5 km is 1.4e-5 of it.
     assert np.max(np.abs(m_km - moon_ref.distance.to_value(u.km))) < 5.0
 
-    # Altitudes, against astropy's full AltAz transform; the issue asks 0.01°.
+    # Altitudes, against astropy's full AltAz transform; gcplan's must be within 0.01°.
     # The Sun's is geocentric by design: its 8.8″ (0.0024°) parallax is
     # neglected, so it is held to 0.004° (measured 0.0026°).  The Moon's is
     # topocentric: held to 0.003° (10″, as above; measured 0.0006°).

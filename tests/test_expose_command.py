@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import re
 
 import pytest
 
@@ -16,7 +17,7 @@ from planner.errors import InputError
 from planner.inputs.sites import resolve_site
 from planner.light.exposure import exposure_for_snr
 
-ISSUE_FIELDS = ("filter", "magnitude", "level", "target", "snr_goal", "exposure_s", "frames", "frame_s",
+REQUIRED_FIELDS = ("filter", "magnitude", "level", "target", "snr_goal", "exposure_s", "frames", "frame_s",
                 "snr_reached", "saturation_s", "sky_mag_arcsec2", "source_e_per_s", "sky_e_per_s_per_pixel",
                 "aperture_radius_arcsec", "aperture_pixels", "enclosed_fraction", "inputs", "warnings")
 INPUT_FIELDS = ("airmass", "seeing_fwhm_arcsec", "moon_illumination", "moon_separation_deg", "moon_altitude_deg",
@@ -37,12 +38,12 @@ def gcplan(argv, capsys):
     return status, out, err
 
 
-def test_json_has_the_issue_fields(capsys):
+def test_json_has_the_required_fields(capsys):
     status, out, _ = gcplan(["expose", "--site", "demo", "--filter", "V", "--mag", "17.5", "--snr", "80", "--json"],
                             capsys)
     assert status == 0
     data = json.loads(out)
-    for key in ISSUE_FIELDS:
+    for key in REQUIRED_FIELDS:
         assert key in data
     for key in INPUT_FIELDS:
         assert key in data["inputs"]
@@ -81,11 +82,21 @@ def test_text_reads_like_an_observers_note(capsys):
 
 
 def test_plot_is_written(tmp_path, capsys):
+    from figure_reading import figures_saved
+
     path = tmp_path / "snr.png"
-    status, out, _ = gcplan(["expose", "--site", "demo", "--filter", "V", "--mag", "11", "--snr", "2000",
-                             "--plot", str(path)], capsys)
+    with figures_saved() as saved:
+        status, out, _ = gcplan(["expose", "--site", "demo", "--filter", "V", "--mag", "11", "--snr", "2000",
+                                 "--plot", str(path)], capsys)
     assert status == 0 and "plot written" in out
-    assert path.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    # The figure written shows the choice the note prints (what else it draws is
+    # checked in tests/test_figures.py).
+    assert path.exists() and len(saved) == 1
+    take = re.search(r"Take (\d+) x ([\d.]+) s", out)
+    assert take, out
+    chosen = [ln for ln in saved[0].axes[0].lines if ln.get_label().startswith("chosen:")]
+    assert len(chosen) == 1 and chosen[0].get_xdata()[0] == pytest.approx(float(take[2]))
+    assert chosen[0].get_label() == f"chosen: {take[1]} × {float(take[2]):g} s"
 
 
 @pytest.mark.parametrize("argv, words", [

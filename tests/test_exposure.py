@@ -62,7 +62,8 @@ def test_enclosed_fraction_against_scipy_rayleigh():
 
 
 def test_optimal_radius_background_limited():
-    # REFERENCES.md [C]: the background-limited optimum r = 0.673 FWHM encloses 0.715;
+    # Computed (tests/REFERENCES.md, "Signal-to-noise"): the background-limited optimum
+    # r = 0.673 FWHM encloses 0.715;
     # it maximises enclosed(r)/r (S/N ∝ f(r)/sqrt(n_pix)), found here with scipy.
     from scipy.optimize import minimize_scalar
 
@@ -73,7 +74,7 @@ def test_optimal_radius_background_limited():
 
 @pytest.mark.parametrize("fwhm_px, expected", [(1.0, 0.579), (2.0, 0.197), (3.0, 0.0932)])
 def test_peak_pixel_fraction_references(fwhm_px, expected):
-    # REFERENCES.md [C]: [erf(p / (2√2 σ))]² for FWHM 1, 2, 3 px
+    # Computed (tests/REFERENCES.md, "Signal-to-noise"): [erf(p / (2√2 σ))]² for FWHM 1, 2, 3 px
     assert float(ex.peak_pixel_fraction(fwhm_px)) == pytest.approx(expected, rel=2e-3)
 
 

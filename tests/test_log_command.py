@@ -150,6 +150,7 @@ def _page_sizes_pt(pdf_bytes: bytes) -> list[tuple[float, float]]:
     return [(float(w), float(h)) for w, h in re.findall(rb"/MediaBox \[ ?0 0 ([\d.]+) ([\d.]+) ?\]", pdf_bytes)]
 
 
+@pytest.mark.slow
 def test_print_text_and_pdf_on_a4_and_letter(tmp_path, book, capsys):
     from planner.inputs.sites import resolve_site
     from planner.sky.almanac import almanac_for_nights

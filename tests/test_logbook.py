@@ -198,10 +198,14 @@ def test_sigkill_at_random_moments_loses_nothing_and_doubles_nothing(tmp_path):
         finally:
             db.close()
 
-    seed = random.randrange(1 << 30)
+    # A fixed seed for the pauses before each kill, so the draws are the same every
+    # run (where the kills land still depends on the machine's speed: that is the
+    # point of the test).  The loop ends after 6 kills (about 6 s here); the 30-s cap
+    # is only there so that a slow, loaded machine still gets its 3 kills in.
+    seed = 20270513
     rng = random.Random(seed)
     kills_mid_way, started = 0, time.monotonic()
-    while kills_mid_way < 6 and time.monotonic() - started < 12:
+    while kills_mid_way < 6 and time.monotonic() - started < 30:
         before = count()
         if before == n:
             break

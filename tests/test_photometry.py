@@ -1,6 +1,9 @@
 """Checks of planner.light.photometry against published values and reference libraries.
 
 Each check names its source beside it.  "from memory" marks numbers recalled, not read.
+The values and how each was obtained are listed in tests/REFERENCES.md (sections
+"Zero points", "Interstellar extinction", "Moonlit sky: Krisciunas & Schaefer 1991",
+"Site sky and extinction", "Tip of the red-giant branch", "RR Lyrae and the horizontal branch").
 """
 
 from __future__ import annotations
@@ -38,9 +41,10 @@ def test_photon_rates_bessell_table_a2_via_astropy_spectral_density(band):
     assert ph.zero_mag_photon_flux(band) == pytest.approx(expected.value, rel=1e-6)
 
 
-@pytest.mark.parametrize("band, photons", [("U", 769), ("B", 1394), ("V", 996), ("R", 703), ("I", 452)])
+@pytest.mark.parametrize("band, photons", [("U", 769), ("B", 1394), ("V", 996), ("R", 702), ("I", 452)])
 def test_photon_rates_match_the_computed_column_of_references(band, photons):
-    # REFERENCES.md, Bessell et al. 1998 Table A2 photons column [C] (rounded to 1 photon).
+    # Bessell et al. 1998 Table A2, photons computed from f_λ and rounded to 1 photon
+    # (tests/REFERENCES.md, "Zero points"; R is 702.49).
     assert ph.zero_mag_photon_flux(band) == pytest.approx(photons, abs=1.0)
 
 
@@ -49,7 +53,7 @@ def test_v_zero_gives_about_1000_photons_per_s_cm2_angstrom():
     assert ph.zero_mag_photon_flux("V") == pytest.approx(1000.0, rel=0.05)
 
 
-# Cohen, Wheaton & Megeath 2003, AJ 126, 1090: f_ν (Jy) [S2, REFERENCES.md] and f_λ
+# Cohen, Wheaton & Megeath 2003, AJ 126, 1090: f_ν (Jy) (quoted, tests/REFERENCES.md) and f_λ
 # (1e-10 erg s⁻¹ cm⁻² Å⁻¹; J 3.129, H 1.133, Ks 0.4283, from memory).  Their f_ν and
 # f_λ refer to slightly different isophotal wavelengths, which differ by 2 % in H.
 COHEN_2003 = {"J": (1.235, 1594.0, 3.129), "H": (1.662, 1024.0, 1.133), "Ks": (2.159, 666.7, 0.4283)}
@@ -124,14 +128,14 @@ def test_interstellar_extinction_uses_sf11_table6():
 
 
 def test_nanolambert_conversion_ks91():
-    # Krisciunas & Schaefer 1991: B_zen = 79.0 nL is V = 21.587 mag/arcsec² (REFERENCES.md [S2])
+    # Krisciunas & Schaefer 1991: B_zen = 79.0 nL is V = 21.587 mag/arcsec² (tests/REFERENCES.md)
     assert float(ph.nanolamberts_to_mag(79.0)) == pytest.approx(21.587, abs=0.001)
     assert float(ph.mag_to_nanolamberts(21.587)) == pytest.approx(79.0, rel=1e-3)
 
 
 def test_ks91_moon_brightness_and_scattering_function():
     # Krisciunas & Schaefer 1991 Moon brightness and scattering function
-    # (REFERENCES.md check values [C]): I*(0) = 2.9107e-2, f(45°) = 4.6330e5
+    # (computed check values, tests/REFERENCES.md): I*(0) = 2.9107e-2, f(45°) = 4.6330e5
     assert float(ph.moon_brightness(0.0)) == pytest.approx(2.9107e-2, rel=1e-4)
     assert float(ph.scattering_function(45.0)) == pytest.approx(4.6330e5, rel=1e-4)
     # below 10° the Mie term is 6.2e7 ρ⁻² (K&S 1991)
@@ -140,8 +144,8 @@ def test_ks91_moon_brightness_and_scattering_function():
 
 
 @pytest.mark.parametrize("alpha, rho, z, zm, k, expected", [
-    (0.0, 90.0, 30.0, 30.0, 0.172, 1011.4),  # REFERENCES.md K&S check value [C]
-    (45.0, 50.0, 20.0, 70.0, 0.15, 389.5),   # REFERENCES.md K&S check value [C]
+    (0.0, 90.0, 30.0, 30.0, 0.172, 1011.4),  # computed K&S check value, tests/REFERENCES.md
+    (45.0, 50.0, 20.0, 70.0, 0.15, 389.5),   # computed K&S check value, tests/REFERENCES.md
 ])
 def test_ks91_moonlight_check_values(alpha, rho, z, zm, k, expected):
     assert float(ph.moonlight_nanolamberts(alpha, rho, zm, z, k)) == pytest.approx(expected, abs=0.1)
@@ -170,7 +174,8 @@ def test_dark_sky_off_zenith_ks91():
 
 
 # Walker 1987 (NOAO Newsletter 10), sky brightness against lunar age, from memory
-# (REFERENCES.md [M]).  Patat 2003 found Walker about 1 mag too optimistic in V at 6 days,
+# (tests/REFERENCES.md, "Site sky and extinction").  Patat 2003 found Walker about 1 mag
+# too optimistic in V at 6 days,
 # so the tolerance is loose: 1 mag.
 WALKER_AGE_D = (0, 3, 7, 10, 14)
 WALKER = {"V": (21.8, 21.7, 21.4, 20.7, 20.0), "B": (22.7, 22.4, 21.6, 20.7, 19.5),

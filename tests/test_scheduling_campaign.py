@@ -121,16 +121,23 @@ def test_campaign_json_contract(capsys, tmp_path):
 
 
 def test_schedule_campaign_form_text_ecsv_plot(capsys, tmp_path):
-    code, out, err = run(capsys, "schedule", "--campaign", DEMO, "--date", "2027-01-07",
-                         "--out", tmp_path / "p.ecsv", "--plot", tmp_path / "p.png")
+    from figure_reading import figures_saved
+
+    with figures_saved() as saved:
+        code, out, err = run(capsys, "schedule", "--campaign", DEMO, "--date", "2027-01-07",
+                             "--out", tmp_path / "p.ecsv", "--plot", tmp_path / "p.png")
     assert code == 0
     assert all(len(line) <= 80 for line in out.splitlines())
     assert "UTC" in out and "local" in out and "Caution" in out and "idle" in out
-    assert (tmp_path / "p.png").stat().st_size > 10_000
     from astropy.table import Table
 
     t = Table.read(tmp_path / "p.ecsv", format="ascii.ecsv")
     assert len(t) > 5 and "airmass_start" in t.colnames
+    # The figure written is this plan: one bar per visit of the table (what the bars
+    # show is checked in tests/test_figures.py).
+    assert (tmp_path / "p.png").exists() and len(saved) == 1
+    bars = [ln for ln in saved[0].axes[0].lines if (ln.get_gid() or "").startswith("visit:")]
+    assert len(bars) == len(t)
 
 
 def test_schedule_ad_hoc_json(capsys):

@@ -4,7 +4,8 @@ Outside references
 ------------------
 * Meeus, *Astronomical Algorithms*, 2nd ed. (1998), worked examples 12.a and
   12.b (sidereal time at Greenwich) and 13.b (altitude and azimuth of Venus
-  from the US Naval Observatory), values as listed in /work/shared/REFERENCES.md.
+  from the US Naval Observatory), values in tests/REFERENCES.md, "Sidereal time
+  and horizontal coordinates (Meeus)".
 * astropy's ``Time.sidereal_time(..., model="IAU1982")`` (ERFA ``gmst82``), the
   same IAU 1982 expression evaluated by an independent implementation.
 * For the closed-form hour angle at an altitude: a brute-force search on a
@@ -107,7 +108,7 @@ def test_meeus_13b_altitude_azimuth():
     theta0 = gmst_deg(JD_MEEUS_12B) + (-0.2317) / 240.0
     ha = theta0 + lon_east - ra  # Meeus eq. 13.x: H = θ0 − L − α, L west positive
     alt, az = altaz_deg(lat, dec, ha)
-    # 6e-4°: REFERENCES.md gives three decimals (rounding ±5e-4°).
+    # 6e-4°: Meeus gives three decimals (rounding ±5e-4°).
     assert abs(alt - 15.125) < 6e-4
     assert abs(wrap_180(az - (68.034 + 180.0))) < 6e-4
     assert abs(altitude_deg(lat, dec, ha) - alt) < 1e-12

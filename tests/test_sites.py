@@ -3,7 +3,7 @@
 Outside references: the collecting area and sec z are worked by hand (written
 out beside each check); the templates' sky and extinction are compared with the
 published values they cite (Patat 2003, A&A 400, 1183; Benn & Ellison 1998, La
-Palma Tech. Note 115, as listed in /work/shared/REFERENCES.md); time zones are
+Palma Tech. Note 115; tests/REFERENCES.md, "Site sky and extinction"); time zones are
 checked by zoneinfo against tzdata.
 """
 
@@ -139,7 +139,7 @@ def test_collecting_area_by_hand():
 
 
 @pytest.mark.parametrize("old, new, min_alt, max_am", [
-    # sec z at 30° is 2.0000 and at 10° 5.7588 (airmass table in REFERENCES.md)
+    # sec z at 30° is 2.0000 and at 10° 5.7588 (tests/REFERENCES.md, "Airmass")
     ("max_airmass = 2.2\n", "", 30.0, 2.0000),
     ("min_altitude_deg = 30\nmax_airmass = 2.2\n", "min_altitude_deg = 10\n", 10.0, 5.7588),
     # an airmass limit alone: the altitude limit is the horizon

@@ -172,7 +172,7 @@ def test_minimum_light_window_is_where_the_template_is_faint(shape, window):
 
 def test_rising_branch_lies_on_the_template_rise():
     # RRab rise time from minimum to maximum: 0.1–0.25 of the period is typical (from
-    # memory; cf. the "rise" durations of RRab ephemerides). The window 0.85–1.0
+    # memory; cf. the "rise" durations of RRab ephemerides). gcplan's rising-branch window 0.85–1.0
     # must then be on the rise of the adopted template.
     grid = np.linspace(0.0, 1.0, 4001)[:-1]
     m = template_magnitude(RRAB_SHAPE, grid)

@@ -17,8 +17,10 @@ on a 10-second grid over the whole night (local noon to local noon):
 minute, interpolated — see :func:`night_sky`.)
 
 Hours are the passing samples × 10 s; the window is the longest passing run,
-its edges half a step outside the first and last passing samples.  The issue
-asks window edges within 1 minute; hours are held to 2 minutes (two edges).
+its edges half a step outside the first and last passing samples.  Window
+edges must agree within 1 minute and hours within 2 minutes (two edges); a
+window shorter than the hours tolerance counts as no window, on either side
+(see :func:`_has_window`).
 """
 
 from __future__ import annotations
@@ -28,7 +30,7 @@ import datetime as dt
 
 import numpy as np
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, Phase, example, given, settings
 from hypothesis import strategies as st
 
 from planner.inputs.sites import resolve_site
@@ -65,7 +67,7 @@ def targets_named(names, catalog):
 
 
 def kasten_young(alt_deg):
-    """Kasten & Young 1989 eq. 3 (REFERENCES.md), written independently of planner.airmass."""
+    """Kasten & Young 1989 eq. 3 (tests/REFERENCES.md, "Airmass"), written independently of planner.sky.airmass."""
     h = np.asarray(alt_deg, dtype=float)
     with np.errstate(invalid="ignore"):
         x = 1.0 / (np.sin(np.radians(h)) + 0.50572 * (h + 6.07995) ** -1.6364)
@@ -232,6 +234,20 @@ def module_night(site, targets_or_radec, constraints, night):
     return visibility_for_nights(eph, geo, places, alm, constraints), alm, ra, dec
 
 
+def _has_window(start_jd: float, end_jd: float) -> bool:
+    """A window at least the hours tolerance long; anything shorter counts as none.
+
+    At the very edge of a limit a window can be seconds long on one side and
+    absent on the other, and both are right within the geometry's precision:
+    the Moon's separation from a target changes by about 0.5°/h, so 1e-3° of
+    separation is ~7 s of an edge; near culmination a target's altitude is
+    flatter still.  (A brute-force window of 30 s at the Moon limit that
+    gcplan did not report was such a case.)  The hours check still holds both
+    sides to HOURS_TOL_H, so nothing longer than that can go missing unnoticed.
+    """
+    return bool(np.isfinite(start_jd) and np.isfinite(end_jd) and (end_jd - start_jd) * 24.0 >= HOURS_TOL_H)
+
+
 def assert_matches_reference(vis, ref, names, label=""):
     problems = []
     for k, name in enumerate(names):
@@ -239,12 +255,12 @@ def assert_matches_reference(vis, ref, names, label=""):
         s, e = vis.window_start_jd[k, 0], vis.window_end_jd[k, 0]
         if abs(hours - ref.hours[k]) > HOURS_TOL_H:
             problems.append(f"{name}: {hours:.4f} h vs reference {ref.hours[k]:.4f} h")
-        if ref.hours[k] == 0.0:
-            if not (np.isnan(s) and np.isnan(e)) or hours != 0.0:
-                problems.append(f"{name}: reference never observable, module gives {hours} h {iso_utc(s)}..{iso_utc(e)}")
-            continue
+        if not (_has_window(s, e) or _has_window(ref.start_jd[k], ref.end_jd[k])):
+            continue  # no window on either side, or only ones shorter than the tolerance
+        # At least one side has a real window: the edges must agree (a missing
+        # window on the other side fails here: NaN is never within tolerance).
         for label_, got, want in (("start", s, ref.start_jd[k]), ("end", e, ref.end_jd[k])):
-            if not np.isfinite(got) or abs(got - want) > EDGE_TOL_D:
+            if not (np.isfinite(got) and np.isfinite(want)) or abs(got - want) > EDGE_TOL_D:
                 problems.append(f"{name}: window {label_} {iso_utc(got)} vs reference {iso_utc(want)}")
     assert not problems, f"{label}: " + "; ".join(problems)
 
@@ -441,7 +457,11 @@ def test_run_of_nights_is_visibility_for_nights(catalog):
 
 
 @pytest.mark.slow
-@settings(max_examples=6, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+# About 1.5 s an example (astropy on a 10-s grid): a handful of random cases a run,
+# derandomised in CI (tests/conftest.py), and no shrinking, which at that price once
+# took 329 s; a failure prints its reproducing blob and its arguments instead.
+@settings(max_examples=6, deadline=None, suppress_health_check=[HealthCheck.too_slow],
+          phases=[Phase.explicit, Phase.reuse, Phase.generate])
 @given(
     lat=st.floats(-60.0, 60.0),
     lon=st.floats(-180.0, 180.0),
@@ -453,6 +473,17 @@ def test_run_of_nights_is_visibility_for_nights(catalog):
     twilight=st.sampled_from(["civil", "nautical", "astronomical"]),
     solar_clock=st.booleans(),
 )
+# Cases at the edge of a limit that failed the comparison before short windows
+# counted as none (kept so they run every time):
+# the Moon limit: the brute force finds 30 s for the first target, between its
+# separation reaching 20° and its setting below 28.4558°; gcplan's separation
+# crosses 20° a few seconds later and leaves no window;
+@example(lat=31.5, lon=-110.0, ra=[52.48, 52.08, 51.68], dec=[27.25, 27.25, 27.25], day=133,
+         limit=28.4558, moon=20.0, twilight="astronomical", solar_clock=True)
+# the altitude limit at culmination: the first target culminates 1e-4° higher in
+# gcplan than in the brute force's highest sample, 45 s above the limit vs none.
+@example(lat=31.5, lon=-110.0, ra=[160.0, 200.0, 90.0], dec=[-40.0, 10.0, 60.0], day=120,
+         limit=18.355582, moon=0.0, twilight="nautical", solar_clock=False)
 def test_random_sites_and_targets_against_brute_force(lat, lon, ra, dec, day, limit, moon, twilight, solar_clock):
     # Either a fixed-offset zone near the site's solar time (Etc/GMT−N is N
     # hours east) or UTC, the default for a LAT,LON site, which can be up to

@@ -6,7 +6,7 @@ gcplan uses Kasten & Young (1989), Applied Optics 28, 4735, eq. 3:
 
 an interpolation formula for the relative optical air mass of a model
 atmosphere that stays finite down to the horizon (X ≈ 38 at h = 0), unlike
-sec z.  Check values (REFERENCES.md): 1.9943 at 30°, 5.5860 at 10°.
+sec z.  Check values (tests/REFERENCES.md, "Airmass"): 1.9943 at 30°, 5.5860 at 10°.
 Below the horizon the airmass is undefined: NaN.
 """
 

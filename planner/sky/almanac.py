@@ -1,6 +1,6 @@
 """The almanac of a night: sunset, sunrise, twilights, the Moon.
 
-Conventions (DESIGN.md): sunset and sunrise when the Sun's centre is at
+Conventions: sunset and sunrise when the Sun's centre is at
 −0.833° geometric altitude (upper limb on the horizon with standard
 refraction, the almanac convention); twilights end/begin at −6° (civil),
 −12° (nautical) and −18° (astronomical); moonrise and moonset when the

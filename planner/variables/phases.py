@@ -32,7 +32,7 @@ if TYPE_CHECKING:  # pragma: no cover - typing only
     from astropy.coordinates import EarthLocation
     from astropy.time import Time
 
-# RRab rising branch, phase 0.85–1.0: the definition, matching the rise time of
+# RRab rising branch, phase 0.85–1.0: gcplan's definition, matching the rise time of
 # 0.1–0.2 of a period typical of RRab light curves (from memory; the adopted RRab
 # template in planner.variables.recovery rises from minimum to maximum in 0.20 P).
 RRAB_RISING_BRANCH = (0.85, 1.0)

@@ -129,12 +129,13 @@ class PopulationModel:
 
 # Oosterhoff (1939) groups as summarised by Smith (1995, "RR Lyrae Stars", ch. 5):
 # ⟨P_ab⟩ ≈ 0.55 / 0.65 d, ⟨P_c⟩ ≈ 0.32 / 0.37 d, N_c/N_RR ≈ 0.17 / 0.44 (FROM MEMORY;
-# REFERENCES.md [M]). Clement et al. 2001 [S] give all-cluster means 0.585 / 0.342 d and
-# about 30 % overtones, between the two groups. Ranges: RRab 0.45–0.9 d, RRc 0.2–0.45 d,
-# RRc A_V 0.3–0.6 (REFERENCES.md [M]); Gaussian widths are a choice (from memory of the
-# spread in well-studied clusters). RRab amplitudes follow the Bailey-diagram locus of
-# M3 (Cacciari, Corwin & Carney 2005, AJ 129, 267; FROM MEMORY), shifted in log P by
-# +0.06 for Oosterhoff II (the Oosterhoff period shift, from memory).
+# tests/REFERENCES.md, "RR Lyrae and the horizontal branch"). Clement et al. 2001 (read)
+# give all-cluster means 0.585 / 0.342 d and about 30 % overtones, between the two
+# groups. Ranges: RRab 0.45–0.9 d, RRc 0.2–0.45 d, RRc A_V 0.3–0.6 (from memory);
+# Gaussian widths are a choice (from memory of the spread in well-studied clusters).
+# RRab amplitudes follow the Bailey-diagram locus of M3 (Cacciari, Corwin & Carney
+# 2005, AJ 129, 267; FROM MEMORY), shifted in log P by +0.06 for Oosterhoff II (the
+# Oosterhoff period shift, from memory).
 OOSTERHOFF_I = PopulationModel(
     name="oosterhoff-1",
     overtone_fraction=0.17,

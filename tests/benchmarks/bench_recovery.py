@@ -10,7 +10,7 @@ population, σ = 0.03 mag, 25 nights × 8 visits spread over a 8.4-hour dark win
 * baseline: astropy's ``LombScargle(t, y, dy, nterms=2).autopower(...)`` per star with
   its default grid (5 samples per peak) over the same 0.2–1.0 d range.
 
-The issue's goal is ours under 10 s on 2 cores.  The last line printed is the ratio
+The goal is ours under 10 s on 2 cores.  The last line printed is the ratio
 baseline time / our time.
 """
 
