@@ -209,8 +209,6 @@ def test_phase_shading_marks_rising_branch_only_for_rrab(phases_drawn):
         assert (int(round(y)) in red_rows) == (types[star_id] == "RRab"), star_id
 
 
-@pytest.mark.xfail(strict=True, reason="the phase-coverage figure has no caution footer yet "
-                   "(planner/reports/phase_plot.py)")
 def test_phase_figure_keeps_the_caution(phases_drawn):
     _, fig = phases_drawn
     assert SHORT_CAUTION in all_text(fig)

@@ -10,6 +10,7 @@ from typing import Sequence
 
 import numpy as np
 
+from planner.cautions import SHORT_CAUTION
 from planner.variables.phases import (
     RRAB_MINIMUM_LIGHT,
     RRAB_RISING_BRANCH,
@@ -33,7 +34,8 @@ def phase_coverage_axes(
     phases : ndarray, shape (n_stars, n_times); NaN = not observed
     types : star types (shade the rising branch for RRab, minimum light per type)
     n_bins : phase bins drawn as faint vertical lines
-    ax : matplotlib Axes, optional; a new Figure is made when omitted.
+    ax : matplotlib Axes, optional; a new Figure is made when omitted, with the
+        caution footer every gcplan figure carries.
 
     Returns
     -------
@@ -46,7 +48,13 @@ def phase_coverage_axes(
     types = list(types) if types is not None else [None] * n
     order = np.argsort(np.asarray(period_d, dtype=float), kind="stable")
     if ax is None:
-        fig = Figure(figsize=(8.0, 1.2 + 0.28 * max(n, 1)), layout="constrained")
+        height_in = 1.5 + 0.28 * max(n, 1)
+        fig = Figure(figsize=(8.0, height_in), layout="constrained")
+        # Keep a strip 0.3 in high at the bottom for the caution, outside the layout.
+        footer = 0.3 / height_in
+        fig.get_layout_engine().set(rect=(0.0, footer, 1.0, 1.0 - footer))
+        fig.text(0.01, 0.1 * footer, SHORT_CAUTION, fontsize=8, fontweight="bold", color="#862e2e",
+                 va="bottom")
         ax = fig.add_subplot()
     for edge in np.arange(1, n_bins) / n_bins:
         ax.axvline(edge, color="0.9", linewidth=0.5, zorder=0)
