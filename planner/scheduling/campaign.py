@@ -124,7 +124,7 @@ def night_requests(campaign: Campaign, exposures: dict, done: dict, urgency: dic
             t = by_name[name]
             out.append(VisitRequest(
                 key=f"{name}/{g.level}-{g.filter}", target=name, ra_deg=t.ra_deg, dec_deg=t.dec_deg,
-                purpose=g.level, exposures=exposures[(i, name)], priority=t.priority * g.weight * urgency.get(
+                purpose=g.level, exposures=exposures[(i, name)], priority=t.priority * g.priority * urgency.get(
                     (i, name), 1.0), count=1, max_airmass=g.max_airmass, dark=g.dark,
                 max_seeing_arcsec=g.max_seeing_arcsec, patient=True,
                 notes=(f"S/N {g.snr:g} at the {g.level} level",) + (("dark time",) if g.dark else ())))
@@ -140,7 +140,7 @@ def night_requests(campaign: Campaign, exposures: dict, done: dict, urgency: dic
             t = by_name[name]
             out.append(VisitRequest(
                 key=f"{name}/variables", target=name, ra_deg=t.ra_deg, dec_deg=t.dec_deg, purpose="variables",
-                exposures=exposures[("variables", name)], priority=t.priority * c.weight,
+                exposures=exposures[("variables", name)], priority=t.priority * c.priority,
                 count=c.visits_per_night, min_spacing_min=c.min_spacing_min,
                 phase_periods_d=tuple(v.period_d for v in stars), phase_epochs_jd=tuple(v.epoch_hjd for v in stars),
                 phase_bins=c.phase_bins, notes=(f"{len(stars)} RR Lyrae",)))
