@@ -27,7 +27,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from planner.errors import CampaignError
+from planner.errors import CampaignError, InputError
 from planner.model.campaign import Campaign
 from planner.model.names import normalize_name
 from planner.scheduling.frame import night_frame
@@ -81,7 +81,7 @@ def goal_exposures(campaign: Campaign, seeing_arcsec: float | None = None) -> di
                                        seeing_fwhm_arcsec=seeing, max_frame_s=campaign.max_frame_s)
             except CampaignError:
                 raise
-            except Exception as exc:  # an InputError from the exposure core: no way to meet the goal
+            except InputError as exc:  # from the exposure core: no way to meet the goal
                 raise CampaignError(f"[[goals]] #{i + 1} ({g.level} S/N {g.snr:g} in {g.filter}) for {name}: "
                                     f"{exc}", campaign.source) from None
             out[(i, name)] = (Exposure(g.filter, int(p.frames), float(p.frame_s)),)
@@ -105,14 +105,14 @@ def goal_exposures(campaign: Campaign, seeing_arcsec: float | None = None) -> di
                 else:
                     p = exposure_for_level(site, c.filter, science_level(t, "hb", band), c.snr,
                                            airmass=EXPOSURE_AIRMASS, seeing_fwhm_arcsec=seeing)
-            except Exception as exc:
+            except InputError as exc:  # from the exposure core, as for the goals
                 raise CampaignError(f"[cadence] S/N {c.snr:g} in {c.filter} for {t.name}: {exc}",
                                     campaign.source) from None
             out[("variables", t.name)] = (Exposure(c.filter, int(p.frames), float(p.frame_s)),)
     return out
 
 
-def night_requests(campaign: Campaign, exposures: dict, done: dict, urgency: dict, night_window_jd=None):
+def night_requests(campaign: Campaign, exposures: dict, done: dict, urgency: dict):
     """The requests of one night: open depth goals and the variable cadence."""
     by_name = {t.name: t for t in campaign.targets}
     out = []
