@@ -6,7 +6,7 @@ Pure computation over the sky and light cores.  May import :mod:`planner.model`,
 or the shells.
 
 * :mod:`~planner.scheduling.visits` — what a visit is and how long it takes.
-* :mod:`~planner.scheduling.frame` — the Sun and Moon once per run of nights,
+* :mod:`~planner.scheduling.night_sky` — the Sun and Moon once per run of nights,
   each night's usable window.
 * :mod:`~planner.scheduling.night` — one night's timed plan (dispatch with
   look-ahead, then a gap-filling local search).

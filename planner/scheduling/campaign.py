@@ -30,7 +30,7 @@ import numpy as np
 from planner.errors import CampaignError, InputError
 from planner.model.campaign import Campaign
 from planner.model.names import normalize_name
-from planner.scheduling.frame import night_frame
+from planner.scheduling.night_sky import night_sky
 from planner.scheduling.night import NightPlan, plan_night
 from planner.scheduling.visits import Exposure, VisitRequest, body_s
 
@@ -147,10 +147,11 @@ def night_requests(campaign: Campaign, exposures: dict, done: dict, urgency: dic
     return out
 
 
-def check_fits_the_night(campaign: Campaign, exposures: dict, frame) -> None:
-    """A visit longer than the campaign's longest usable window is an error."""
-    longest = float(np.nanmax(np.where(np.isfinite(frame.window_start_jd),
-                                       frame.window_end_jd - frame.window_start_jd, 0.0))) * 86400.0
+def check_fits_the_night(campaign: Campaign, exposures: dict, sky) -> None:
+    """A visit longer than the campaign's longest usable window (of the :class:`NightSky`
+    ``sky``) is an error."""
+    longest = float(np.nanmax(np.where(np.isfinite(sky.window_start_jd),
+                                       sky.window_end_jd - sky.window_start_jd, 0.0))) * 86400.0
     for key, exps in exposures.items():
         need = body_s(campaign.site, exps)
         if need > longest:
@@ -181,7 +182,7 @@ def plan_campaign(campaign: Campaign, *, seeing_arcsec: float | None = None, for
     """Plan every night of the campaign, then forecast the coverage and period recovery."""
     site, constraints = campaign.site, campaign.constraints
     seeing = seeing_arcsec or campaign.seeing_arcsec or site.sky.typical_seeing_arcsec
-    frame = night_frame(site, campaign.nights, constraints)  # the Sun and Moon once for the campaign
+    frame = night_sky(site, campaign.nights, constraints)  # the Sun and Moon once for the campaign
     exposures = goal_exposures(campaign, seeing)
     check_fits_the_night(campaign, exposures, frame)
     done: dict = {}
