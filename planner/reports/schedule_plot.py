@@ -22,7 +22,7 @@ from planner.reports.charts import (
 
 
 def schedule_chart(site, plan, fig=None):
-    """Draw ``plan`` (a :class:`~planner.scheduling.night.NightPlan`) on a figure and return it."""
+    """Draw ``plan`` (a :class:`~planner.scheduling.night_plan.NightPlan`) on a figure and return it."""
     from planner.model.target import Target
     from planner.sky.night_summary import night_curves, run_of_nights
 

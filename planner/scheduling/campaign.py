@@ -31,7 +31,8 @@ from planner.errors import CampaignError, InputError
 from planner.model.campaign import Campaign
 from planner.model.names import normalize_name
 from planner.scheduling.night_sky import night_sky
-from planner.scheduling.night import NightPlan, plan_night
+from planner.scheduling.night import plan_night
+from planner.scheduling.night_plan import NightPlan
 from planner.scheduling.visits import Exposure, VisitRequest, body_s
 
 #: Airmass at which goal exposures are computed: the middle of a typical visit (from memory).

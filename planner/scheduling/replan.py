@@ -24,7 +24,8 @@ import re
 from dataclasses import dataclass, replace
 
 from planner.errors import DateError
-from planner.scheduling.night import NightPlan, plan_night
+from planner.scheduling.night import plan_night
+from planner.scheduling.night_plan import NightPlan
 from planner.sky.nights import datetime_to_jd, iso_utc
 
 #: A logbook entry counts for a planned visit when it starts this close to the visit (days).
