@@ -1,6 +1,6 @@
 """The night's visits over the altitude curves (``gcplan schedule --plot``).
 
-The night chart of :mod:`planner.reports.charts` (twilight shades, the Moon,
+The night chart of :mod:`planner.reports.altitude_chart` (twilight shades, the Moon,
 the altitude limit, an airmass scale, local clock time) for the planned
 targets, with each visit drawn over its target's curve as a thick bar from
 its first to its last minute and numbered, and the idle and closed gaps
@@ -13,12 +13,8 @@ from pathlib import Path
 
 import numpy as np
 
-from planner.reports.charts import (
-    A4_LANDSCAPE_IN,
-    TARGET_COLOURS,
-    jd_to_mdate,
-    night_chart,
-)
+from planner.reports.altitude_chart import night_chart
+from planner.reports.figure_common import A4_LANDSCAPE_IN, TARGET_COLOURS, jd_to_mdate, save_figure
 
 
 def schedule_chart(site, plan, fig=None):
@@ -64,6 +60,4 @@ def schedule_chart(site, plan, fig=None):
 
 
 def save_schedule_plot(site, plan, path) -> Path:
-    from planner.reports.charts import save_figure
-
     return save_figure(schedule_chart(site, plan), path)
