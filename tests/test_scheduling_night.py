@@ -20,8 +20,8 @@ from planner.inputs.sites import resolve_site
 from planner.inputs.targets import resolve_targets
 from planner.model.constraints import constraints_for_site
 from planner.model.target import Target
-from planner.scheduling.night_sky import night_sky, requests_for_targets
 from planner.scheduling.night import plan_night
+from planner.scheduling.night_sky import night_sky, requests_for_targets
 from planner.scheduling.validate import validate_plan
 from planner.scheduling.visits import Exposure, VisitRequest, body_s, parse_visit_spec
 
