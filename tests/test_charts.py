@@ -1,4 +1,4 @@
-"""Tests for planner.reports.charts: the night's altitude chart and the observability heat map.
+"""Tests for planner.reports.altitude_chart and hours_chart: the night's altitude chart and the observability heat map.
 
 Outside references:
 
@@ -33,13 +33,9 @@ from planner.inputs.catalog import load_catalog
 from planner.inputs.sites import resolve_site
 from planner.inputs.targets import targets_from_names
 from planner.model.constraints import constraints_for_site
-from planner.reports.charts import (
-    CAUTION,
-    night_chart,
-    observability_chart,
-    save_night_chart,
-    save_observability_chart,
-)
+from planner.cautions import SHORT_CAUTION as CAUTION
+from planner.reports.altitude_chart import night_chart, save_night_chart
+from planner.reports.hours_chart import observability_chart, save_observability_chart
 from planner.sky.night_summary import night_curves, run_of_nights
 
 FIVE = ["M 13", "47 Tuc", "omega Cen", "M22", "NGC6752"]

@@ -15,7 +15,9 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 from planner.errors import InputError
+from planner.light import ccd
 from planner.light import exposure as ex
+from planner.light.exposure_table import exposure_table
 from planner.light.photometry import ConditionsError, UnknownFilterError
 from planner.model.site import (
     Camera,
@@ -58,7 +60,7 @@ def test_enclosed_fraction_against_scipy_rayleigh():
     fwhm = 1.7
     r = np.linspace(0.05, 4.0, 40)
     sigma = fwhm / (2 * math.sqrt(2 * math.log(2)))
-    assert np.allclose(ex.enclosed_fraction(r, fwhm), rayleigh.cdf(r, scale=sigma), rtol=1e-12, atol=1e-14)
+    assert np.allclose(ccd.enclosed_fraction(r, fwhm), rayleigh.cdf(r, scale=sigma), rtol=1e-12, atol=1e-14)
 
 
 def test_optimal_radius_background_limited():
@@ -67,15 +69,15 @@ def test_optimal_radius_background_limited():
     # it maximises enclosed(r)/r (S/N ∝ f(r)/sqrt(n_pix)), found here with scipy.
     from scipy.optimize import minimize_scalar
 
-    best = minimize_scalar(lambda r: -ex.enclosed_fraction(r, 1.0) / r, bounds=(0.1, 3.0), method="bounded")
-    assert best.x == pytest.approx(ex.OPTIMAL_RADIUS_FWHM, abs=1e-3)
-    assert float(ex.enclosed_fraction(0.673, 1.0)) == pytest.approx(0.715, abs=5e-4)
+    best = minimize_scalar(lambda r: -ccd.enclosed_fraction(r, 1.0) / r, bounds=(0.1, 3.0), method="bounded")
+    assert best.x == pytest.approx(ccd.OPTIMAL_RADIUS_FWHM, abs=1e-3)
+    assert float(ccd.enclosed_fraction(0.673, 1.0)) == pytest.approx(0.715, abs=5e-4)
 
 
 @pytest.mark.parametrize("fwhm_px, expected", [(1.0, 0.579), (2.0, 0.197), (3.0, 0.0932)])
 def test_peak_pixel_fraction_references(fwhm_px, expected):
     # Computed (tests/REFERENCES.md, "Signal-to-noise"): [erf(p / (2√2 σ))]² for FWHM 1, 2, 3 px
-    assert float(ex.peak_pixel_fraction(fwhm_px)) == pytest.approx(expected, rel=2e-3)
+    assert float(ccd.peak_pixel_fraction(fwhm_px)) == pytest.approx(expected, rel=2e-3)
 
 
 def test_peak_pixel_fraction_against_scipy_norm():
@@ -84,7 +86,7 @@ def test_peak_pixel_fraction_against_scipy_norm():
 
     fwhm = np.array([0.8, 1.5, 2.5, 4.0, 7.0])
     sigma = fwhm / (2 * math.sqrt(2 * math.log(2)))
-    assert np.allclose(ex.peak_pixel_fraction(fwhm), (norm.cdf(0.5 / sigma) - norm.cdf(-0.5 / sigma)) ** 2)
+    assert np.allclose(ccd.peak_pixel_fraction(fwhm), (norm.cdf(0.5 / sigma) - norm.cdf(-0.5 / sigma)) ** 2)
 
 
 # ------------------------------------------------------------------ the CCD equation
@@ -126,9 +128,9 @@ def test_vectorised_snr_matches_plain_ccd_equation():
 def test_ccd_snr_howell_form():
     # Howell, Handbook of CCD Astronomy, ch. 4: with n_B sky pixels the background term is
     # weighted by (1 + n_pix/n_B); with no noise but the star's, S/N = √N*.
-    assert float(ex.ccd_snr(10000.0, 0.0, 0.0, 0.0, 20.0, gain_e_per_adu=0.0)) == pytest.approx(100.0)
-    plain = float(ex.ccd_snr(5000.0, 300.0, 10.0, 5.0, 20.0, 1.0))
-    annulus = float(ex.ccd_snr(5000.0, 300.0, 10.0, 5.0, 20.0, 1.0, sky_annulus_pixels=20.0))
+    assert float(ccd.ccd_snr(10000.0, 0.0, 0.0, 0.0, 20.0, gain_e_per_adu=0.0)) == pytest.approx(100.0)
+    plain = float(ccd.ccd_snr(5000.0, 300.0, 10.0, 5.0, 20.0, 1.0))
+    annulus = float(ccd.ccd_snr(5000.0, 300.0, 10.0, 5.0, 20.0, 1.0, sky_annulus_pixels=20.0))
     assert annulus == pytest.approx(5000.0 / math.sqrt(5000.0 + 40.0 * (310.0 + 25.0 + 0.289**2)))
     assert annulus < plain
 
@@ -171,7 +173,7 @@ def test_plan_fields_and_rounding():
     assert plan.snr_reached >= 100.0
     assert plan.exposure_s == pytest.approx(plan.frames * plan.frame_s)
     assert plan.elapsed_s == pytest.approx(plan.frames * (plan.frame_s + 20.0))
-    assert plan.frame_s == float(ex.round_up_frame(plan.frame_s))
+    assert plan.frame_s == float(ccd.round_up_frame(plan.frame_s))
     assert plan.snr_reached == pytest.approx(
         math.sqrt(plan.frames) * ex.snr_of_exposure(SITE, "V", 18.0, plan.frame_s))
     assert plan.inputs.rate_from == "throughput" and plan.inputs.zero_point_mag is None
@@ -185,7 +187,7 @@ def test_bright_star_is_split_below_the_linearity_limit():
     # hand-made saturation time: linearity / (star × peak fraction + sky + dark)
     e0 = V_PHOTONS * 890.0 * SITE.telescope.collecting_area_m2 * 1e4 * 0.4
     star = e0 * 10 ** (-0.4 * (11.0 + 0.15 * 1.2))
-    peak = float(ex.peak_pixel_fraction(1.2 / 0.4))
+    peak = float(ccd.peak_pixel_fraction(1.2 / 0.4))
     assert plan.saturation_s == pytest.approx(60000.0 / (star * peak + plan.sky_e_per_s_per_pixel + 0.002))
 
 
@@ -234,7 +236,7 @@ def test_exposure_for_level_uses_brightest_stars_and_notes():
 def test_exposure_table_rows():
     targets = [SimpleNamespace(name="Invented 1", distance_modulus_mag=15.0, ebv_mag=0.05, feh_dex=-1.6),
                SimpleNamespace(name="Invented 2", distance_modulus_mag=None, ebv_mag=0.3, feh_dex=-1.0)]
-    rows = ex.exposure_table(SITE, targets, ["tip", "hb"], ["V"], {"tip": 200.0, "hb": 100.0})
+    rows = exposure_table(SITE, targets, ["tip", "hb"], ["V"], {"tip": 200.0, "hb": 100.0})
     assert [(r.target, r.level) for r in rows] == [("Invented 1", "tip"), ("Invented 1", "hb"),
                                                    ("Invented 2", "tip"), ("Invented 2", "hb")]
     from planner.light.photometry import science_level
@@ -294,7 +296,7 @@ def test_more_airmass_never_shortens(magnitude, snr, x1, x2, illumination, round
     t_hi, _, _ = _total(airmass=hi, **common)
     t_lo, n_lo, _ = _total(airmass=lo, **common)
     # exact plans are monotonic; rounded frame times may lose at most one rounding step per frame
-    slack = 0.0 if not round_frames else (n_lo + 1) * float(ex._step(t_lo / n_lo))
+    slack = 0.0 if not round_frames else (n_lo + 1) * float(ccd._step(t_lo / n_lo))
     assert t_hi >= t_lo * (1 - 1e-12) - slack
 
 

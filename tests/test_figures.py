@@ -126,8 +126,6 @@ def test_schedule_labels_its_targets_and_keeps_the_caution(schedule_drawn):
     _check_units_in_parentheses(fig)
 
 
-@pytest.mark.xfail(strict=True, reason="the schedule figure prints visit numbers over target labels "
-                   "(being fixed in planner/reports/schedule_plot.py on another branch)")
 def test_schedule_visit_numbers_stay_clear_of_target_labels(schedule_drawn):
     plan, fig = schedule_drawn
     renderer = renderer_of(fig)
@@ -265,14 +263,10 @@ def test_exposure_marks_the_choice_and_the_saturation(exposure_drawn):
     assert f"V = {plan['magnitude']:.2f}" in ax.get_title()
 
 
-@pytest.mark.xfail(strict=True, reason="the exposure figure has no caution footer yet "
-                   "(being fixed in planner/reports/exposure_plot.py on another branch)")
 def test_exposure_figure_keeps_the_caution(exposure_drawn):
     assert SHORT_CAUTION in all_text(exposure_drawn[1])
 
 
-@pytest.mark.xfail(strict=True, reason="the exposure figure writes 'frame time [s]' where the others "
-                   "write units in parentheses (being fixed on another branch)")
 def test_exposure_figure_units_in_parentheses(exposure_drawn):
     _, fig = exposure_drawn
     _check_units_in_parentheses(fig)

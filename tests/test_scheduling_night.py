@@ -20,8 +20,8 @@ from planner.inputs.sites import resolve_site
 from planner.inputs.targets import resolve_targets
 from planner.model.constraints import constraints_for_site
 from planner.model.target import Target
-from planner.scheduling.frame import night_frame, requests_for_targets
 from planner.scheduling.night import plan_night
+from planner.scheduling.night_sky import night_sky, requests_for_targets
 from planner.scheduling.visits import Exposure, VisitRequest, body_s, parse_visit_spec
 
 from helpers.validate import validate_plan
@@ -32,7 +32,7 @@ NIGHT = dt.date(2027, 5, 12)
 
 def _plan(targets, exposures, night=NIGHT, constraints=None, **kw):
     c = constraints or constraints_for_site(SITE)
-    frame = night_frame(SITE, [night], c)
+    frame = night_sky(SITE, [night], c)
     requests = requests_for_targets(targets, exposures)
     plan = plan_night(SITE, c, requests, night, float(frame.window_start_jd[0]), float(frame.window_end_jd[0]),
                       frame.ephemeris, **kw)
@@ -109,7 +109,7 @@ def test_closed_periods_and_request_limits_hold(catalog_plan):
     b = a + 0.06
     tight = [replace(q, max_airmass=1.3) for q in requests]
     c = plan.constraints
-    frame = night_frame(SITE, [NIGHT], c)
+    frame = night_sky(SITE, [NIGHT], c)
     p2 = plan_night(SITE, c, tight, NIGHT, plan.window_start_jd, plan.window_end_jd, frame.ephemeris,
                     closed=((a, b),))
     assert validate_plan(SITE, p2, tight) == []
@@ -123,7 +123,7 @@ def test_repeats_keep_their_spacing():
     q = VisitRequest("x", t.name, t.ra_deg, t.dec_deg, "variables", (Exposure("V", 1, 60.0),), count=5,
                      min_spacing_min=40.0)
     c = constraints_for_site(SITE)
-    frame = night_frame(SITE, [NIGHT], c)
+    frame = night_sky(SITE, [NIGHT], c)
     plan = plan_night(SITE, c, [q], NIGHT, float(frame.window_start_jd[0]), float(frame.window_end_jd[0]),
                       frame.ephemeris)
     mids = sorted(0.5 * (v.science_start_jd + v.end_jd) for v in plan.visits)
@@ -176,14 +176,14 @@ def test_random_target_sets_pass_the_validator(seed, n, frames, exposure, day):
 def test_usable_window_agrees_with_the_almanac(spec, start):
     """The planner's quick twilight search against the almanac's (itself held to astroplan
     in tests/test_almanac.py): same events within 5 s, same nights without darkness."""
-    from planner.scheduling.frame import usable_windows_jd
+    from planner.scheduling.night_sky import usable_windows_jd
     from planner.sky.almanac import almanac_for_nights
     from planner.sky.ephemeris import site_geometry
     from planner.sky.nights import night_spans_jd
 
     site = resolve_site(spec)
     nights = [start + dt.timedelta(days=i) for i in range(0, 60, 3)]
-    frame = night_frame(site, nights, constraints_for_site(site))
+    frame = night_sky(site, nights, constraints_for_site(site))
     alm = almanac_for_nights(site, nights, frame.ephemeris)
     for tw in ("civil", "nautical", "astronomical"):
         a0, a1 = alm.dark_window_jd(tw)

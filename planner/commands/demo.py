@@ -79,7 +79,7 @@ def _write(path: Path, text: str) -> None:
 def step_night(site, targets, night, out):
     """Tonight: almanac, windows, chart."""
     from planner.model.constraints import constraints_for_site
-    from planner.reports.charts import save_night_chart
+    from planner.reports.altitude_chart import save_night_chart
     from planner.reports.night_report import night_json, night_text
     from planner.sky.night_summary import night_curves, run_of_nights
 
@@ -99,7 +99,7 @@ def step_semester(site, targets, night, out):
     from planner.inputs.catalog import load_catalog
     from planner.inputs.targets import catalog_targets
     from planner.model.constraints import constraints_for_site
-    from planner.reports.charts import save_observability_chart
+    from planner.reports.hours_chart import save_observability_chart
     from planner.reports.observability_report import observability_json, observability_text
     from planner.sky.night_summary import run_of_nights, seasons
 
@@ -130,7 +130,7 @@ DEMO_VARIABLE_NIGHTS = 7
 
 def step_exposures(site, targets, night, out):
     """Exposure table: every cluster × level × filter at the site's typical seeing, airmass 1.2, dark."""
-    from planner.light.exposure import exposure_table
+    from planner.light.exposure_table import exposure_table
 
     rows = exposure_table(site, targets, tuple(DEMO_SNR), DEMO_FILTERS, DEMO_SNR)
     lines = textwrap.wrap(

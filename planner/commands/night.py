@@ -52,7 +52,7 @@ def run(args) -> int:
 
             print("\n" + cross_check_text(check))
     if plot_path is not None:
-        from planner.reports.charts import save_night_chart
+        from planner.reports.altitude_chart import save_night_chart
         from planner.sky.night_summary import night_curves
 
         save_night_chart(run_, night_curves(run_), plot_path)

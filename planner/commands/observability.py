@@ -40,7 +40,7 @@ def run(args) -> int:
     else:
         print(observability_text(run_, summary))
     if plot_path is not None:
-        from planner.reports.charts import save_observability_chart
+        from planner.reports.hours_chart import save_observability_chart
 
         save_observability_chart(run_, plot_path)
         if not args.json:

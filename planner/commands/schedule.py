@@ -90,7 +90,7 @@ def _campaign_plan(args, night):
 
 def _ad_hoc_plan(args, night):
     """The site and the plan of every target once with the visit of ``--visit``."""
-    from planner.scheduling.frame import night_frame, requests_for_targets
+    from planner.scheduling.night_sky import night_sky, requests_for_targets
     from planner.scheduling.night import plan_night
     from planner.scheduling.visits import body_s, parse_visit_spec
 
@@ -99,7 +99,7 @@ def _ad_hoc_plan(args, night):
     constraints = common.constraints_from_args(site, args)
     exposures = parse_visit_spec(args.visit, site, "--visit")
     requests = requests_for_targets(targets, exposures)
-    frame = night_frame(site, [night], constraints)
+    frame = night_sky(site, [night], constraints)
     w0, w1 = float(frame.window_start_jd[0]), float(frame.window_end_jd[0])
     need = body_s(site, exposures)
     if np.isfinite(w0) and need > (w1 - w0) * 86400.0:

@@ -17,10 +17,10 @@ Schema (unknown keys are errors; paths are relative to the campaign file)::
     [[goals]]                    depth goals: level "tip" | "hb" | "turnoff"; filter; snr;
                                  targets (names, default all); visits (times over the
                                  campaign, = 1); max_airmass; dark (= false: Moon down or
-                                 ≤ 25 % lit); max_seeing_arcsec; priority (weight, = 1)
+                                 ≤ 25 % lit); max_seeing_arcsec; priority (a weight, = 1)
     [cadence]                    optional variable-star cadence: filter = "V"; snr (on the cluster's
                                  HB, = 30) or exposure_s; visits_per_night; phase_bins = 20;
-                                 min_spacing_min = 30; priority (weight, = 1)
+                                 min_spacing_min = 30; priority (a weight, = 1)
 
 Every problem raises :class:`CampaignError` naming the file, the field and the
 bad value, and what would be valid.
@@ -81,13 +81,12 @@ def _path(top: Table, key: str, base: Path, required: bool, special: tuple[str, 
 
 
 def read_campaign_file(path: str | Path):
-    """The :class:`~planner.scheduling.campaign.Campaign` in the file at ``path``."""
+    """The :class:`~planner.model.campaign.Campaign` in the file at ``path``."""
     from planner.inputs.catalog import load_catalog
     from planner.inputs.sites import resolve_site
     from planner.inputs.targets import resolve_targets
     from planner.inputs.variable_files import read_variables
-    from planner.model.campaign import CadenceGoal, Campaign, DepthGoal
-    from planner.model.constraints import constraints_for_site
+    from planner.model.campaign import Campaign
 
     source = str(path)
     raw = read_toml(path, source, CampaignError, "campaign")
@@ -107,6 +106,21 @@ def read_campaign_file(path: str | Path):
     targets = resolve_targets(targets_path, [], catalog)
     variables_path = _path(top, "variables", base, False)
     variables = read_variables(variables_path, catalog) if variables_path else ()
+    nights = _nights(top)
+    seeing = top.number("seeing_arcsec", 0.1, 10, required=False)
+    max_frame = top.number("max_frame_s", 1.0, 7200.0, required=False)
+    constraints = _constraints(top, site)
+    goals = _goals(top, source, site, targets)
+    cadence = _cadence(raw, source, site, variables)
+    return Campaign(name=name, source=source, site=site, targets=tuple(targets), variables=tuple(variables),
+                    nights=nights, constraints=constraints, goals=tuple(goals), cadence=cadence,
+                    seeing_arcsec=seeing, invented=bool(invented), max_frame_s=max_frame)
+
+
+def _nights(top: Table) -> tuple[dt.date, ...]:
+    """The campaign's nights, from first_night and last_night or a count of nights."""
+    from planner.sky.nights import night_out_of_range
+
     first = _date(top, "first_night", True)
     last = _date(top, "last_night", False)
     n = top.number("nights", 1, MAX_NIGHTS, required=False)
@@ -120,20 +134,21 @@ def read_campaign_file(path: str | Path):
         last = first + dt.timedelta(days=int(n) - 1)
     if last < first:
         top.fail(f"last_night {last} is before first_night {first}")
-    from planner.sky.nights import night_out_of_range
-
     for key, night in (("first_night", first), ("last_night", last)):
         if night_out_of_range(night):
             top.fail(f"{key} {night_out_of_range(night)}")
     if (last - first).days + 1 > MAX_NIGHTS:
         top.fail(f"the campaign spans {(last - first).days + 1} nights; at most {MAX_NIGHTS}")
-    nights = tuple(first + dt.timedelta(days=i) for i in range((last - first).days + 1))
-    seeing = top.number("seeing_arcsec", 0.1, 10, required=False)
-    max_frame = top.number("max_frame_s", 1.0, 7200.0, required=False)
+    return tuple(first + dt.timedelta(days=i) for i in range((last - first).days + 1))
+
+
+def _constraints(top: Table, site):
+    """The [constraints] table over the site profile's limits."""
+    from planner.model.constraints import constraints_for_site
 
     ct = top.sub("constraints", "constraints", required=False)
     try:
-        constraints = constraints_for_site(
+        return constraints_for_site(
             site,
             twilight=ct.string("twilight", default=site.limits.twilight,
                                choices=("civil", "nautical", "astronomical")),
@@ -146,58 +161,70 @@ def read_campaign_file(path: str | Path):
             raise
         ct.fail(str(exc))
 
-    names = {t.name for t in targets}
-    goals = []
+
+def _site_filter(table: Table, site, default: str | None = None) -> str:
+    """The table's filter, which must be one of the site's."""
+    filt = table.string("filter", default=default)
+    if filt not in site.filters:
+        table.fail(f"filter {show(filt)} is not a filter of site {show(site.name)} "
+                   f"(filters: {', '.join(site.filters)})")
+    return filt
+
+
+def _goals(top: Table, source: str, site, targets) -> list:
+    """The [[goals]] depth goals."""
     raw_goals = top.get("goals", False) or []
     if not isinstance(raw_goals, list):
         top.fail("goals must be an array of tables ([[goals]])")
-    for i, g in enumerate(raw_goals):
-        gt = Table(g, f"[[goals]] #{i + 1}", "goal", source, _SCHEMA)
-        level = gt.string("level", choices=("tip", "hb", "turnoff"))
-        filt = gt.string("filter")
-        if filt not in site.filters:
-            gt.fail(f"filter {show(filt)} is not a filter of site {show(site.name)} "
-                    f"(filters: {', '.join(site.filters)})")
-        wanted = gt.get("targets", False)
-        if wanted is None:
-            chosen = tuple(t.name for t in targets)
-        else:
-            if not isinstance(wanted, list) or not all(isinstance(w, str) for w in wanted):
-                gt.fail(f"targets must be a list of target names (got {show(wanted)})")
-            missing = [w for w in wanted if w not in names]
-            if missing:
-                gt.fail(f"targets: {show(missing[0])} is not in the campaign's targets "
-                        f"({', '.join(sorted(names))})")
-            chosen = tuple(wanted)
-        dark = gt.get("dark", False)
-        if dark is not None and not isinstance(dark, bool):
-            gt.fail(f"dark must be true or false (got {show(dark)})")
-        visits = gt.number("visits", 1, 1000, default=1)
-        goals.append(DepthGoal(
-            level=level, filter=filt, snr=gt.number("snr", 1.0, 10000.0), targets=chosen,
-            visits=int(visits), max_airmass=gt.number("max_airmass", 1.0, 40.0, required=False),
-            dark=bool(dark), max_seeing_arcsec=gt.number("max_seeing_arcsec", 0.1, 10.0, required=False),
-            weight=gt.number("priority", 0.0, 1000.0, lo_open=True, default=1.0)))
+    return [_goal(Table(g, f"[[goals]] #{i + 1}", "goal", source, _SCHEMA), site, targets)
+            for i, g in enumerate(raw_goals)]
 
-    cadence = None
-    if "cadence" in raw:
-        vt = Table(raw["cadence"], "[cadence]", "cadence", source, _SCHEMA)
-        if not variables:
-            vt.fail("needs a variables table: add variables = \"FILE\" at the top level")
-        filt = vt.string("filter", default="V")
-        if filt not in site.filters:
-            vt.fail(f"filter {show(filt)} is not a filter of site {show(site.name)} "
-                    f"(filters: {', '.join(site.filters)})")
-        exposure = vt.number("exposure_s", 0.0, 36000.0, lo_open=True, required=False)
-        snr = vt.number("snr", 1.0, 10000.0, required=False)
-        if exposure is not None and snr is not None:
-            vt.fail("give snr or exposure_s, not both")
-        per_night = vt.number("visits_per_night", 1, 200)
-        bins = vt.number("phase_bins", 2, 1000, default=20)
-        cadence = CadenceGoal(filter=filt, snr=30.0 if snr is None and exposure is None else snr,
-                              exposure_s=exposure, visits_per_night=int(per_night), phase_bins=int(bins),
-                              min_spacing_min=vt.number("min_spacing_min", 0.0, 720.0, default=30.0),
-                              weight=vt.number("priority", 0.0, 1000.0, lo_open=True, default=1.0))
-    return Campaign(name=name, source=source, site=site, targets=tuple(targets), variables=tuple(variables),
-                    nights=nights, constraints=constraints, goals=tuple(goals), cadence=cadence,
-                    seeing_arcsec=seeing, invented=bool(invented), max_frame_s=max_frame)
+
+def _goal(gt: Table, site, targets):
+    from planner.model.campaign import DepthGoal
+
+    names = {t.name for t in targets}
+    level = gt.string("level", choices=("tip", "hb", "turnoff"))
+    filt = _site_filter(gt, site)
+    wanted = gt.get("targets", False)
+    if wanted is None:
+        chosen = tuple(t.name for t in targets)
+    else:
+        if not isinstance(wanted, list) or not all(isinstance(w, str) for w in wanted):
+            gt.fail(f"targets must be a list of target names (got {show(wanted)})")
+        missing = [w for w in wanted if w not in names]
+        if missing:
+            gt.fail(f"targets: {show(missing[0])} is not in the campaign's targets "
+                    f"({', '.join(sorted(names))})")
+        chosen = tuple(wanted)
+    dark = gt.get("dark", False)
+    if dark is not None and not isinstance(dark, bool):
+        gt.fail(f"dark must be true or false (got {show(dark)})")
+    visits = gt.number("visits", 1, 1000, default=1)
+    return DepthGoal(
+        level=level, filter=filt, snr=gt.number("snr", 1.0, 10000.0), targets=chosen,
+        visits=int(visits), max_airmass=gt.number("max_airmass", 1.0, 40.0, required=False),
+        dark=bool(dark), max_seeing_arcsec=gt.number("max_seeing_arcsec", 0.1, 10.0, required=False),
+        priority=gt.number("priority", 0.0, 1000.0, lo_open=True, default=1.0))
+
+
+def _cadence(raw: dict, source: str, site, variables):
+    """The optional [cadence] table of the variable stars."""
+    from planner.model.campaign import CadenceGoal
+
+    if "cadence" not in raw:
+        return None
+    vt = Table(raw["cadence"], "[cadence]", "cadence", source, _SCHEMA)
+    if not variables:
+        vt.fail("needs a variables table: add variables = \"FILE\" at the top level")
+    filt = _site_filter(vt, site, default="V")
+    exposure = vt.number("exposure_s", 0.0, 36000.0, lo_open=True, required=False)
+    snr = vt.number("snr", 1.0, 10000.0, required=False)
+    if exposure is not None and snr is not None:
+        vt.fail("give snr or exposure_s, not both")
+    per_night = vt.number("visits_per_night", 1, 200)
+    bins = vt.number("phase_bins", 2, 1000, default=20)
+    return CadenceGoal(filter=filt, snr=30.0 if snr is None and exposure is None else snr,
+                       exposure_s=exposure, visits_per_night=int(per_night), phase_bins=int(bins),
+                       min_spacing_min=vt.number("min_spacing_min", 0.0, 720.0, default=30.0),
+                       priority=vt.number("priority", 0.0, 1000.0, lo_open=True, default=1.0))

@@ -25,6 +25,10 @@ The model
   5 s below 1000 s and 10 s above (rounded down instead when that would pass the
   saturation limit).  ``round_frames=False`` gives the exact values.
 * Sky and photon rates: :mod:`planner.light.photometry` (twilight is not modelled).
+
+The kernels (CCD equation, aperture, peak pixel, rounding) are in
+:mod:`planner.light.ccd`; the campaign's exposure table in
+:mod:`planner.light.exposure_table`.
 """
 
 from __future__ import annotations
@@ -36,15 +40,22 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from planner.errors import InputError
+from planner.light.ccd import (
+    DIGITISATION_NOISE_ADU,
+    OPTIMAL_RADIUS_FWHM,
+    enclosed_fraction,
+    peak_pixel_fraction,
+    round_down_frame,
+    round_up_frame,
+    time_for_snr,
+)
 from planner.light.photometry import (
-    LEVEL_NAMES,
     LevelError,
     ScienceLevel,
     UnknownFilterError,
     band_info,
     check_conditions,
     electron_rate,
-    science_level,
     sky_brightness_mag_arcsec2,
     zero_mag_electron_rate,
 )
@@ -54,9 +65,6 @@ class SnrGoalError(InputError):
     """An S/N goal or exposure time that is not a positive number."""
 
 
-OPTIMAL_RADIUS_FWHM = 0.673  # maximises f(r)/r for a Gaussian: r = 1.585 σ
-DIGITISATION_NOISE_ADU = 0.289  # 1/√12
-FWHM_PER_SIGMA = 2.0 * math.sqrt(2.0 * math.log(2.0))
 DEFAULT_AIRMASS = 1.2
 DEFAULT_PHASE_SMEAR_FRACTION = 0.01  # frames above 1 % of the shortest period are flagged
 MAX_FRAMES = 10**6  # beyond this the goal counts as out of reach (sky or Moon too bright)
@@ -108,63 +116,6 @@ def band_setup(site, filter_name: str) -> BandSetup:
         cam.read_noise_e, cam.gain_e_per_adu, cam.dark_e_per_s, cam.linearity_limit_e,
         cam.min_exposure_s, cam.readout_s, site.sky.typical_seeing_arcsec,
         site.limits.max_airmass, site.limits.min_moon_separation_deg)
-
-
-# ------------------------------------------------------------------ kernels
-
-def enclosed_fraction(radius, fwhm):
-    """Fraction of a circular Gaussian's light within ``radius``: 1 − 2^(−4 (r/FWHM)²)."""
-    return 1.0 - 2.0 ** (-4.0 * (np.asarray(radius, dtype=float) / fwhm) ** 2)
-
-
-def peak_pixel_fraction(fwhm_pixels):
-    """Fraction of a Gaussian star in the pixel it is centred on: [erf(1 / (2√2 σ))]²."""
-    from scipy.special import erf
-
-    sigma = np.asarray(fwhm_pixels, dtype=float) / FWHM_PER_SIGMA
-    return erf(1.0 / (2.0 * math.sqrt(2.0) * sigma)) ** 2
-
-
-def ccd_snr(source_e, sky_e_per_pixel, dark_e_per_pixel, read_noise_e, n_pix,
-            gain_e_per_adu=1.0, sky_annulus_pixels=None):
-    """The CCD equation for one frame (all counts in electrons over the frame)."""
-    n_pix = np.asarray(n_pix, dtype=float)
-    weight = n_pix if sky_annulus_pixels is None else n_pix * (1.0 + n_pix / sky_annulus_pixels)
-    noise2 = (source_e + weight * (sky_e_per_pixel + dark_e_per_pixel + read_noise_e**2
-                                   + (gain_e_per_adu * DIGITISATION_NOISE_ADU) ** 2))
-    return source_e / np.sqrt(noise2)
-
-
-def _time_for_snr(snr, source, background, per_frame):
-    """Exposure t with S t / sqrt(S t + B t + R) = snr: the positive root of a quadratic.
-
-    ``background`` (B) and ``per_frame`` (R) already carry the aperture's pixel weight.
-    """
-    q = snr * snr
-    b = q * (source + background)
-    return (b + np.sqrt(b * b + 4.0 * source * source * q * per_frame)) / (2.0 * source * source)
-
-
-_STEP_EDGES_S = np.array([1.0, 10.0, 100.0, 1000.0])
-_STEPS_S = np.array([0.01, 0.1, 1.0, 5.0, 10.0])
-
-
-def _step(t):
-    return _STEPS_S[np.searchsorted(_STEP_EDGES_S, t, side="right")]
-
-
-def round_up_frame(t):
-    """Round a frame time up to the steps observers use (see the module docstring)."""
-    t = np.asarray(t, dtype=float)
-    s = _step(t)
-    return np.round(np.ceil(t / s - 1e-9) * s, 2)
-
-
-def round_down_frame(t):
-    """Round a frame time down to the same steps."""
-    t = np.asarray(t, dtype=float)
-    s = _step(t)
-    return np.round(np.floor(t / s + 1e-9) * s, 2)
 
 
 @dataclass(frozen=True)
@@ -278,7 +229,7 @@ def _grid(s: BandSetup, magnitude, snr, airmass, seeing, illumination, separatio
     limit = np.where(too_bright, t_min, limit)
 
     def time_for(goal):
-        return _time_for_snr(goal, r.in_aperture_e_per_s, r.background_e_per_s, r.per_frame_e2)
+        return time_for_snr(goal, r.in_aperture_e_per_s, r.background_e_per_s, r.per_frame_e2)
 
     def frames_needed(frame):  # smallest n with √n · S/N(frame) ≥ goal
         return np.maximum(np.ceil((snr / _snr_frame(r, frame)) ** 2 - 1e-9), 1.0)
@@ -453,81 +404,8 @@ def exposure_for_level(site, filter_name: str, level: ScienceLevel, snr: float, 
     return replace(plan, warnings=plan.warnings + extra) if extra else plan
 
 
-# ------------------------------------------------------------------ campaign table
-
-@dataclass(frozen=True)
-class ExposureRow:
-    """One line of a campaign's exposure table (``None`` where the level is unavailable)."""
-
-    target: str
-    level: str
-    filter: str
-    band: str
-    snr_goal: float
-    magnitude: float | None
-    frames: int | None
-    frame_s: float | None
-    exposure_s: float | None
-    elapsed_s: float | None
-    snr_reached: float | None
-    saturation_s: float | None
-    note: str = ""
-
-
-def exposure_table(site, targets, levels, filters, snr, **conditions) -> list[ExposureRow]:
-    """Exposures for every target × level × filter at one set of conditions.
-
-    ``snr`` is one goal or a mapping level → goal; ``conditions`` are those of
-    :func:`exposure_grid` (airmass, seeing, Moon).  A level a target cannot give (no
-    distance, say) becomes a row with ``None`` values and the reason in ``note``.
-    One vectorised evaluation per filter; rows come target by target, then level,
-    then filter, in the order given.
-    """
-    goals = snr if isinstance(snr, dict) else {lv: snr for lv in levels}
-    cells: dict[tuple[int, int, int], ExposureRow] = {}
-    for fi, filter_name in enumerate(filters):
-        setup = band_setup(site, filter_name)
-        found = []  # (target index, level index, ScienceLevel or the reason it is unavailable)
-        for ti, target in enumerate(targets):
-            for li, lv in enumerate(levels):
-                try:
-                    found.append((ti, li, science_level(target, lv, setup.band)))
-                except LevelError as exc:
-                    found.append((ti, li, exc.detail))
-        ok = [sl for _, _, sl in found if isinstance(sl, ScienceLevel)]
-        if ok:
-            grid = exposure_grid(site, filter_name, np.array([sl.magnitude for sl in ok]),
-                                 np.array([goals[sl.level] for sl in ok], dtype=float),
-                                 saturation_magnitude=np.array([sl.brightest_mag for sl in ok]), **conditions)
-        j = 0
-        for ti, li, result in found:
-            name, lv = getattr(targets[ti], "name", str(targets[ti])), levels[li]
-            if not isinstance(result, ScienceLevel):
-                cells[ti, li, fi] = ExposureRow(name, lv, filter_name, setup.band, float(goals[lv]), None, None,
-                                                None, None, None, None, None, result)
-                continue
-            if not grid.reachable[j]:
-                cells[ti, li, fi] = ExposureRow(
-                    name, lv, filter_name, setup.band, float(goals[lv]), result.magnitude, None, None, None, None,
-                    None, float(grid.saturation_s[j]), f"S/N out of reach (over {MAX_FRAMES:,} frames needed)")
-                j += 1
-                continue
-            n, frame = int(grid.frames[j]), float(grid.frame_s[j])
-            notes = [f"{LEVEL_NAMES[lv]}: {result.calibration}"]
-            if grid.split[j]:
-                notes.append("split at the saturation limit")
-            if grid.saturated_at_shortest[j]:
-                notes.append("saturates at the shortest exposure")
-            cells[ti, li, fi] = ExposureRow(
-                name, lv, filter_name, setup.band, float(goals[lv]), result.magnitude, n, frame, n * frame,
-                n * (frame + setup.readout_s), float(grid.snr_reached[j]), float(grid.saturation_s[j]),
-                "; ".join(notes))
-            j += 1
-    return [cells[key] for key in sorted(cells)]
-
-
 __all__ = [
-    "BandSetup", "ExposureGrid", "ExposureInputs", "ExposurePlan", "ExposureRow", "SnrGoalError",
-    "band_setup", "ccd_snr", "enclosed_fraction", "exposure_for_level", "exposure_for_snr", "exposure_grid",
-    "exposure_table", "peak_pixel_fraction", "round_up_frame", "saturation_time_s", "snr_of_exposure",
+    "BandSetup", "ExposureGrid", "ExposureInputs", "ExposurePlan", "SnrGoalError",
+    "band_setup", "exposure_for_level", "exposure_for_snr", "exposure_grid",
+    "saturation_time_s", "snr_of_exposure",
 ]

@@ -323,9 +323,6 @@ class Logbook:
                 self._db.execute("UPDATE entries SET visit_id = ? WHERE id = ?", (visit_id, entry_id))
                 return
 
-    def has_fingerprint(self, fingerprint: str) -> bool:
-        return self._db.execute("SELECT 1 FROM entries WHERE fingerprint = ?", (fingerprint,)).fetchone() is not None
-
     def known_files(self) -> set[tuple[str, int, int]]:
         """(path, size, mtime_ns) of every ingested frame: files a new pass need not read again."""
         rows = self._db.execute("SELECT file, file_size, file_mtime_ns FROM entries WHERE source = 'fits'")

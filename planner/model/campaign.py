@@ -23,7 +23,7 @@ class DepthGoal:
     max_airmass: float | None = None
     dark: bool = False
     max_seeing_arcsec: float | None = None
-    weight: float = 1.0
+    priority: float = 1.0  # a weight on the target's own priority
 
 
 @dataclass(frozen=True)
@@ -34,7 +34,7 @@ class CadenceGoal:
     visits_per_night: int
     phase_bins: int = 20
     min_spacing_min: float = 30.0
-    weight: float = 1.0
+    priority: float = 1.0  # a weight on the target's own priority
 
 
 @dataclass(frozen=True)

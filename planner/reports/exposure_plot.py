@@ -1,7 +1,8 @@
 """S/N against exposure time, with the saturation limit marked (matplotlib, shell code).
 
 The figure is built on a :class:`matplotlib.figure.Figure` with the Agg canvas: no
-pyplot state and no rcParams are touched, so it is safe inside other programs.
+pyplot state and no rcParams are touched, so it is safe inside other programs.  A
+figure made here carries the caution at its foot, as every gcplan figure does.
 """
 
 from __future__ import annotations
@@ -9,6 +10,11 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
+
+from planner.reports.figure_common import caution_footer
+
+#: Room kept at the foot of the figure for the caution (fraction of its height).
+_FOOTER_FRACTION = 0.06
 
 
 def plot_snr_against_exposure(times_s, snr_one_frame, *, snr_goal: float, saturation_s: float | None = None,
@@ -19,7 +25,7 @@ def plot_snr_against_exposure(times_s, snr_one_frame, *, snr_goal: float, satura
     Parameters
     ----------
     times_s, snr_one_frame : array_like
-        Frame times [s] and the S/N of one frame of each length.
+        Frame times (s) and the S/N of one frame of each length.
     snr_goal : float
         The S/N wanted (a horizontal line).
     saturation_s : float, optional
@@ -28,7 +34,8 @@ def plot_snr_against_exposure(times_s, snr_one_frame, *, snr_goal: float, satura
     frame_s, frames : float, int
         The chosen frame time and number of frames (a marker, and the stacked curve).
     ax : matplotlib Axes, optional
-        Where to draw; a new figure (Agg canvas) is made if not given.
+        Where to draw; a new figure (Agg canvas, the caution at its foot) is made if
+        not given.
 
     Returns
     -------
@@ -39,8 +46,10 @@ def plot_snr_against_exposure(times_s, snr_one_frame, *, snr_goal: float, satura
         from matplotlib.figure import Figure
 
         fig = Figure(figsize=(7.0, 4.5), layout="constrained")
+        fig.get_layout_engine().set(rect=(0.0, _FOOTER_FRACTION, 1.0, 1.0 - _FOOTER_FRACTION))
         FigureCanvasAgg(fig)
         ax = fig.add_subplot()
+        caution_footer(fig, 0.015, 0.015, fontsize=8)
     t = np.asarray(times_s, dtype=float)
     snr = np.asarray(snr_one_frame, dtype=float)
     ax.plot(t, snr, color="tab:blue", label="one frame")
@@ -59,7 +68,7 @@ def plot_snr_against_exposure(times_s, snr_one_frame, *, snr_goal: float, satura
     ax.set_xscale("log")
     ax.set_yscale("log")
     ax.set_xlim(t.min(), t.max())
-    ax.set_xlabel("frame time [s]")
+    ax.set_xlabel("frame time (s)")
     ax.set_ylabel("S/N")
     if title:
         ax.set_title(title, fontsize="medium")

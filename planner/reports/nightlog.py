@@ -7,7 +7,7 @@ A4 or US letter, portrait) opens with a header — site, night, observers,
 twilights and the Moon — then the entries as a table that continues over as
 many pages as it needs, repeating its column header; weather and notes
 follow, and a last landscape page draws the night's altitude chart
-(:func:`planner.reports.charts.night_chart`) with a dot for every entry.
+(:func:`planner.reports.altitude_chart.night_chart`) with a dot for every entry.
 Every page carries its number and the logbook it came from.
 """
 
@@ -20,8 +20,9 @@ from pathlib import Path
 
 import numpy as np
 
-from planner.cautions import PLAN_CAUTION, SHORT_CAUTION
+from planner.cautions import PLAN_CAUTION
 from planner.errors import OutputError
+from planner.reports.figure_common import caution_footer
 from planner.sky.almanac import Almanac, almanac_for_nights
 from planner.sky.nights import jd_to_datetime, local_hhmm, night_spans_jd, utc_hhmm
 
@@ -308,8 +309,7 @@ def _footer(fig, log: NightLog, size_in, number: int, total: int) -> None:
              transform=inch, fontsize=7.5, color="#5c6370", va="bottom")
     fig.text(w - _MARGIN_IN, _MARGIN_IN - 0.2, f"page {number} of {total}", transform=inch, fontsize=7.5,
              color="#5c6370", va="bottom", ha="right")
-    fig.text(_MARGIN_IN, _MARGIN_IN - 0.02, SHORT_CAUTION, transform=inch, fontsize=8, fontweight="bold",
-             color="#862e2e", va="bottom")
+    caution_footer(fig, _MARGIN_IN, _MARGIN_IN - 0.02, fontsize=8, transform=inch)
 
 
 # --- the chart of what was observed -----------------------------------------------
@@ -341,7 +341,8 @@ def observed_chart(log: NightLog, size_in, page: int | None = None):
     from matplotlib.figure import Figure
 
     from planner.model.constraints import constraints_for_site
-    from planner.reports.charts import jd_to_mdate, night_chart
+    from planner.reports.altitude_chart import night_chart
+    from planner.reports.figure_common import jd_to_mdate
     from planner.sky.night_summary import night_curves, run_of_nights
 
     targets = observed_targets(log)

@@ -10,7 +10,7 @@ from typing import Sequence
 
 import numpy as np
 
-from planner.cautions import SHORT_CAUTION
+from planner.reports.figure_common import caution_footer
 from planner.variables.phases import (
     RRAB_MINIMUM_LIGHT,
     RRAB_RISING_BRANCH,
@@ -53,8 +53,7 @@ def phase_coverage_axes(
         # Keep a strip 0.3 in high at the bottom for the caution, outside the layout.
         footer = 0.3 / height_in
         fig.get_layout_engine().set(rect=(0.0, footer, 1.0, 1.0 - footer))
-        fig.text(0.01, 0.1 * footer, SHORT_CAUTION, fontsize=8, fontweight="bold", color="#862e2e",
-                 va="bottom")
+        caution_footer(fig, 0.01, 0.1 * footer, fontsize=8)
         ax = fig.add_subplot()
     for edge in np.arange(1, n_bins) / n_bins:
         ax.axvline(edge, color="0.9", linewidth=0.5, zorder=0)

@@ -6,10 +6,13 @@ Pure computation over the sky and light cores.  May import :mod:`planner.model`,
 or the shells.
 
 * :mod:`~planner.scheduling.visits` — what a visit is and how long it takes.
-* :mod:`~planner.scheduling.frame` — the Sun and Moon once per run of nights,
+* :mod:`~planner.scheduling.night_sky` — the Sun and Moon once per run of nights,
   each night's usable window.
 * :mod:`~planner.scheduling.night` — one night's timed plan (dispatch with
-  look-ahead, then a gap-filling local search).
+  look-ahead, then a gap-filling local search), made of
+  :mod:`~planner.scheduling.slot_table` (the constraints on the night's slots),
+  :mod:`~planner.scheduling.dispatch` (the search) and
+  :mod:`~planner.scheduling.night_plan` (the plan's data classes).
 * :mod:`~planner.scheduling.campaign` — a campaign over its nights, and the forecast.
 * :mod:`~planner.scheduling.replan` — the rest of a night planned again from a moment.
 """

@@ -27,11 +27,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from planner.errors import CampaignError
+from planner.errors import CampaignError, InputError
 from planner.model.campaign import Campaign
 from planner.model.names import normalize_name
-from planner.scheduling.frame import night_frame
-from planner.scheduling.night import NightPlan, plan_night
+from planner.scheduling.night_sky import night_sky
+from planner.scheduling.night import plan_night
+from planner.scheduling.night_plan import NightPlan
 from planner.scheduling.visits import Exposure, VisitRequest, body_s
 
 #: Airmass at which goal exposures are computed: the middle of a typical visit (from memory).
@@ -78,7 +79,7 @@ def goal_exposures(campaign: Campaign, seeing_arcsec: float | None = None) -> di
                                        seeing_fwhm_arcsec=seeing, max_frame_s=campaign.max_frame_s)
             except CampaignError:
                 raise
-            except Exception as exc:  # an InputError from the exposure core: no way to meet the goal
+            except InputError as exc:  # from the exposure core: no way to meet the goal
                 raise CampaignError(f"[[goals]] #{i + 1} ({g.level} S/N {g.snr:g} in {g.filter}) for {name}: "
                                     f"{exc}", campaign.source) from None
             out[(i, name)] = (Exposure(g.filter, int(p.frames), float(p.frame_s)),)
@@ -102,14 +103,14 @@ def goal_exposures(campaign: Campaign, seeing_arcsec: float | None = None) -> di
                 else:
                     p = exposure_for_level(site, c.filter, science_level(t, "hb", band), c.snr,
                                            airmass=EXPOSURE_AIRMASS, seeing_fwhm_arcsec=seeing)
-            except Exception as exc:
+            except InputError as exc:  # from the exposure core, as for the goals
                 raise CampaignError(f"[cadence] S/N {c.snr:g} in {c.filter} for {t.name}: {exc}",
                                     campaign.source) from None
             out[("variables", t.name)] = (Exposure(c.filter, int(p.frames), float(p.frame_s)),)
     return out
 
 
-def night_requests(campaign: Campaign, exposures: dict, done: dict, urgency: dict, night_window_jd=None):
+def night_requests(campaign: Campaign, exposures: dict, done: dict, urgency: dict):
     """The requests of one night: open depth goals and the variable cadence."""
     by_name = {t.name: t for t in campaign.targets}
     out = []
@@ -121,7 +122,7 @@ def night_requests(campaign: Campaign, exposures: dict, done: dict, urgency: dic
             t = by_name[name]
             out.append(VisitRequest(
                 key=f"{name}/{g.level}-{g.filter}", target=name, ra_deg=t.ra_deg, dec_deg=t.dec_deg,
-                purpose=g.level, exposures=exposures[(i, name)], priority=t.priority * g.weight * urgency.get(
+                purpose=g.level, exposures=exposures[(i, name)], priority=t.priority * g.priority * urgency.get(
                     (i, name), 1.0), count=1, max_airmass=g.max_airmass, dark=g.dark,
                 max_seeing_arcsec=g.max_seeing_arcsec, patient=True,
                 notes=(f"S/N {g.snr:g} at the {g.level} level",) + (("dark time",) if g.dark else ())))
@@ -137,17 +138,18 @@ def night_requests(campaign: Campaign, exposures: dict, done: dict, urgency: dic
             t = by_name[name]
             out.append(VisitRequest(
                 key=f"{name}/variables", target=name, ra_deg=t.ra_deg, dec_deg=t.dec_deg, purpose="variables",
-                exposures=exposures[("variables", name)], priority=t.priority * c.weight,
+                exposures=exposures[("variables", name)], priority=t.priority * c.priority,
                 count=c.visits_per_night, min_spacing_min=c.min_spacing_min,
                 phase_periods_d=tuple(v.period_d for v in stars), phase_epochs_jd=tuple(v.epoch_hjd for v in stars),
                 phase_bins=c.phase_bins, notes=(f"{len(stars)} RR Lyrae",)))
     return out
 
 
-def check_fits_the_night(campaign: Campaign, exposures: dict, frame) -> None:
-    """A visit longer than the campaign's longest usable window is an error."""
-    longest = float(np.nanmax(np.where(np.isfinite(frame.window_start_jd),
-                                       frame.window_end_jd - frame.window_start_jd, 0.0))) * 86400.0
+def check_fits_the_night(campaign: Campaign, exposures: dict, sky) -> None:
+    """A visit longer than the campaign's longest usable window (of the :class:`NightSky`
+    ``sky``) is an error."""
+    longest = float(np.nanmax(np.where(np.isfinite(sky.window_start_jd),
+                                       sky.window_end_jd - sky.window_start_jd, 0.0))) * 86400.0
     for key, exps in exposures.items():
         need = body_s(campaign.site, exps)
         if need > longest:
@@ -190,7 +192,7 @@ def plan_campaign(campaign: Campaign, *, seeing_arcsec: float | None = None, for
     """Plan every night of the campaign, then forecast the coverage and period recovery."""
     site, constraints = campaign.site, campaign.constraints
     seeing = seeing_arcsec or campaign.seeing_arcsec or site.sky.typical_seeing_arcsec
-    frame = night_frame(site, campaign.nights, constraints)  # the Sun and Moon once for the campaign
+    frame = night_sky(site, campaign.nights, constraints)  # the Sun and Moon once for the campaign
     exposures = goal_exposures(campaign, seeing)
     check_fits_the_night(campaign, exposures, frame)
     done: dict = {}

@@ -22,7 +22,8 @@ from __future__ import annotations
 import datetime as dt
 from dataclasses import dataclass, replace
 
-from planner.scheduling.night import NightPlan, plan_night
+from planner.scheduling.night import plan_night
+from planner.scheduling.night_plan import NightPlan
 from planner.sky.nights import iso_utc
 
 #: A logbook entry counts for a planned visit when it starts this close to the visit (days).

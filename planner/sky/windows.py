@@ -85,12 +85,47 @@ def visibility_for_nights(
     ra, dec = places.at(mid)  # (N, M): fixed for the night
     limit = constraints.altitude_limit_deg
 
-    # --- closed form: altitude windows -------------------------------------
     upper, lower = culmination_altitudes_deg(geo.latitude_deg, dec)
-    h0 = hour_angle_at_altitude_deg(geo.latitude_deg, dec, limit)
-    h0 = np.where(upper < limit, -1.0, np.where(lower >= limit, 360.0, h0))  # never / always up
     ha_start = wrap_180(local_sidereal_deg(eph, s, geo.longitude_deg)[None, :] - ra)
     span_deg = (SIDEREAL_DEG_PER_DAY * (e - s))[None, :]
+    hours, w_start, w_end = _altitude_windows(geo.latitude_deg, dec, (upper, lower), limit, s, ha_start,
+                                              span_deg)
+
+    need, sep_c = _where_sampling_is_needed(eph, geo, ra, dec, s, e, constraints)
+    need &= (hours > 0.0) & has_dark[None, :]
+    _refine_on_grid(eph, geo, ra, dec, s, e, constraints, step_min, need, hours, w_start, w_end)
+
+    hours = np.where(has_dark[None, :], hours, 0.0)
+    w_start = np.where(has_dark[None, :], w_start, np.nan)
+    w_end = np.where(has_dark[None, :], w_end, np.nan)
+
+    t_transit, peak = _transit_and_peak(eph, geo, ra, dec, s, e, ha_start, span_deg, upper)
+    dark_nan = lambda x: np.where(has_dark[None, :], x, np.nan)  # noqa: E731
+    max_alt = dark_nan(peak)
+    return NightVisibility(
+        observable_hours=hours,
+        window_start_jd=w_start,
+        window_end_jd=w_end,
+        transit_jd=t_transit,
+        max_altitude_deg=max_alt,
+        min_airmass=airmass_kasten_young(max_alt),
+        moon_separation_deg=dark_nan(sep_c[..., _COARSE_SAMPLES // 2]),
+        min_moon_separation_deg=dark_nan(sep_c.min(axis=-1)),
+        dark_start_jd=np.where(has_dark, dark_start, np.nan),
+        dark_end_jd=np.where(has_dark, dark_end, np.nan),
+    )
+
+
+def _altitude_windows(latitude_deg, dec, culminations, limit, s, ha_start, span_deg):
+    """Closed form: hours above ``limit`` and the longest stretch, from hour-angle intervals.
+
+    ``culminations`` are the (upper, lower) culmination altitudes, ``ha_start``
+    each target's hour angle at the window start ``s`` and ``span_deg`` the
+    window's length in degrees of rotation; arrays (N, M).
+    """
+    upper, lower = culminations
+    h0 = hour_angle_at_altitude_deg(latitude_deg, dec, limit)
+    h0 = np.where(upper < limit, -1.0, np.where(lower >= limit, 360.0, h0))  # never / always up
     lo_all, hi_all = [], []
     for n in (0, 1, 2):  # hour-angle intervals ±H₀ around successive upper transits
         a = -h0 - ha_start + 360.0 * n
@@ -111,10 +146,13 @@ def visibility_for_nights(
     w_start = s[None, :] + take(lo_u) / SIDEREAL_DEG_PER_DAY
     w_end = s[None, :] + take(hi_u) / SIDEREAL_DEG_PER_DAY
     none = take(lengths) <= 0.0
-    w_start = np.where(none, np.nan, w_start)
-    w_end = np.where(none, np.nan, w_end)
+    return hours, np.where(none, np.nan, w_start), np.where(none, np.nan, w_end)
 
-    # --- coarse check: where could the Moon or the horizon mask bite? ------
+
+def _where_sampling_is_needed(eph, geo, ra, dec, s, e, constraints):
+    """Coarse (about hourly) check: the target-nights where the Moon, sun avoidance or
+    the horizon mask could bite, and the hourly Moon separations (N, M, C)."""
+    limit = constraints.altitude_limit_deg
     frac_c = np.linspace(0.0, 1.0, _COARSE_SAMPLES)
     coarse_jd = s[:, None] + (e - s)[:, None] * frac_c[None, :]  # (M, C)
     lst_c = local_sidereal_deg(eph, coarse_jd, geo.longitude_deg)
@@ -138,29 +176,34 @@ def visibility_for_nights(
         need |= moon_margin.min(axis=-1) < 16.0
     if constraints.horizon_az_deg:
         need |= max(constraints.horizon_alt_deg) > limit
-    need &= (hours > 0.0) & has_dark[None, :]
+    return need, sep_c
 
+
+def _refine_on_grid(eph, geo, ra, dec, s, e, constraints, step_min, need, hours, w_start, w_end):
+    """Sample the target-nights in ``need`` on the fine grid and overwrite their hours and
+    window (in place) with what every constraint allows."""
     rows_n, rows_m = np.nonzero(need)
-    if rows_n.size:
-        length_d = float(np.max(e[rows_m] - s[rows_m]))
-        k = max(int(np.ceil(length_d * 1440.0 / step_min)) + 1, 2)
-        frac = np.linspace(0.0, 1.0, k)
-        nights_needed, which = np.unique(rows_m, return_inverse=True)
-        night_jd = s[nights_needed, None] + (e - s)[nights_needed, None] * frac[None, :]  # (U, K)
-        track = time_track(eph, geo, night_jd).rows(which)  # Sun and Moon once per night
-        grid_jd = track.jd_utc  # (R, K)
-        sky = sky_at(track, geo.latitude_deg, ra[rows_n, rows_m, None], dec[rows_n, rows_m, None])
-        margin = constraint_margin_deg(sky, constraints)
-        g_hours, g_start, g_end = integrate_margin(margin, grid_jd)
-        hours[rows_n, rows_m] = g_hours
-        w_start[rows_n, rows_m] = g_start
-        w_end[rows_n, rows_m] = g_end
+    if not rows_n.size:
+        return
+    length_d = float(np.max(e[rows_m] - s[rows_m]))
+    k = max(int(np.ceil(length_d * 1440.0 / step_min)) + 1, 2)
+    frac = np.linspace(0.0, 1.0, k)
+    nights_needed, which = np.unique(rows_m, return_inverse=True)
+    night_jd = s[nights_needed, None] + (e - s)[nights_needed, None] * frac[None, :]  # (U, K)
+    track = time_track(eph, geo, night_jd).rows(which)  # Sun and Moon once per night
+    grid_jd = track.jd_utc  # (R, K)
+    sky = sky_at(track, geo.latitude_deg, ra[rows_n, rows_m, None], dec[rows_n, rows_m, None])
+    margin = constraint_margin_deg(sky, constraints)
+    g_hours, g_start, g_end = integrate_margin(margin, grid_jd)
+    hours[rows_n, rows_m] = g_hours
+    w_start[rows_n, rows_m] = g_start
+    w_end[rows_n, rows_m] = g_end
 
-    hours = np.where(has_dark[None, :], hours, 0.0)
-    w_start = np.where(has_dark[None, :], w_start, np.nan)
-    w_end = np.where(has_dark[None, :], w_end, np.nan)
 
-    # --- closed forms: transit and the highest altitude in the window ------
+def _transit_and_peak(eph, geo, ra, dec, s, e, ha_start, span_deg, upper):
+    """Closed forms: the upper transit nearest the window's middle and the highest
+    altitude within the window (the culmination if a transit falls inside, else an edge)."""
+    mid = 0.5 * (s + e)
     t_transit = transit_jd(eph, mid[None, :], ra, geo.longitude_deg)
     ha_end = ha_start + span_deg
     alt_edges = np.maximum(
@@ -171,20 +214,7 @@ def visibility_for_nights(
     for shift in (-day, 0.0, day):  # a polar-night window can hold a transit a day away
         t = t_transit + shift
         inside |= (t >= s[None, :]) & (t <= e[None, :])
-    max_alt = np.where(has_dark[None, :], np.where(inside, upper, alt_edges), np.nan)
-    dark_nan = lambda x: np.where(has_dark[None, :], x, np.nan)  # noqa: E731
-    return NightVisibility(
-        observable_hours=hours,
-        window_start_jd=w_start,
-        window_end_jd=w_end,
-        transit_jd=t_transit,
-        max_altitude_deg=max_alt,
-        min_airmass=airmass_kasten_young(max_alt),
-        moon_separation_deg=dark_nan(sep_c[..., _COARSE_SAMPLES // 2]),
-        min_moon_separation_deg=dark_nan(sep_c.min(axis=-1)),
-        dark_start_jd=np.where(has_dark, dark_start, np.nan),
-        dark_end_jd=np.where(has_dark, dark_end, np.nan),
-    )
+    return t_transit, np.where(inside, upper, alt_edges)
 
 
 def coarse_separation_deg(ra1, dec1, ra2, dec2):

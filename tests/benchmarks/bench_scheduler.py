@@ -38,7 +38,7 @@ def main(argv=None) -> int:
     from planner.inputs.sites import resolve_site
     from planner.inputs.targets import resolve_targets
     from planner.model.constraints import constraints_for_site
-    from planner.scheduling.frame import night_frame, requests_for_targets
+    from planner.scheduling.night_sky import night_sky, requests_for_targets
     from planner.scheduling.night import plan_night
     from planner.scheduling.visits import Exposure
     from planner.sky.night_summary import run_of_nights
@@ -94,7 +94,7 @@ def main(argv=None) -> int:
 
     def ours(ut1):
         t0 = time.perf_counter()
-        frame = night_frame(site, [night], c, ut1_table=ut1)
+        frame = night_sky(site, [night], c, ut1_table=ut1)
         p = plan_night(site, c, requests_for_targets(targets, exposures), night,
                        float(frame.window_start_jd[0]), float(frame.window_end_jd[0]), frame.ephemeris)
         return time.perf_counter() - t0, p

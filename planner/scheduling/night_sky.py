@@ -1,5 +1,7 @@
 """The Sun and Moon of a run of nights, computed once, and each night's usable window.
 
+(Named the night's sky, not a "frame", so as not to be read as an image frame.)
+
 Shared by every night of a campaign (:mod:`planner.scheduling.campaign`) and by the
 one-night commands; also the ad-hoc requests of a one-night schedule (every target once, one visit).
 """
@@ -18,7 +20,7 @@ from planner.sky.ephemeris import Ephemeris, moon_phase, site_geometry
 
 
 @dataclass(frozen=True)
-class NightFrame:
+class NightSky:
     """The Sun and Moon of a run of nights, computed once: the ephemeris, each night's
     usable window (the Sun below the constraints' twilight) and the Moon's illuminated
     fraction at the window's middle."""
@@ -36,7 +38,7 @@ def usable_windows_jd(eph: Ephemeris, geo, span_start_jd, span_end_jd, twilight:
     return dark_windows_for_spans(eph, geo, span_start_jd, span_end_jd, twilight)
 
 
-def night_frame(site, nights, constraints: Constraints, ut1_table=None) -> NightFrame:
+def night_sky(site, nights, constraints: Constraints, ut1_table=None) -> NightSky:
     """The Sun and Moon over ``nights`` once.  ``ut1_table`` (from
     :func:`planner.earth_rotation.load_ut1_table`) saves re-reading the IERS table
     when a process plans many times."""
@@ -50,7 +52,7 @@ def night_frame(site, nights, constraints: Constraints, ut1_table=None) -> Night
     geo = site_geometry(loc.latitude_deg, loc.longitude_deg, loc.elevation_m)
     w0, w1 = usable_windows_jd(eph, geo, s, e, constraints.twilight)
     mid = np.where(np.isfinite(w0), 0.5 * (w0 + w1), 0.5 * (s + e))
-    return NightFrame(tuple(nights), eph, w0, w1, np.asarray(moon_phase(eph, mid)[0], dtype=float))
+    return NightSky(tuple(nights), eph, w0, w1, np.asarray(moon_phase(eph, mid)[0], dtype=float))
 
 
 def requests_for_targets(targets, exposures, purpose: str = "visit") -> list[VisitRequest]:

@@ -1,0 +1,79 @@
+"""One night's plan as data: its visits in time order, the gaps between them, what did not fit.
+
+Made by :func:`planner.scheduling.night.plan_night`; read by the campaign, the
+re-planner, the validator and every writer of a plan.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from planner.model.constraints import Constraints
+from planner.scheduling.visits import Visit
+
+
+@dataclass(frozen=True)
+class Gap:
+    start_jd: float
+    end_jd: float
+    reason: str  # "idle" (nothing observable fits) or "closed"
+
+    @property
+    def minutes(self) -> float:
+        return (self.end_jd - self.start_jd) * 1440.0
+
+
+@dataclass(frozen=True)
+class Unplanned:
+    key: str
+    target: str
+    purpose: str
+    wanted: int
+    planned: int
+    reason: str
+
+
+@dataclass(frozen=True)
+class NightPlan:
+    """The plan of one night: visits in time order, the gaps between them, what did not fit."""
+
+    night: dt.date
+    constraints: Constraints
+    window_start_jd: float  # the usable window (the Sun below the twilight's altitude)
+    window_end_jd: float
+    visits: tuple[Visit, ...]
+    gaps: tuple[Gap, ...]
+    unplanned: tuple[Unplanned, ...]
+    closed: tuple[tuple[float, float], ...]
+    seeing_arcsec: float
+    moon_illumination: float
+    value: float
+    method: str
+    warnings: tuple[str, ...] = field(default_factory=tuple)
+
+    @property
+    def window_minutes(self) -> float:
+        if not np.isfinite(self.window_start_jd):
+            return 0.0
+        return (self.window_end_jd - self.window_start_jd) * 1440.0
+
+    @property
+    def idle_minutes(self) -> float:
+        return float(sum(g.minutes for g in self.gaps if g.reason == "idle"))
+
+    @property
+    def closed_minutes(self) -> float:
+        return float(sum(g.minutes for g in self.gaps if g.reason == "closed"))
+
+    @property
+    def shutter_s(self) -> float:
+        return float(sum(v.shutter_s for v in self.visits))
+
+    @property
+    def efficiency(self) -> float:
+        """Shutter-open time over the usable window."""
+        w = self.window_minutes * 60.0
+        return self.shutter_s / w if w > 0 else 0.0
