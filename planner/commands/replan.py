@@ -143,7 +143,7 @@ def read_logbook_night(campaign, night, path: str | None = None):
     if not p.is_file():
         if path:
             raise LogbookError(f"--logbook {path!r}: no such file")
-        return (), (), set(), None
+        return (), (), set(), f"no logbook at {p}: nothing is read from one"
     zone = campaign.site.location.timezone
     a, b = local_noon_jd(night, zone), local_noon_jd(night + dt.timedelta(days=1), zone)
     with Logbook(p) as book:

@@ -343,7 +343,7 @@ class Logbook:
     def _fulfil_visit(self, entry_id: int, entry: NewEntry, night: str, key=None) -> None:
         from dataclasses import replace
 
-        from planner.model.evidence import line_fits
+        from planner.model.evidence import line_fits, outside_span_d
         from planner.model.names import normalize_name
 
         frame = _Frame(entry_id, entry)
@@ -355,9 +355,10 @@ class Logbook:
         fits = [v for v in spans if v.exposures and line_fits(v, v.exposures[0], frame, key or normalize_name)]
         if not fits:
             return
-        v = min(fits, key=lambda v: (max(v.start_jd - entry.time_jd, entry.time_jd - v.end_jd, 0.0), v.start_jd, v.id))
+        v = min(fits, key=lambda v: (outside_span_d(v, entry.time_jd), v.start_jd, v.id))
         self._db.execute("UPDATE entries SET visit_id = ? WHERE id = ?", (v.id, entry_id))
-        have = self._db.execute("SELECT COALESCE(SUM(frames), 0) FROM entries WHERE visit_id = ?", (v.id,)).fetchone()[0]
+        have = self._db.execute("SELECT COALESCE(SUM(frames), 0) FROM entries WHERE visit_id = ?",
+                                (v.id,)).fetchone()[0]
         if have >= v.frames:
             self._db.execute("UPDATE planned_visits SET done_entry_id = ? WHERE id = ?", (entry_id, v.id))
 

@@ -65,7 +65,7 @@ def exposure_matches(planned_s: float, logged_s: float | None) -> bool:
     return abs(float(logged_s) - float(planned_s)) <= EXPOSURE_TOLERANCE * float(planned_s) + 1e-9
 
 
-def _distance_d(visit, time_jd: float) -> float:
+def outside_span_d(visit, time_jd: float) -> float:
     """How far a moment lies outside the visit's span (0 inside), days."""
     return max(visit.start_jd - time_jd, time_jd - visit.end_jd, 0.0)
 
@@ -75,7 +75,7 @@ def line_fits(visit, line, frame, key: Callable[[str], str] = normalize_name) ->
     return (frame.filter is not None and frame.filter == line.filter
             and exposure_matches(line.exposure_s, frame.exposure_s)
             and key(frame.target) == key(visit.target)
-            and _distance_d(visit, frame.time_jd) <= TIME_TOLERANCE_D)
+            and outside_span_d(visit, frame.time_jd) <= TIME_TOLERANCE_D)
 
 
 def match_visits(visits: Sequence, frames: Iterable, key: Callable[[str], str] = normalize_name
@@ -87,7 +87,7 @@ def match_visits(visits: Sequence, frames: Iterable, key: Callable[[str], str] =
     for f in sorted(frames, key=lambda f: (f.time_jd, f.id if f.id is not None else 0)):
         left = max(int(f.frames or 1), 1)
         # Candidates: (distance outside the span, start, visit, line) with frames still wanted.
-        cands = sorted(((_distance_d(v, f.time_jd), v.start_jd, n, v, k) for n, v in enumerate(visits)
+        cands = sorted(((outside_span_d(v, f.time_jd), v.start_jd, n, v, k) for n, v in enumerate(visits)
                         for k, line in enumerate(v.exposures) if line_fits(v, line, f, key)),
                        key=lambda c: c[:3])
         for _, _, _, v, k in cands:

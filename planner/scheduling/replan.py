@@ -103,6 +103,9 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     closed = tuple(sorted(tuple(closed) + tuple(logged_closed)))
     past, evidence = _past_statuses(original, now_jd, closed, logged_closed, done, logged, key, assume_done)
     reasons = []
+    unmatched = [d for d in done if not any(same_visit_id(d, v.id) or key(v.target) == key(d) for v in past)]
+    notes = tuple(f"--done {d!r} names no visit of this plan before now (ids as the night sheet shows them, "
+                  "e.g. N1851-var3, or a target name)" for d in unmatched)
     missed = [v for v in past if v.status == "missed"]
     partial = [v for v in past if v.status == "partial"]
     if missed:
@@ -119,7 +122,8 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     if not reasons:
         keep = {v.id: v for v in past}
         visits = tuple(keep.get(v.id, v) for v in original.visits)
-        return ReplanResult(replace(original, visits=visits, closed=closed), original, now_jd, ())
+        return ReplanResult(replace(original, visits=visits, closed=closed, warnings=original.warnings + notes),
+                            original, now_jd, ())
     requests = requests + _owed_requests(partial, requests, evidence)
     if seeing != planned_seeing:
         exposures = goal_exposures(campaign, seeing)
@@ -133,7 +137,8 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     kept = {id(v) for v in fixed}
     new = assign_ids([v for v in plan.visits if id(v) not in kept], night, used)
     visits = tuple(sorted(list(fixed) + new + missed, key=lambda v: v.start_jd))
-    return ReplanResult(replace(plan, visits=visits), original, now_jd, tuple(reasons))
+    return ReplanResult(replace(plan, visits=visits, warnings=plan.warnings + notes), original, now_jd,
+                        tuple(reasons))
 
 
 def _past_statuses(original, now_jd, closed, logged_closed, done, logged, key, assume_done):
