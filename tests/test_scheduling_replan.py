@@ -200,3 +200,11 @@ def test_replan_reads_weather_closures_from_the_campaign_logbook(tmp_path, capsy
     assert past and all(v in after["visits"] or any(
         w["id"] == v["id"] and w["start"] == v["start"] and w["end"] == v["end"] for w in after["visits"])
         for v in past)
+
+
+def test_done_naming_no_visit_is_a_warning(setup):
+    campaign, original, _ = setup
+    now = original.visits[3].end_jd + 1e-4
+    result = replan_night(campaign, NIGHT, now, done=(original.visits[0].id, "N9999-var1"))
+    assert any("'N9999-var1' names no visit" in w for w in result.plan.warnings)
+    assert not any(original.visits[0].id in w for w in result.plan.warnings)

@@ -118,3 +118,16 @@ def test_max_altitude_option_below_the_lower_limit_is_an_error(capsys):
     code = main(["night", "--site", "demo", "--target", TARGET, "--date", str(NIGHT), "--max-altitude", "10"])
     _, err = capsys.readouterr()
     assert code == 2 and err.count("\n") == 1 and "--max-altitude" in err
+
+
+def test_night_text_and_json_show_the_gap(tmp_path, capsys):
+    import json
+
+    path = _profile(tmp_path, f"max_altitude_deg = {MAX_ALT}")
+    assert main(["night", "--site", str(path), "--target", TARGET, "--date", str(NIGHT)]) == 0
+    text = capsys.readouterr().out
+    assert "≤ 85.0°" in text and "above 85° (not usable)" in text
+    assert max(len(line) for line in text.splitlines()) <= 80
+    assert main(["night", "--site", str(path), "--target", TARGET, "--date", str(NIGHT), "--json"]) == 0
+    [row] = json.loads(capsys.readouterr().out)["targets"]
+    assert len(row["windows"]) == 2 and row["windows"][0]["end"] < row["transit"] < row["windows"][1]["start"]
