@@ -45,6 +45,8 @@ from planner.sky.nights import iso_utc
 
 #: How each source of a status reads in the texts.
 STATUS_SOURCE_WORDS = {"logbook": "logbook", "observer": "--done", "assumed": "assumed"}
+#: Joins a request's key and a partial visit's id in the key of the request for its owed frames.
+OWED = " owed by "
 #: The statuses a past visit can have, in the order the texts list them.
 PAST_STATUSES = ("done", "partial", "under way", "missed", "unknown")
 
@@ -181,12 +183,14 @@ def _owed_requests(partial, requests, evidence):
         owed = tuple(Exposure(o.filter, o.frames, o.exposure_s) for o in evidence[v.id].owed)
         if q is None or not owed:
             continue
-        out.append(replace(q, key=f"{q.key} owed by {v.id}", exposures=owed, count=1, min_spacing_min=0.0,
+        out.append(replace(q, key=f"{q.key}{OWED}{v.id}", exposures=owed, count=1, min_spacing_min=0.0,
                            notes=(f"the frames {v.id} still owes",) + tuple(q.notes)))
     return out
 
 
 def _new_exposures(q, exposures, campaign):
+    if OWED in q.key:  # the frames a partial visit owes match those it already has
+        return q.exposures
     if q.purpose == "variables":
         return exposures.get(("variables", q.target), q.exposures)
     for i, g in enumerate(campaign.goals):
