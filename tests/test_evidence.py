@@ -9,16 +9,10 @@ import pytest
 
 from planner.inputs.catalog import load_catalog
 from planner.model.evidence import EXPOSURE_TOLERANCE, TIME_TOLERANCE_D, match_visits
+from planner.model.evidence import FrameLine as Line
 
 JD0 = 2461411.6
 SPAN_D = 20 / 1440
-
-
-@dataclass(frozen=True)
-class Line:
-    filter: str
-    frames: int
-    exposure_s: float
 
 
 @dataclass(frozen=True)

@@ -137,9 +137,9 @@ class PlannedVisit:
     @property
     def exposures(self):
         """The visit as one line of frames (what :mod:`planner.model.evidence` reads)."""
-        from planner.model.evidence import Owed
+        from planner.model.evidence import FrameLine
 
-        return (Owed(self.filter, int(self.frames), float(self.exposure_s)),) if (
+        return (FrameLine(self.filter, int(self.frames), float(self.exposure_s)),) if (
             self.filter is not None and self.exposure_s is not None) else ()
 
 

@@ -40,8 +40,8 @@ TIME_TOLERANCE_D = 15.0 / 1440.0
 
 
 @dataclass(frozen=True)
-class Owed:
-    """Frames of one line of a visit still to take."""
+class FrameLine:
+    """A line of frames: ``frames`` × ``exposure_s`` in ``filter`` (planned, or still owed)."""
 
     filter: str
     frames: int
@@ -54,7 +54,7 @@ class VisitEvidence:
     status: str | None  # "done" | "partial" | None (no frame of it in the log)
     frames_found: int
     frames_planned: int
-    owed: tuple[Owed, ...]
+    owed: tuple[FrameLine, ...]
     entry_ids: tuple  # the log entries counted for it
 
 
@@ -104,7 +104,7 @@ def match_visits(visits: Sequence, frames: Iterable, key: Callable[[str], str] =
     for v in visits:
         found, planned = sum(got[v.id]), sum(need[v.id])
         status = None if found == 0 else "done" if found >= planned else "partial"
-        owed = tuple(Owed(e.filter, n - g, float(e.exposure_s))
+        owed = tuple(FrameLine(e.filter, n - g, float(e.exposure_s))
                      for e, n, g in zip(v.exposures, need[v.id], got[v.id]) if n > g)
         out[v.id] = VisitEvidence(v.id, status, found, planned, owed, tuple(entries[v.id]))
     return out
