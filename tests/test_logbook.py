@@ -57,10 +57,10 @@ def test_migration_brings_a_version_1_file_up_to_date(tmp_path):
     db.commit()
     db.close()
     with Logbook(path) as book:
-        assert book.schema_version() == 2
+        assert book.schema_version() == SCHEMA_VERSION == 3
         assert [e.target for e in book.entries()] == ["NGC 104"]  # the old entry survives
         indexes = {r[0] for r in book._db.execute("SELECT name FROM sqlite_master WHERE type = 'index'")}
-        assert {"entries_time", "entries_file", "visits_night"} <= indexes
+        assert {"entries_time", "entries_file", "visits_night", "visits_plan_id"} <= indexes
 
 
 def test_a_newer_schema_is_refused(tmp_path):
@@ -115,19 +115,45 @@ def test_bad_entries_are_refused_without_a_trace(tmp_path):
         assert book.count_entries() == 0 and book.weather() == []
 
 
-def test_an_entry_marks_its_planned_visit_done(tmp_path):
+def test_entries_complete_their_planned_visit_only_with_its_frames(tmp_path):
+    """An entry is linked to the planned visit it is evidence for (same cluster by the
+    catalog's aliases, same filter, exposure within 10 %, inside the visit's time); the
+    visit is done once all its frames are in."""
+    from planner.inputs.catalog import load_catalog
+
+    key = load_catalog().key
+    night = "2027-05-12"
+    span = 10 / 1440
     with Logbook(tmp_path / "a.sqlite") as book:
-        ids = book.add_planned_visits("2027-05-12", [
-            {"target": "NGC 104", "filter": "V", "exposure_s": 30, "start_jd": JD0},
-            {"target": "NGC 104", "filter": "I", "exposure_s": 30, "start_jd": JD0 + 0.01},
+        ids = book.add_planned_visits(night, [
+            {"target": "NGC 104", "filter": "V", "exposure_s": 30, "frames": 1, "start_jd": JD0,
+             "end_jd": JD0 + span, "plan_id": "0512-N104-hbV1", "line": 0},
+            {"target": "NGC 104", "filter": "I", "exposure_s": 100, "frames": 2, "start_jd": JD0 + 0.01,
+             "end_jd": JD0 + 0.01 + span, "plan_id": "0512-N104-tipI1", "line": 0},
             {"target": "NGC 362", "start_jd": JD0 + 0.02}])
-        e1 = book.add_entry(NewEntry(time_jd=JD0, target="ngc104", filter="I"), night="2027-05-12")
-        e2 = book.add_entry(NewEntry(time_jd=JD0, target="NGC 2808", filter="V"), night="2027-05-12")
-        e3 = book.add_entry(NewEntry(time_jd=JD0, target="NGC 104", filter="I"), night="2027-05-12")
-        visits = {v.id: v.done_entry_id for v in book.planned_visits("2027-05-12")}
-        assert visits == {ids[0]: None, ids[1]: e1, ids[2]: None}  # names compared as the catalog does
+        t = JD0 + 0.011
+        wrong_filter = book.add_entry(NewEntry(time_jd=t, target="NGC 104", filter="R", exposure_s=100), night, key)
+        long_exp = book.add_entry(NewEntry(time_jd=t, target="NGC 104", filter="I", exposure_s=120), night, key)
+        first = book.add_entry(NewEntry(time_jd=t, target="47 Tuc", filter="I", exposure_s=95), night, key)
+        half = {v.id: v.done_entry_id for v in book.planned_visits(night)}
+        second = book.add_entry(NewEntry(time_jd=t + 0.002, target="ngc104", filter="I", exposure_s=100), night, key)
+        visits = {v.id: v.done_entry_id for v in book.planned_visits(night)}
         by_id = {e.id: e.visit_id for e in book.entries()}
-        assert by_id[e1] == ids[1] and by_id[e2] is None and by_id[e3] is None
+    assert half == {ids[0]: None, ids[1]: None, ids[2]: None}  # one frame of two: not done
+    assert visits == {ids[0]: None, ids[1]: second, ids[2]: None}
+    assert by_id[first] == by_id[second] == ids[1]
+    assert by_id[wrong_filter] is None and by_id[long_exp] is None
+
+
+def test_recording_a_plan_twice_adds_nothing(tmp_path):
+    rows = [{"target": "NGC 104", "filter": f, "exposure_s": 30, "start_jd": JD0, "end_jd": JD0 + 0.01,
+             "plan_id": "0512-N104-hbV1", "line": n} for n, f in enumerate("VI")]
+    with Logbook(tmp_path / "a.sqlite") as book:
+        first = book.add_planned_visits("2027-05-12", rows)
+        again = book.add_planned_visits("2027-05-12", rows)
+        stored = book.planned_visits("2027-05-12")
+        assert len(first) == 2 and again == [] and len(stored) == 2
+        assert {v.plan_id for v in stored} == book.planned_ids("2027-05-12") == {"0512-N104-hbV1"}
 
 
 def test_night_of_a_moment_is_its_local_evening_date():

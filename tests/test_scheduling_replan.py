@@ -38,6 +38,11 @@ def test_nothing_changed_gives_the_same_plan(setup):
     result = replan_night(campaign, NIGHT, now)
     assert not result.reasons
     assert [_key(v) for v in result.plan.visits] == [_key(v) for v in original.visits]
+    # nothing logged and nothing said: the past is unknown, not claimed done
+    past = [v for v in result.plan.visits if v.start_jd < now and v.end_jd <= now]
+    assert past and {(v.status, v.status_source) for v in past} == {("unknown", None)}
+    assumed = replan_night(campaign, NIGHT, now, assume_done=True)
+    assert {(v.status, v.status_source) for v in assumed.plan.visits if v.end_jd <= now} == {("done", "assumed")}
     again = replan_night(campaign, NIGHT, now)
     assert [_key(v) for v in again.plan.visits] == [_key(v) for v in result.plan.visits]
 
@@ -66,10 +71,11 @@ def test_weather_loss_never_touches_the_past(setup):
 def test_done_list_and_missed_visits(setup):
     campaign, original, requests = setup
     now = original.visits[5].end_jd + 1e-4
-    done = [v.id for v in original.visits[:3]]
+    done = [v.id for v in original.visits[:2]] + [original.visits[2].id.split("-", 1)[1].upper()]
     result = replan_night(campaign, NIGHT, now, done=tuple(done))
     status = {v.id: v.status for v in result.plan.visits if v.start_jd < now}
-    assert [status[i] for i in done] == ["done"] * 3
+    assert [status[v.id] for v in original.visits[:3]] == ["done"] * 3  # the night sheet's form, any case
+    assert {v.status_source for v in result.plan.visits[:3]} == {"observer"}
     assert {status[v.id] for v in original.visits[3:6]} == {"missed"}
     assert validate_plan(campaign.site, result.plan, requests) == []
 
@@ -144,20 +150,27 @@ def test_done_visits_and_weather_from_the_logbook(setup, tmp_path, capsys):
         '"variables.ecsv"', f'"{(DEMO.parent / "variables.ecsv").as_posix()}"')
     (folder / "campaign.toml").write_text(src)
     now = original.visits[6].end_jd + 1e-4
+    aliases = {"NGC 104": "47 Tuc", "NGC 362": "ngc0362"}  # as an observer might type them
     with Logbook(folder / "logbook.sqlite") as book:
-        for v in original.visits[:2]:  # two of the first seven logged
-            book.add_entry(NewEntry(time_jd=v.science_start_jd, target=v.target, filter="V"))
+        for v in original.visits[:2]:  # two of the first seven logged, every frame as planned
+            for e in v.exposures:
+                book.add_entry(NewEntry(time_jd=v.science_start_jd, target=aliases.get(v.target, v.target),
+                                        filter=e.filter, exposure_s=e.exposure_s, frames=e.frames))
+        third = original.visits[2]  # the wrong filter: no evidence
+        other = next(f for f in campaign.site.filters if f != third.exposures[0].filter)
+        book.add_entry(NewEntry(time_jd=third.science_start_jd, target=third.target, filter=other,
+                                exposure_s=third.exposures[0].exposure_s, frames=third.exposures[0].frames))
         book.add_weather(now, "closed")
         book.add_weather(now + 0.04, "open")
     code = main(["replan", "--campaign", str(folder / "campaign.toml"), "--date", str(NIGHT),
                  "--now", iso_utc(now), "--json"])
     assert code == 0
     data = json.loads(capsys.readouterr().out)
-    status = {v["id"]: v["status"] for v in data["visits"]}
-    logged_targets = {v.target for v in original.visits[:2]}
-    assert [status[v.id] for v in original.visits[:2]] == ["done", "done"]
-    others = [v for v in original.visits[2:7] if v.target not in logged_targets]
-    assert others and all(status[v.id] == "missed" for v in others)
+    status = {v["id"]: (v["status"], v["status_source"]) for v in data["visits"]}
+    assert [status[v.id] for v in original.visits[:2]] == [("done", "logbook")] * 2
+    assert status[third.id] == ("missed", "logbook")
+    assert all(status[v.id][0] == "missed" for v in original.visits[3:7])
+    assert data["replan"]["status_sources"]["logbook"]
     assert "logbook" in data["replan"]["logbook"]
     assert any(g["reason"] == "closed" for g in data["gaps"])
 
@@ -187,3 +200,11 @@ def test_replan_reads_weather_closures_from_the_campaign_logbook(tmp_path, capsy
     assert past and all(v in after["visits"] or any(
         w["id"] == v["id"] and w["start"] == v["start"] and w["end"] == v["end"] for w in after["visits"])
         for v in past)
+
+
+def test_done_naming_no_visit_is_a_warning(setup):
+    campaign, original, _ = setup
+    now = original.visits[3].end_jd + 1e-4
+    result = replan_night(campaign, NIGHT, now, done=(original.visits[0].id, "N9999-var1"))
+    assert any("'N9999-var1' names no visit" in w for w in result.plan.warnings)
+    assert not any(original.visits[0].id in w for w in result.plan.warnings)

@@ -77,6 +77,8 @@ def add_constraint_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--max-airmass", type=float, metavar="X", help="airmass limit (≥ 1)")
     p.add_argument("--min-altitude", type=float, metavar="DEG", help="altitude limit, degrees")
     p.add_argument("--min-moon-separation", type=float, metavar="DEG", help="closest approach to the Moon, degrees")
+    p.add_argument("--max-altitude", type=float, metavar="DEG",
+                   help="upper altitude limit (zenith avoidance), degrees (default: the site profile's, if any)")
 
 
 def constraints_from_args(site, args):
@@ -89,13 +91,19 @@ def constraints_from_args(site, args):
         raise ConstraintError(f"--min-altitude must be between -5 and 90 degrees (got {args.min_altitude:g})")
     if args.min_moon_separation is not None and not (0.0 <= args.min_moon_separation <= 180.0):
         raise ConstraintError(f"--min-moon-separation must be 0..180 degrees (got {args.min_moon_separation:g})")
-    return constraints_for_site(
+    c = constraints_for_site(
         site,
         twilight=args.twilight,
         max_airmass=args.max_airmass,
         min_altitude_deg=args.min_altitude,
         min_moon_separation_deg=args.min_moon_separation,
+        max_altitude_deg=args.max_altitude,
     )
+    if c.max_altitude_deg is not None and not (c.altitude_limit_deg < c.max_altitude_deg <= 90.0):
+        given = "--max-altitude" if args.max_altitude is not None else f"{site.source}: [limits] max_altitude_deg"
+        raise ConstraintError(f"{given} must be above the lower altitude limit {c.altitude_limit_deg:.1f}° "
+                              f"and at most 90° (got {c.max_altitude_deg:g})")
+    return c
 
 
 def check_seeing(value, option: str = "--seeing") -> None:

@@ -195,7 +195,9 @@ def run_add(args) -> int:
                          airmass_source="computed" if airmass is not None else None,
                          seeing_arcsec=args.seeing, sky_note=args.sky, note=args.note, ra_deg=ra, dec_deg=dec)
         night = str(night_of_jd(time_jd, site.location.timezone)) if site else None
-        print(book.add_entry(entry, night=night))
+        from planner.inputs.catalog import load_catalog
+
+        print(book.add_entry(entry, night=night, key=load_catalog().key))
     return 0
 
 

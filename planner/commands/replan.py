@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import datetime as dt
 import re
+import textwrap
 from zoneinfo import ZoneInfo
 
 from planner.commands import common
@@ -18,9 +19,11 @@ def register(sub) -> None:
         "replan",
         help="plan the rest of a night again after weather, seeing or progress changed",
         description="Plan the rest of a campaign night again from --now: visits before then stay as "
-        "they were; what is done comes from the logbook beside the campaign file (if any) and --done; "
-        "closed periods (weather) get no visit; a new seeing recomputes the exposures. With nothing "
-        "changed, the plan stays the same.",
+        "they were; a visit is done when the logbook beside the campaign file holds its frames (same "
+        "cluster and filter, exposure within 10 %%, inside the visit's time) or --done names it; with "
+        "some of its frames it is partial and the rest are planned again; with nothing known it is "
+        "unknown (--assume-done counts those done). Closed periods (weather) get no visit; a new seeing "
+        "recomputes the exposures. With nothing changed, the plan stays the same.",
     )
     p.add_argument("--campaign", required=True, metavar="FILE", help="campaign file (TOML)")
     p.add_argument("--date", required=True, metavar="YYYY-MM-DD", help="the night's local evening date")
@@ -29,7 +32,10 @@ def register(sub) -> None:
     p.add_argument("--closed", action="append", default=[], metavar="START/END|HH:MM-HH:MM",
                    help="a closed period (weather): ISO 8601 START/END, or local HH:MM-HH:MM (repeatable)")
     p.add_argument("--done", nargs="+", action="extend", default=[], metavar="VISIT",
-                   help="visits done (visit ids such as 0105-03, or target names)")
+                   help="visits done: their ids as the night sheet shows them (N1851-var3, or 0105-N1851-var3), "
+                   "or target names (every visit of that target before --now)")
+    p.add_argument("--assume-done", action="store_true",
+                   help="count visits before --now that nothing says anything about as done")
     p.add_argument("--seeing", type=float, metavar="FWHM", help="the seeing now, arcsec")
     p.add_argument("--logbook", metavar="FILE", help="logbook file (default: logbook.sqlite beside the campaign)")
     common.add_json_argument(p)
@@ -47,10 +53,10 @@ def run(args) -> int:
     zone = campaign.site.location.timezone
     now = parse_now(args.now, night, zone)
     closed = tuple(parse_closed(text, night, zone) for text in args.closed)
-    logged, log_closed, note = read_logbook_night(campaign, night, args.logbook)
-    closed = closed + log_closed
+    logged, log_closed, recorded, note = read_logbook_night(campaign, night, args.logbook)
     result = replan_night(campaign, night, now, closed=closed, done=tuple(args.done), logged=logged,
-                          seeing_arcsec=args.seeing)
+                          seeing_arcsec=args.seeing, key=_catalog_key(), logged_closed=log_closed,
+                          assume_done=args.assume_done, used_ids=recorded)
     if args.json:
         data = schedule_json(campaign.site, result.plan)
         data["replan"] = result.summary()
@@ -60,10 +66,8 @@ def run(args) -> int:
     else:
         print(night_sheet(campaign.site, result.plan))
         print("")
-        for line in result.summary_lines():
-            print(f"  {line}")
-        if note:
-            print(f"  {note}")
+        for line in result.summary_lines() + ([note] if note else []):
+            print(textwrap.fill(line, 78, initial_indent="  ", subsequent_indent="    ", break_on_hyphens=False))
     common.warn_all(result.plan.warnings)
     return 0
 
@@ -115,11 +119,18 @@ def parse_closed(text: str, night: dt.date, zone: str) -> tuple[float, float]:
     return a, b
 
 
+def _catalog_key():
+    """Names compared as the catalog's aliases make them one cluster ("M 3" = "NGC 5272")."""
+    from planner.inputs.catalog import load_catalog
+
+    return load_catalog().key
+
+
 def read_logbook_night(campaign, night, path: str | None = None):
-    """What the logbook says of a night: (target, time_jd) of its frames, its closed
-    periods ('closed' until the next 'open', or the night's end), and a note on the
-    source.  The file is ``path``, else ``logbook.sqlite`` beside the campaign file;
-    with neither present, nothing is known from it."""
+    """What the logbook says of a night: its entries, its closed periods ('closed' until
+    the next 'open', or the night's end), the visit ids of its recorded plan, and a note
+    on what was read.  The file is ``path``, else ``logbook.sqlite`` beside the campaign
+    file; with neither present, nothing is known from it."""
     from pathlib import Path
 
     from planner.logbook.store import (
@@ -132,10 +143,14 @@ def read_logbook_night(campaign, night, path: str | None = None):
     if not p.is_file():
         if path:
             raise LogbookError(f"--logbook {path!r}: no such file")
-        return (), (), None
+        return (), (), set(), f"no logbook at {p}: nothing is read from one"
     zone = campaign.site.location.timezone
     a, b = local_noon_jd(night, zone), local_noon_jd(night + dt.timedelta(days=1), zone)
     with Logbook(p) as book:
-        frames = tuple((e.target, e.time_jd) for e in book.entries(a, b))
+        frames = tuple(book.entries(a, b))
         events = sorted(book.weather(a, b), key=lambda e: e.time_jd)
-    return frames, tuple(closed_periods(events, b)), f"done visits and closures read from the logbook {p}"
+        recorded = book.planned_ids(night)
+    periods = tuple(closed_periods(events, b))
+    note = (f"logbook {p}: {len(frames)} entr{'y' if len(frames) == 1 else 'ies'} this night, "
+            f"{len(periods)} closed period(s), {len(recorded)} recorded visit(s)")
+    return frames, periods, recorded, note

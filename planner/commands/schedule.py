@@ -117,13 +117,15 @@ def record_plan(args, plan, night) -> None:
     path = args.logbook or default_logbook_path(args.campaign)
     rows = [
         {"target": v.target, "filter": e.filter, "exposure_s": e.exposure_s, "frames": e.frames,
-         "start_jd": v.start_jd, "end_jd": v.end_jd}
-        for v in plan.visits for e in v.exposures
+         "start_jd": v.start_jd, "end_jd": v.end_jd, "plan_id": v.id, "line": n}
+        for v in plan.visits for n, e in enumerate(v.exposures)
     ]
     with Logbook(path) as book:
-        book.add_planned_visits(night, rows)
+        added = book.add_planned_visits(night, rows)
     if not args.json:
-        print(f"\n{len(rows)} planned visit(s) recorded in {path}")
+        kept = len(rows) - len(added)
+        print(f"\n{len(added)} planned visit(s) recorded in {path}"
+              + (f"; {kept} recorded already, left as they were" if kept else ""))
 
 
 def _campaign_night_warnings(plan):

@@ -92,6 +92,12 @@ class Catalog:
         """The entry with this name or alias (spacing, case etc. ignored), or None."""
         return self.index.get(normalize_name(name))
 
+    def key(self, name: str) -> str:
+        """A comparison key that is the same for every name and alias of one cluster
+        ("M 3", "M3", "NGC 5272"); names not in the catalog keep their normalised form."""
+        entry = self.lookup(name)
+        return normalize_name(entry.name if entry is not None else name)
+
     def suggestions(self, name: str, n: int = 3) -> list[str]:
         """Up to ``n`` catalog names or aliases that look like ``name``, closest first."""
         spellings: dict[str, str] = {}

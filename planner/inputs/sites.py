@@ -22,7 +22,9 @@ keys are errors.  ::
                   | "astronomical" = "astronomical"; horizon [[az_deg, alt_deg], ...]
                   = none: az 0..360 (north through east) strictly increasing, alt
                   -10..90, interpolated linearly, wrapped at 360 (0 and 360, if
-                  both given, must agree)
+                  both given, must agree); max_altitude_deg = none (no upper limit):
+                  zenith avoidance for an alt-az mount, above min_altitude_deg (and
+                  the altitude of max_airmass), ≤ 90
     [telescope]   name; aperture_m > 0, ≤ 40 (the cap catches centimetres);
                   obstruction_diameter_m ≥ 0, < aperture_m, = 0; slew_rate_deg_s > 0;
                   settle_s, acquisition_s, filter_change_s ≥ 0
@@ -88,7 +90,7 @@ _KEYS: dict[str, tuple[str, ...]] = {
     "": ("site", "limits", "telescope", "camera", "filters", "sky", "notes"),
     "site": ("name", "latitude_deg", "longitude_deg", "elevation_m", "timezone"),
     "limits": ("min_altitude_deg", "max_airmass", "sun_avoidance_deg",
-               "min_moon_separation_deg", "twilight", "horizon"),
+               "min_moon_separation_deg", "twilight", "horizon", "max_altitude_deg"),
     "telescope": ("name", "aperture_m", "obstruction_diameter_m", "slew_rate_deg_s",
                   "settle_s", "acquisition_s", "filter_change_s"),
     "camera": ("name", "pixel_scale_arcsec", "read_noise_e", "gain_e_per_adu", "dark_e_per_s",
@@ -144,10 +146,16 @@ def _limits(t: Table) -> Limits:
         min_alt = DEFAULT_MIN_ALTITUDE_DEG if max_am is None else 0.0
     if max_am is None:
         max_am = 1.0 / math.sin(math.radians(min_alt)) if min_alt > 0 else math.inf
+    max_alt = t.number("max_altitude_deg", 0, 90, required=False)
+    lower = max(min_alt, math.degrees(math.asin(1.0 / max_am)) if math.isfinite(max_am) else 0.0)
+    if max_alt is not None and max_alt <= lower + 1e-9:
+        t.fail(f"max_altitude_deg must be above the lower altitude limit {lower:.1f}° (min_altitude_deg "
+               f"and max_airmass) (got {max_alt:g})")
     return Limits(
         min_alt, max_am, t.number("sun_avoidance_deg", 0, 180, default=DEFAULT_SUN_AVOIDANCE_DEG),
         t.number("min_moon_separation_deg", 0, 180, default=DEFAULT_MIN_MOON_SEPARATION_DEG),
-        t.string("twilight", DEFAULT_TWILIGHT, TWILIGHTS), *_horizon(t, t.get("horizon", False)))
+        t.string("twilight", DEFAULT_TWILIGHT, TWILIGHTS), *_horizon(t, t.get("horizon", False)),
+        max_altitude_deg=max_alt)
 
 
 def _horizon(t: Table, raw: Any) -> tuple[tuple[float, ...], tuple[float, ...]]:

@@ -291,7 +291,8 @@ def ingest_folder(logbook: Logbook, folder: str | Path, site, catalog=None) -> I
             airmass=x, airmass_source=src, file=h.file, file_size=stat.st_size,
             file_mtime_ns=stat.st_mtime_ns, fingerprint=fingerprint, ra_deg=h.ra_deg, dec_deg=h.dec_deg,
             source="fits")
-        new_id = logbook.add_entry(entry, night=str(night_of_jd(h.time_jd, zone)))
+        new_id = logbook.add_entry(entry, night=str(night_of_jd(h.time_jd, zone)),
+                                   key=catalog.key if catalog is not None else None)
         if new_id is None:
             already += 1
         else:

@@ -20,7 +20,15 @@ migration applied, and :data:`_MIGRATIONS` brings an older file up to date)::
     notes(id, time_jd, text)
     observers(id, night 'YYYY-MM-DD', name, UNIQUE(night, name))
     planned_visits(id, night, target, filter, exposure_s, frames,
-                   start_jd, end_jd, done_entry_id -> entries)
+                   start_jd, end_jd, done_entry_id -> entries,
+                   plan_id, line, UNIQUE(night, plan_id, line))
+
+A planned visit is one line of frames (one filter) of a plan's visit: ``plan_id``
+is the plan's visit id (:mod:`planner.scheduling.visit_ids`), ``line`` its
+place in the visit's sequence; recording a plan again adds nothing.  An entry
+is linked to the planned visit its frames are evidence for
+(:func:`planner.model.evidence.line_fits`: target, filter, exposure, time), and
+``done_entry_id`` is set by the entry that completes the visit's frames.
 
 Times are Julian dates on the UTC scale.
 """
@@ -34,10 +42,12 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Iterable, Sequence
 
+import numpy as np
+
 from planner.errors import InputError
 
 #: The schema this code writes; files from older versions are migrated on open.
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 #: Name of the default logbook file (in the user's data folder, or beside a campaign file).
 DEFAULT_LOGBOOK_NAME = "logbook.sqlite"
 #: How long a writer waits for another (a watcher and a manual entry at once), seconds.
@@ -120,7 +130,17 @@ class PlannedVisit:
     frames: int
     start_jd: float | None
     end_jd: float | None
-    done_entry_id: int | None
+    done_entry_id: int | None  # the entry that completed its frames
+    plan_id: str | None = None  # the plan's visit id (None in plans recorded before ids were kept)
+    line: int | None = None  # which line of the visit's sequence
+
+    @property
+    def exposures(self):
+        """The visit as one line of frames (what :mod:`planner.model.evidence` reads)."""
+        from planner.model.evidence import FrameLine
+
+        return (FrameLine(self.filter, int(self.frames), float(self.exposure_s)),) if (
+            self.filter is not None and self.exposure_s is not None) else ()
 
 
 _V1 = """
@@ -152,7 +172,14 @@ CREATE INDEX entries_time ON entries(time_jd);
 CREATE INDEX entries_file ON entries(file, file_size, file_mtime_ns);
 CREATE INDEX visits_night ON planned_visits(night, target);
 """
-_MIGRATIONS = ((1, _V1), (2, _V2))
+# Version 3: planned visits keep the plan's visit id, so recording a plan twice adds nothing.
+_V3 = """
+ALTER TABLE planned_visits ADD COLUMN plan_id TEXT;
+ALTER TABLE planned_visits ADD COLUMN line INTEGER;
+CREATE UNIQUE INDEX visits_plan_id ON planned_visits(night, plan_id, line);
+"""
+_MIGRATIONS = ((1, _V1), (2, _V2), (3, _V3))
+_VISIT_FIELDS = "id, night, target, filter, exposure_s, frames, start_jd, end_jd, done_entry_id, plan_id, line"
 
 
 def night_of_jd(jd: float, zone: str) -> dt.date:
@@ -291,12 +318,14 @@ class Logbook:
 
     # --- entries ----------------------------------------------------------
 
-    def add_entry(self, entry: NewEntry, night: str | None = None) -> int | None:
+    def add_entry(self, entry: NewEntry, night: str | None = None, key=None) -> int | None:
         """Store one entry in its own transaction; its id, or None if its fingerprint is stored already.
 
-        With ``night`` (the entry's local evening date), the first planned visit
-        of that night for the same target (and filter, if the visit names one)
-        not yet done is marked done by this entry, in the same transaction.
+        With ``night`` (the entry's local evening date), the entry is linked, in
+        the same transaction, to the planned visit of that night its frames are
+        evidence for (:func:`planner.model.evidence.line_fits`; target names
+        compared by ``key``, e.g. the catalog's :meth:`~planner.inputs.catalog.Catalog.key`),
+        and completes it once the visit's frames are all in.
         """
         if entry.frames < 1:
             raise LogbookError(f"frames must be ≥ 1 (got {entry.frames})")
@@ -308,20 +337,30 @@ class Logbook:
                 "ON CONFLICT(fingerprint) DO NOTHING", values)
             new_id = cur.lastrowid if cur.rowcount == 1 else None
             if new_id is not None and night is not None:
-                self._fulfil_visit(new_id, entry, night)
+                self._fulfil_visit(new_id, entry, night, key)
         return new_id
 
-    def _fulfil_visit(self, entry_id: int, entry: NewEntry, night: str) -> None:
+    def _fulfil_visit(self, entry_id: int, entry: NewEntry, night: str, key=None) -> None:
+        from dataclasses import replace
+
+        from planner.model.evidence import line_fits, outside_span_d
         from planner.model.names import normalize_name
 
-        rows = self._db.execute(
-            "SELECT id, target, filter FROM planned_visits WHERE night = ? AND done_entry_id IS NULL "
-            "ORDER BY COALESCE(start_jd, 0), id", (night,)).fetchall()
-        for visit_id, target, filt in rows:
-            if normalize_name(target) == normalize_name(entry.target) and (filt is None or filt == entry.filter):
-                self._db.execute("UPDATE planned_visits SET done_entry_id = ? WHERE id = ?", (entry_id, visit_id))
-                self._db.execute("UPDATE entries SET visit_id = ? WHERE id = ?", (visit_id, entry_id))
-                return
+        frame = _Frame(entry_id, entry)
+        rows = [PlannedVisit(*r) for r in self._db.execute(
+            f"SELECT {_VISIT_FIELDS} FROM planned_visits WHERE night = ? AND done_entry_id IS NULL", (night,))]
+        # A visit recorded without times can only be matched on what it is.
+        spans = [replace(v, start_jd=-np.inf if v.start_jd is None else v.start_jd,
+                         end_jd=np.inf if v.end_jd is None else v.end_jd) for v in rows]
+        fits = [v for v in spans if v.exposures and line_fits(v, v.exposures[0], frame, key or normalize_name)]
+        if not fits:
+            return
+        v = min(fits, key=lambda v: (outside_span_d(v, entry.time_jd), v.start_jd, v.id))
+        self._db.execute("UPDATE entries SET visit_id = ? WHERE id = ?", (v.id, entry_id))
+        have = self._db.execute("SELECT COALESCE(SUM(frames), 0) FROM entries WHERE visit_id = ?",
+                                (v.id,)).fetchone()[0]
+        if have >= v.frames:
+            self._db.execute("UPDATE planned_visits SET done_entry_id = ? WHERE id = ?", (entry_id, v.id))
 
     def known_files(self) -> set[tuple[str, int, int]]:
         """(path, size, mtime_ns) of every ingested frame: files a new pass need not read again."""
@@ -379,15 +418,33 @@ class Logbook:
         return [r[0] for r in rows]
 
     def add_planned_visits(self, night: dt.date | str, visits: Iterable[dict]) -> list[int]:
-        """Store the plan's visits for a night (keys: target, filter, exposure_s, frames, start_jd, end_jd)."""
-        statements = [("INSERT INTO planned_visits (night, target, filter, exposure_s, frames, start_jd, end_jd) "
-                       "VALUES (?, ?, ?, ?, ?, ?, ?)",
+        """Store the plan's visits for a night (keys: target, filter, exposure_s, frames, start_jd,
+        end_jd, and the plan's ``plan_id`` and ``line``); the ids of the rows added.  A visit
+        whose (plan_id, line) is stored for the night already is left as it is."""
+        statements = [("INSERT INTO planned_visits (night, target, filter, exposure_s, frames, start_jd, end_jd, "
+                       "plan_id, line) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?) ON CONFLICT DO NOTHING",
                        (str(night), v["target"], v.get("filter"), v.get("exposure_s"), int(v.get("frames", 1)),
-                        v.get("start_jd"), v.get("end_jd"))) for v in visits]
-        return [int(c.lastrowid) for c in self._write(statements)]
+                        v.get("start_jd"), v.get("end_jd"), v.get("plan_id"), v.get("line"))) for v in visits]
+        return [int(c.lastrowid) for c in self._write(statements) if c.rowcount == 1]
 
     def planned_visits(self, night: dt.date | str) -> list[PlannedVisit]:
-        rows = self._db.execute(
-            "SELECT id, night, target, filter, exposure_s, frames, start_jd, end_jd, done_entry_id "
-            "FROM planned_visits WHERE night = ? ORDER BY COALESCE(start_jd, 0), id", (str(night),))
+        rows = self._db.execute(f"SELECT {_VISIT_FIELDS} FROM planned_visits WHERE night = ? "
+                                "ORDER BY COALESCE(start_jd, 0), id", (str(night),))
         return [PlannedVisit(*r) for r in rows]
+
+    def planned_ids(self, night: dt.date | str) -> set[str]:
+        """The plan ids recorded for a night (every id a re-plan must not give again)."""
+        rows = self._db.execute("SELECT DISTINCT plan_id FROM planned_visits WHERE night = ? AND plan_id IS NOT NULL",
+                                (str(night),))
+        return {r[0] for r in rows}
+
+
+@dataclass(frozen=True)
+class _Frame:
+    """An entry as :mod:`planner.model.evidence` reads it."""
+
+    id: int
+    entry: NewEntry
+
+    def __getattr__(self, name):
+        return getattr(self.entry, name)

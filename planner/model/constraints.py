@@ -25,12 +25,17 @@ class Constraints:
     horizon_az_deg: tuple[float, ...] = ()
     horizon_alt_deg: tuple[float, ...] = ()
     sun_avoidance_deg: float = 0.0  # never point closer than this to the Sun
+    # Never above this altitude (zenith avoidance: an alt-az mount cannot follow
+    # the azimuth near the zenith); None: no upper limit.
+    max_altitude_deg: float | None = None
 
     def describe(self) -> str:
         """The limits in one phrase, as every text and figure of gcplan states them."""
         parts = [f"altitude ≥ {self.altitude_limit_deg:.1f}°"]
         if self.max_airmass is not None and np.isfinite(self.max_airmass):
             parts[0] += f" (airmass ≤ {self.max_airmass:.2f})"
+        if self.max_altitude_deg is not None:
+            parts[0] += f" and ≤ {self.max_altitude_deg:.1f}°"
         if self.min_moon_separation_deg > 0:
             parts.append(f"Moon ≥ {self.min_moon_separation_deg:.0f}° away")
         if self.sun_avoidance_deg > 0:
@@ -53,12 +58,14 @@ def constraints_for_site(
     max_airmass: float | None = None,
     min_altitude_deg: float | None = None,
     min_moon_separation_deg: float | None = None,
+    max_altitude_deg: float | None = None,
 ) -> Constraints:
     """The site's limits, with any of them overridden (from the command line)."""
     lim = site.limits
     if twilight is not None and twilight not in TWILIGHTS:
         raise ValueError(f"twilight must be one of {', '.join(TWILIGHTS)}")
     return Constraints(
+        max_altitude_deg=lim.max_altitude_deg if max_altitude_deg is None else float(max_altitude_deg),
         min_altitude_deg=lim.min_altitude_deg if min_altitude_deg is None else float(min_altitude_deg),
         max_airmass=lim.max_airmass if max_airmass is None else float(max_airmass),
         twilight=lim.twilight if twilight is None else twilight,

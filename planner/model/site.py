@@ -34,6 +34,8 @@ class Limits:
     # (deg, from north through east), linearly interpolated and wrapped at 360.
     horizon_az_deg: tuple[float, ...] = ()
     horizon_alt_deg: tuple[float, ...] = ()
+    # Optional upper altitude limit (zenith avoidance for an alt-az mount); None: none.
+    max_altitude_deg: float | None = None
 
 
 @dataclass(frozen=True)

@@ -72,6 +72,7 @@ def night_json(run_, i: int = 0) -> dict:
                 "min_airmass": rounded(vis.min_airmass[k, i], 3),
                 "observable_hours": rounded(vis.observable_hours[k, i], 3),
                 "window": {"start": iso_utc(vis.window_start_jd[k, i]), "end": iso_utc(vis.window_end_jd[k, i])},
+                "windows": [{"start": iso_utc(a), "end": iso_utc(b)} for a, b in vis.windows(k, i)],
                 "moon_separation_deg": rounded(vis.moon_separation_deg[k, i], 1),
                 "min_moon_separation_deg": rounded(vis.min_moon_separation_deg[k, i], 1),
             }
@@ -175,6 +176,11 @@ def night_text(run_, i: int = 0) -> str:
             f"{_fmt(max_alt, '7.1f', '°')} {_fmt(min_x, '5.2f')}  {wl:<11s}  {wu:<11s} {hours:5.1f} "
             f"{_fmt(vis.moon_separation_deg[k, i], '4.0f', '°')}"
         )
+        parts = vis.windows(k, i)
+        if len(parts) > 1:  # the upper altitude limit cuts the window around transit
+            g0, g1 = parts[0][1], parts[1][0]
+            lines.append(f"  {'':<12s}above {c.max_altitude_deg:g}° (not usable) {local_hhmm(g0, zone)}–"
+                         f"{local_hhmm(g1, zone)} local, {utc_hhmm(g0)}–{utc_hhmm(g1)} UTC")
     lines.append("")
     lines.append("  Sun and Moon: their centres. Altitudes geometric; airmass Kasten & Young 1989.")
     lines.extend("  " + part for part in textwrap.wrap(CAUTION, 76))

@@ -27,7 +27,7 @@ def night_log_json(log) -> dict:
         "entries": [entry_json(e) for e in log.entries],
         "weather": [{"id": w.id, "time": iso_utc(w.time_jd), "state": w.state, "note": w.note} for w in log.weather],
         "notes": [{"id": n.id, "time": iso_utc(n.time_jd), "text": n.text} for n in log.notes],
-        "planned_visits": [{"id": v.id, "target": v.target, "filter": v.filter, "exposure_s": v.exposure_s,
+        "planned_visits": [{"id": v.id, "plan_id": v.plan_id, "line": v.line, "target": v.target, "filter": v.filter, "exposure_s": v.exposure_s,
                             "frames": v.frames, "start": iso_utc(v.start_jd) if v.start_jd is not None else None,
                             "end": iso_utc(v.end_jd) if v.end_jd is not None else None,
                             "done_entry_id": v.done_entry_id} for v in log.visits],

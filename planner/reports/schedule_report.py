@@ -34,6 +34,7 @@ def visit_json(v) -> dict:
         "shutter_s": round(v.shutter_s, 2),
         "priority": v.priority,
         "status": v.status,
+        "status_source": v.status_source,
         "notes": list(v.notes),
     }
 
@@ -69,6 +70,7 @@ def write_plan_ecsv(site, plan, path, option: str = "--out") -> None:
     from astropy.table import Table
 
     from planner.errors import OutputError
+    from planner.scheduling.replan import STATUS_SOURCE_WORDS
     from planner.scheduling.visits import exposures_text
 
     v = plan.visits
@@ -96,6 +98,7 @@ def write_plan_ecsv(site, plan, path, option: str = "--out") -> None:
 def night_sheet(site, plan) -> str:
     """The plan as the observer follows it, at 80 columns: local and UTC times, target,
     filters × frames × seconds, airmass, notes, idle gaps, the caution."""
+    from planner.scheduling.replan import STATUS_SOURCE_WORDS
     from planner.scheduling.visits import exposures_text
 
     loc = site.location
@@ -115,9 +118,11 @@ def night_sheet(site, plan) -> str:
                  f"{plan.efficiency * 100:.1f} %), idle {plan.idle_minutes:.0f} min"
                  + (f", closed {plan.closed_minutes:.0f} min" if plan.closed_minutes else ""))
     lines.append("")
-    lines.append(f"  {'visit':<7} {'start':>5} {'':>5} {'end':>5} {'target':<10} {'purpose':<9} "
+    # The visit column is the id without the night (what `replan --done` takes); it says
+    # what the visit is for (var, tipI, hbV, toV...), so no purpose column is needed.
+    lines.append(f"  {'visit':<11} {'start':>5} {'':>5} {'end':>5} {'target':<10} "
                  f"{'filter frames×s':<16} {'airmass':<9} {'moon':>4}")
-    lines.append(f"  {'':<7} {'local':>5} {'UTC':>5} {'local':>5}")
+    lines.append(f"  {'':<11} {'local':>5} {'UTC':>5} {'local':>5}")
     events = [(v.start_jd, 0, v) for v in plan.visits] + [(g.start_jd, 1, g) for g in plan.gaps]
     for _, kind, item in sorted(events, key=lambda e: (e[0], e[1])):
         if kind == 1:
@@ -130,15 +135,15 @@ def night_sheet(site, plan) -> str:
         exp = exposures_text(v.exposures)
         parts = textwrap.wrap(exp, 16) or [""]
         x = f"{v.airmass_start:.2f}-{v.airmass_end:.2f}" if np.isfinite(v.airmass_start) else "—"
-        vid = v.id[-7:]
-        lines.append(f"  {vid:<7} {local_hhmm(v.start_jd, zone):>5} {utc_hhmm(v.start_jd):>5} "
-                     f"{local_hhmm(v.end_jd, zone):>5} {name:<10} {v.purpose[:9]:<9} {parts[0]:<16} {x:<9} "
+        vid = v.id.split("-", 1)[1] if v.id.count("-") >= 2 else v.id
+        lines.append(f"  {vid[-11:]:<11} {local_hhmm(v.start_jd, zone):>5} {utc_hhmm(v.start_jd):>5} "
+                     f"{local_hhmm(v.end_jd, zone):>5} {name:<10} {parts[0]:<16} {x:<9} "
                      f"{v.moon_separation_deg:>3.0f}°")
         for more in parts[1:]:
-            lines.append(f"  {'':<42}{more}")
+            lines.append(f"  {'':<36}{more}")
         notes = list(v.notes)
         if v.status != "planned":
-            notes.insert(0, v.status)
+            notes.insert(0, v.status + (f" ({STATUS_SOURCE_WORDS[v.status_source]})" if v.status_source else ""))
         if v.slew_deg > 0.05:
             notes.append(f"slew {v.slew_deg:.0f}°")
         if notes:

@@ -181,9 +181,10 @@ def plan_through_night(campaign: Campaign, night: dt.date, seeing_arcsec: float 
     from dataclasses import replace
 
     k = night_index(campaign, night)
-    state: dict = {}
-    plan = plan_campaign(replace(campaign, nights=campaign.nights[: k + 1]), seeing_arcsec=seeing_arcsec,
-                         forecast=False, _state=state)
+    # The whole campaign's nights (the goals' urgency counts the nights left), stopping after ``night``:
+    # the night is planned exactly as ``plan_campaign`` plans it.
+    state: dict = {"stop_after": k}
+    plan = plan_campaign(campaign, seeing_arcsec=seeing_arcsec, forecast=False, _state=state)
     return plan.nights[k], list(plan.requests[k]), state["covered_before_last"]
 
 
@@ -223,6 +224,8 @@ def plan_campaign(campaign: Campaign, *, seeing_arcsec: float | None = None, for
         _update_coverage(covered, requests, plan)
         plans.append(plan)
         reqs.append(tuple(requests))
+        if _state is not None and k == _state.get("stop_after"):
+            break
     warnings = []
     for i, g in enumerate(campaign.goals):
         for name in g.targets:
@@ -237,10 +240,12 @@ def plan_campaign(campaign: Campaign, *, seeing_arcsec: float | None = None, for
 
 
 def _prefix_ids(plan: NightPlan, night: dt.date) -> NightPlan:
+    """Ids that say what each visit is (:mod:`planner.scheduling.visit_ids`)."""
     from dataclasses import replace
 
-    return replace(plan, visits=tuple(replace(v, id=f"{night:%m%d}-{v.id}") if "-" not in v.id else v
-                                      for v in plan.visits))
+    from planner.scheduling.visit_ids import assign_ids
+
+    return replace(plan, visits=tuple(assign_ids(plan.visits, night)))
 
 
 def _update_coverage(covered, requests, plan):

@@ -3,18 +3,31 @@
 Rules:
 
 * **Nothing before ``now`` changes.**  The night's plan is made exactly as
-  ``gcplan schedule`` makes it; its visits that started before ``now`` are kept
-  with their times, marked *done*, *under way* (started, not finished) or
-  *missed* (not done: not among the visits said to be done nor in the logbook
-  when either says what was done, or — when neither does — inside a closed period).
+  ``gcplan schedule`` makes it; each of its visits that started before ``now``
+  keeps its times and gets a status, and says who says so (``status_source``):
+
+  - ``done`` — the logbook holds its frames (:func:`planner.model.evidence.match_visits`:
+    same cluster, filter, exposure within 10 %, inside the visit's span), source
+    ``logbook``; or the observer said so (``--done``), source ``observer``;
+  - ``partial`` — the logbook holds some of its frames (source ``logbook``): it keeps
+    its place and the frames still owed are planned again;
+  - ``under way`` — started, not finished, and not done;
+  - ``missed`` — inside a closed period, or not among what the logbook or the observer
+    gives as taken when either gives an account of the night: its request wants
+    time again;
+  - ``unknown`` — nothing says (no frame of the night in the logbook, no ``--done``):
+    it keeps its place, nothing is claimed; ``assume_done`` makes these ``done``
+    with source ``assumed``.
 * **What changed:** closed periods after ``now``, a new seeing (every goal's
   frames recomputed by the exposure core; goals whose seeing limit is now
-  exceeded wait for another night), a missed visit (its request wants time
-  again).  If nothing changed, the original plan is returned as it was: the
-  same inputs always give the same plan.
+  exceeded wait for another night), a missed or partial visit (its request
+  wants time again).  If nothing changed, the original plan is returned as it
+  was: the same inputs always give the same plan.
 * Otherwise the rest of the night is planned again from ``now`` by the same
-  planner, with the done and under-way visits fixed and the telescope starting
-  where the last of them leaves it.
+  planner, with the done, partial, unknown and under-way visits fixed and the telescope
+  starting where the last of them leaves it.  New visits get ids never used that
+  night (:mod:`planner.scheduling.visit_ids`; ``used_ids`` holds those of the
+  recorded plan).
 """
 
 from __future__ import annotations
@@ -22,12 +35,20 @@ from __future__ import annotations
 import datetime as dt
 from dataclasses import dataclass, replace
 
+from planner.model.evidence import match_visits
+from planner.model.names import normalize_name
 from planner.scheduling.night import plan_night
 from planner.scheduling.night_plan import NightPlan
+from planner.scheduling.visit_ids import assign_ids, same_visit_id
+from planner.scheduling.visits import Exposure
 from planner.sky.nights import iso_utc
 
-#: A logbook entry counts for a planned visit when it starts this close to the visit (days).
-LOG_MATCH_D = 10.0 / 1440.0
+#: How each source of a status reads in the texts.
+STATUS_SOURCE_WORDS = {"logbook": "logbook", "observer": "--done", "assumed": "assumed"}
+#: Joins a request's key and a partial visit's id in the key of the request for its owed frames.
+OWED = " owed by "
+#: The statuses a past visit can have, in the order the texts list them.
+PAST_STATUSES = ("done", "partial", "under way", "missed", "unknown")
 
 
 @dataclass(frozen=True)
@@ -38,59 +59,62 @@ class ReplanResult:
     reasons: tuple[str, ...]  # what changed; empty: the original plan stands
 
     def summary(self) -> dict:
-        by = {s: [v.id for v in self.plan.visits if v.status == s] for s in ("done", "under way", "missed")}
+        past = [v for v in self.plan.visits if v.status in PAST_STATUSES]
+        by = {s: [v.id for v in past if v.status == s] for s in PAST_STATUSES}
+        sources = {src: [v.id for v in past if v.status_source == src] for src in STATUS_SOURCE_WORDS}
         return {"now": iso_utc(self.now_jd), "changed": list(self.reasons), "replanned": bool(self.reasons),
-                "done": by["done"], "under_way": by["under way"], "missed": by["missed"],
+                "done": by["done"], "partial": by["partial"], "under_way": by["under way"],
+                "missed": by["missed"], "unknown": by["unknown"], "status_sources": sources,
                 "new_visits": [v.id for v in self.plan.visits if v.status == "planned"]}
 
     def summary_lines(self) -> list[str]:
         s = self.summary()
         head = (f"re-planned from {s['now']}: " + "; ".join(self.reasons)) if self.reasons else (
             f"nothing changed at {s['now']}: the plan stands as it was")
-        return [head, f"done {len(s['done'])}, under way {len(s['under_way'])}, missed {len(s['missed'])}, "
-                      f"planned from now {len(s['new_visits'])}"]
-
-
-def _norm(name: str) -> str:
-    from planner.model.names import normalize_name
-
-    return normalize_name(name)
+        past = [v for v in self.plan.visits if v.status in PAST_STATUSES]
+        counts = []
+        for status in PAST_STATUSES:
+            here = [v for v in past if v.status == status]
+            if not here:
+                continue
+            src = {STATUS_SOURCE_WORDS[k]: sum(v.status_source == k for v in here) for k in STATUS_SOURCE_WORDS}
+            said = ", ".join(f"{n} {w}" for w, n in src.items() if n)
+            counts.append(f"{status} {len(here)}" + (f" ({said})" if said else ""))
+        lines = [head, "before now: " + ("; ".join(counts) if counts else "no visit"),
+                 f"planned from now: {len(s['new_visits'])}"]
+        if s["unknown"]:
+            lines.append(f"unknown: no frames of them in the logbook and not given with --done; "
+                         "they keep their place (--done ID, or --assume-done, counts them done)")
+        return lines
 
 
 def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(), logged=(),
-                 seeing_arcsec: float | None = None) -> ReplanResult:
-    """The night's plan, with everything from ``now_jd`` on planned again (see the module docstring)."""
+                 seeing_arcsec: float | None = None, key=normalize_name, logged_closed=(),
+                 assume_done: bool = False, used_ids=()) -> ReplanResult:
+    """The night's plan, with everything from ``now_jd`` on planned again (see the module docstring).
+
+    ``done``: visit ids (or target names) the observer gives as taken; ``logged``: the
+    night's log entries (``id``, ``target``, ``filter``, ``exposure_s``, ``frames``,
+    ``time_jd``), target names compared by ``key``; ``closed`` and ``logged_closed``:
+    closed periods given by the observer and read from the logbook.
+    """
     from planner.scheduling.campaign import goal_exposures, plan_through_night
 
     planned_seeing = campaign.seeing_arcsec or campaign.site.sky.typical_seeing_arcsec
     original, requests, covered = plan_through_night(campaign, night)
-    closed = tuple(sorted(closed))
-    done_ids = {d for d in done}
-    done_targets = {_norm(d) for d in done}
-    told = bool(done) or bool(logged)
-    logged_at = [(_norm(t), jd) for t, jd in logged]
-
-    def overlaps_closed(v):
-        return any(v.start_jd < b and v.end_jd > a for a, b in closed)
-
-    past, reasons = [], []
-    for v in original.visits:
-        if v.start_jd >= now_jd:
-            continue
-        if told:
-            hit = (v.id in done_ids or v.id.split("-")[-1] in done_ids or _norm(v.target) in done_targets
-                   or any(t == _norm(v.target) and v.start_jd - LOG_MATCH_D <= jd <= v.end_jd + LOG_MATCH_D
-                          for t, jd in logged_at))
-        else:
-            hit = not overlaps_closed(v)
-        if v.end_jd > now_jd and not overlaps_closed(v):
-            status = "done" if (told and hit) else "under way"
-        else:
-            status = "done" if hit else "missed"
-        past.append(replace(v, status=status))
+    closed = tuple(sorted(tuple(closed) + tuple(logged_closed)))
+    past, evidence = _past_statuses(original, now_jd, closed, logged_closed, done, logged, key, assume_done)
+    reasons = []
+    unmatched = [d for d in done if not any(same_visit_id(d, v.id) or key(v.target) == key(d) for v in past)]
+    notes = tuple(f"--done {d!r} names no visit of this plan before now (ids as the night sheet shows them, "
+                  "e.g. N1851-var3, or a target name)" for d in unmatched)
     missed = [v for v in past if v.status == "missed"]
+    partial = [v for v in past if v.status == "partial"]
     if missed:
         reasons.append(f"{len(missed)} visit(s) before now not done ({', '.join(v.id for v in missed)})")
+    if partial:
+        reasons.append(f"{len(partial)} visit(s) partly done ({', '.join(v.id for v in partial)}): "
+                       "the frames still owed planned again")
     w1 = original.window_end_jd
     if any(b > now_jd and a < w1 for a, b in closed):
         reasons.append("closed " + ", ".join(f"{iso_utc(a)}–{iso_utc(b)}" for a, b in closed if b > now_jd))
@@ -100,22 +124,73 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     if not reasons:
         keep = {v.id: v for v in past}
         visits = tuple(keep.get(v.id, v) for v in original.visits)
-        return ReplanResult(replace(original, visits=visits, closed=closed), original, now_jd, ())
+        return ReplanResult(replace(original, visits=visits, closed=closed, warnings=original.warnings + notes),
+                            original, now_jd, ())
+    requests = requests + _owed_requests(partial, requests, evidence)
     if seeing != planned_seeing:
         exposures = goal_exposures(campaign, seeing)
         requests = [replace(q, exposures=_new_exposures(q, exposures, campaign)) for q in requests]
-    fixed = tuple(v for v in past if v.status in ("done", "under way"))
+    fixed = tuple(v for v in past if v.status != "missed")
     start = max([now_jd] + [v.end_jd for v in fixed])
     plan = plan_night(campaign.site, campaign.constraints, requests, night, original.window_start_jd,
                       original.window_end_jd, _ephemeris(campaign, night), closed=closed, seeing_arcsec=seeing,
                       fixed=fixed, not_before_jd=start, covered_bins=covered, id_offset=len(past))
-    prefix = f"{night:%m%d}-"
-    new = [v if v.id.startswith(prefix) else replace(v, id=prefix + v.id) for v in plan.visits]
-    visits = tuple(sorted(new + missed, key=lambda v: v.start_jd))
-    return ReplanResult(replace(plan, visits=visits), original, now_jd, tuple(reasons))
+    used = set(used_ids) | {v.id for v in original.visits}
+    kept = {id(v) for v in fixed}
+    new = assign_ids([v for v in plan.visits if id(v) not in kept], night, used)
+    visits = tuple(sorted(list(fixed) + new + missed, key=lambda v: v.start_jd))
+    return ReplanResult(replace(plan, visits=visits, warnings=plan.warnings + notes), original, now_jd,
+                        tuple(reasons))
+
+
+def _past_statuses(original, now_jd, closed, logged_closed, done, logged, key, assume_done):
+    """The original plan's visits that started before ``now_jd``, each with its status and source."""
+    before = [v for v in original.visits if v.start_jd < now_jd]
+    evidence = match_visits(before, logged, key)
+    done_keys = {key(d) for d in done}
+    told = bool(done) or bool(logged)
+    out = []
+    for v in before:
+        said = any(same_visit_id(d, v.id) for d in done) or key(v.target) in done_keys
+        shut = [c for c in closed if v.start_jd < c[1] and v.end_jd > c[0]]
+        found = evidence[v.id].status
+        if found == "done":
+            status, source = "done", "logbook"
+        elif said:
+            status, source = "done", "observer"
+        elif v.end_jd > now_jd and not shut:
+            status, source = "under way", None
+        elif found == "partial":
+            status, source = "partial", "logbook"
+        elif shut:
+            status, source = "missed", ("logbook" if all(c in logged_closed for c in shut) else "observer")
+        elif told:
+            status, source = "missed", ("logbook" if logged else "observer")
+        elif assume_done:
+            status, source = "done", "assumed"
+        else:
+            status, source = "unknown", None
+        out.append(replace(v, status=status, status_source=source))
+    return out, evidence
+
+
+def _owed_requests(partial, requests, evidence):
+    """A request per partial visit for the frames it still owes (its other wishes kept)."""
+    by_key = {q.key: q for q in requests}
+    out = []
+    for v in partial:
+        q = by_key.get(v.request_key)
+        owed = tuple(Exposure(o.filter, o.frames, o.exposure_s) for o in evidence[v.id].owed)
+        if q is None or not owed:
+            continue
+        out.append(replace(q, key=f"{q.key}{OWED}{v.id}", exposures=owed, count=1, min_spacing_min=0.0,
+                           notes=(f"the frames {v.id} still owes",) + tuple(q.notes)))
+    return out
 
 
 def _new_exposures(q, exposures, campaign):
+    if OWED in q.key:  # the frames a partial visit owes match those it already has
+        return q.exposures
     if q.purpose == "variables":
         return exposures.get(("variables", q.target), q.exposures)
     for i, g in enumerate(campaign.goals):

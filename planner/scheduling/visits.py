@@ -100,7 +100,8 @@ class Visit:
     airmass_mid: float
     moon_separation_deg: float
     notes: tuple[str, ...] = field(default_factory=tuple)
-    status: str = "planned"  # planned | done | missed | under way (re-planning)
+    status: str = "planned"  # planned | done | partial | missed | unknown | under way (re-planning)
+    status_source: str | None = None  # "logbook" | "observer" | "assumed" | None: who says so
 
     @property
     def duration_s(self) -> float:

@@ -194,6 +194,8 @@ def constraint_margin_deg(grid: SkyGrid, constraints: Constraints) -> np.ndarray
     margin = grid.altitude_deg - constraints.altitude_limit_deg
     if constraints.horizon_az_deg:
         margin = np.minimum(margin, grid.altitude_deg - horizon_altitude_deg(constraints, grid.azimuth_deg))
+    if constraints.max_altitude_deg is not None:  # zenith avoidance
+        margin = np.minimum(margin, constraints.max_altitude_deg - grid.altitude_deg)
     if constraints.min_moon_separation_deg > 0:
         moon_down = -(grid.moon_altitude_deg - MOONRISE_ALTITUDE_DEG)
         moon = np.maximum(grid.moon_separation_deg - constraints.min_moon_separation_deg, moon_down)

@@ -13,11 +13,16 @@ any of them could bite; only those are sampled on a
 fine grid (:data:`GRID_STEP_MIN`), with each edge placed where the straight
 line between a failing and a passing sample of the constraint margin crosses
 zero — within a few seconds of the exact edge for a 5-minute step.
+
+An upper altitude limit (zenith avoidance) is closed form too: a target whose
+upper culmination passes above it is out of reach while |H| ≤ H₁ around
+transit.  The window then runs across that gap (``zenith_gap_*``), the hours
+leave it out, and :meth:`NightVisibility.windows` gives the two parts.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -66,6 +71,21 @@ class NightVisibility:
     min_moon_separation_deg: np.ndarray  # over the dark window (hourly samples)
     dark_start_jd: np.ndarray  # (nights,)
     dark_end_jd: np.ndarray
+    # Above the upper altitude limit inside the window (NaN: no gap, or no upper limit).
+    zenith_gap_start_jd: np.ndarray | None = None
+    zenith_gap_end_jd: np.ndarray | None = None
+
+    def windows(self, k: int, i: int) -> list[tuple[float, float]]:
+        """Target ``k``'s observable stretches on night ``i``: the window, split around
+        the zenith gap when the target passes above the upper altitude limit."""
+        w0, w1 = float(self.window_start_jd[k, i]), float(self.window_end_jd[k, i])
+        if not np.isfinite(w0):
+            return []
+        g0 = np.nan if self.zenith_gap_start_jd is None else float(self.zenith_gap_start_jd[k, i])
+        if not np.isfinite(g0):
+            return [(w0, w1)]
+        g1 = float(self.zenith_gap_end_jd[k, i])
+        return [(a, b) for a, b in ((w0, g0), (g1, w1)) if b > a]
 
 
 def visibility_for_nights(
@@ -93,13 +113,18 @@ def visibility_for_nights(
 
     need, sep_c = _where_sampling_is_needed(eph, geo, ra, dec, s, e, constraints)
     need &= (hours > 0.0) & has_dark[None, :]
-    _refine_on_grid(eph, geo, ra, dec, s, e, constraints, step_min, need, hours, w_start, w_end)
+    # The grid finds the window as if there were no upper limit; its gap is cut out below.
+    below_zenith = replace(constraints, max_altitude_deg=None)
+    _refine_on_grid(eph, geo, ra, dec, s, e, below_zenith, step_min, need, hours, w_start, w_end)
 
     hours = np.where(has_dark[None, :], hours, 0.0)
     w_start = np.where(has_dark[None, :], w_start, np.nan)
     w_end = np.where(has_dark[None, :], w_end, np.nan)
 
     t_transit, peak = _transit_and_peak(eph, geo, ra, dec, s, e, ha_start, span_deg, upper)
+    gap_start, gap_end = _zenith_gap(geo.latitude_deg, dec, (upper, lower), constraints.max_altitude_deg,
+                                     t_transit, w_start, w_end)
+    hours = hours - np.nan_to_num(gap_end - gap_start) * 24.0
     dark_nan = lambda x: np.where(has_dark[None, :], x, np.nan)  # noqa: E731
     max_alt = dark_nan(peak)
     return NightVisibility(
@@ -113,7 +138,25 @@ def visibility_for_nights(
         min_moon_separation_deg=dark_nan(sep_c.min(axis=-1)),
         dark_start_jd=np.where(has_dark, dark_start, np.nan),
         dark_end_jd=np.where(has_dark, dark_end, np.nan),
+        zenith_gap_start_jd=gap_start,
+        zenith_gap_end_jd=gap_end,
     )
+
+
+def _zenith_gap(latitude_deg, dec, culminations, max_altitude_deg, t_transit, w_start, w_end):
+    """Closed form: where the target is above ``max_altitude_deg`` (|H| ≤ H₁ around the
+    transit ``t_transit``), clipped to the window; NaN where it stays below or outside."""
+    none = np.full(np.shape(w_start), np.nan)
+    if max_altitude_deg is None:
+        return none, none
+    upper, lower = culminations
+    h1 = hour_angle_at_altitude_deg(latitude_deg, dec, max_altitude_deg)
+    h1 = np.where(lower >= max_altitude_deg, 180.0, h1)  # above the limit all day
+    half_d = h1 / SIDEREAL_DEG_PER_DAY
+    a = np.maximum(t_transit - half_d, w_start)
+    b = np.minimum(t_transit + half_d, w_end)
+    inside = (upper > max_altitude_deg) & np.isfinite(w_start) & (b > a)
+    return np.where(inside, a, np.nan), np.where(inside, b, np.nan)
 
 
 def _altitude_windows(latitude_deg, dec, culminations, limit, s, ha_start, span_deg):

@@ -9,7 +9,7 @@ nutation, aberration, the Earth's rotation from the bundled IERS tables; no
 refraction, ``pressure=0``, as the planner's geometric altitudes) at the
 start, the middle, the end and a few points between.  It then checks:
 
-* the altitude limit, the airmass limit (Kasten & Young 1989 from astropy's
+* the altitude limits (lower and, if set, upper), the airmass limit (Kasten & Young 1989 from astropy's
   altitude), a horizon mask, the Moon's distance while it is up, the Sun's
   altitude against the twilight, and the sun-avoidance angle;
 * that each visit lies inside the usable window and outside closed periods;
@@ -86,6 +86,9 @@ def validate_plan(site, plan, requests=None) -> list[str]:
             lim_i = max(lim_i, float(altitude_for_airmass(q.max_airmass)))
         if np.min(alt[i] - lim_i) < -ALTITUDE_TOL_DEG:
             problems.append(f"visit {v.id} ({v.target}): altitude {np.min(alt[i]):.2f}° below the limit {lim_i:.2f}°")
+        if c.max_altitude_deg is not None and np.max(alt[i]) > c.max_altitude_deg + ALTITUDE_TOL_DEG:
+            problems.append(f"visit {v.id} ({v.target}): altitude {np.max(alt[i]):.2f}° above the upper "
+                            f"limit {c.max_altitude_deg:.2f}°")
         if np.min(alt[i] - mask[i]) < -ALTITUDE_TOL_DEG:
             problems.append(f"visit {v.id} ({v.target}): below the horizon mask")
         up = moon_alt[i] > MOONRISE_ALTITUDE_DEG + SEPARATION_TOL_DEG
