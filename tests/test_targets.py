@@ -417,3 +417,14 @@ def test_garbage_toml_raises_only_target_list_error(scratch, catalog, text):
     except TargetListError:
         return
     assert all(0 <= t.ra_deg < 360 and -90 <= t.dec_deg <= 90 for t in targets)
+
+
+def test_r_v_column_read_and_checked(tmp_path, catalog):
+    # R_V towards NGC 6121 is about 3.6-3.8 (from memory; tests/REFERENCES.md,
+    # "Interstellar extinction"); it is the list's own value, the catalog has none.
+    (m4,) = read_target_list(_write(tmp_path, "t.csv", "name,r_v\nNGC 6121,3.7\n"), catalog)
+    assert m4.r_v == 3.7 and m4.ebv_mag == 0.35
+    (m13,) = read_target_list(_write(tmp_path, "u.csv", "name\nM 13\n"), catalog)
+    assert m13.r_v is None
+    with pytest.raises(TargetListError, match="r_v"):
+        read_target_list(_write(tmp_path, "v.csv", "name,rv\nM 13,31\n"), catalog)

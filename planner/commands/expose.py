@@ -8,6 +8,7 @@ import numpy as np
 
 from planner.commands import common
 from planner.light.photometry import LEVEL_NAMES, LEVELS, LevelError
+from planner.model.bands import EXTINCTION_LAW
 
 PLOT_SUFFIXES = (".png", ".pdf", ".svg")
 
@@ -83,7 +84,8 @@ def plan_from_args(args, site):
     plan = exposure_for_level(site, args.filter, level, args.snr, shortest_period_d=period, **conditions)
     extra = {"band": setup.band, "level_name": LEVEL_NAMES[level.level], "calibration": level.calibration,
              "colour_source": level.colour_source, "absolute_mag": level.absolute_mag,
-             "interstellar_extinction_mag": level.extinction_mag, "rule_of_thumb": level.rule_of_thumb,
+             "interstellar_extinction_mag": level.extinction_mag, "r_v": level.r_v,
+             "extinction_law": EXTINCTION_LAW if level.r_v is not None else None, "rule_of_thumb": level.rule_of_thumb,
              "shortest_period_d": period, "tip_saturation_s": None, "twilight": "not modelled (astronomical night)"}
     if target is not None and level.level != "tip":
         try:

@@ -16,6 +16,8 @@ and giving two of them is an error):
   ``distance_kpc`` > 0.  Either gives the other; both must agree within 0.1 mag.
 * ``ebv`` / ``ebv_mag`` / ``E(B-V)``: 0..10;  ``feh`` / ``feh_dex`` / ``[Fe/H]``: -5..1
 * ``half_light_radius_arcmin`` / ``r_h_arcmin`` > 0;  ``v_mag``: integrated V, -5..30
+* ``r_v`` / ``rv``: the ratio R_V = A_V / E(B-V) towards the cluster, 2..6, default 3.1
+  (the extinction law's mean; e.g. about 3.6-3.8 towards NGC 6121)
 * ``priority`` > 0, default 1 (larger is more important)
 * ``notes`` / ``note`` / ``comment`` / ``comments``: free text, ignored
 
@@ -101,6 +103,7 @@ def _target_from_row(row: Row, catalog: Catalog | None) -> Target:
         feh_dex=pick("feh_dex"),
         half_light_radius_arcmin=pick("half_light_radius_arcmin"),
         v_mag=pick("v_mag"),
+        r_v=row.number_or_none("r_v"),
         priority=1.0 if priority is None else priority,
         catalog_name=entry.name if entry is not None else None,
     )

@@ -11,8 +11,11 @@ Conventions and sources
   giving 1 e⁻/s above the atmosphere; preferred when the site gives one, since it is
   measured) or from photons × bandwidth × collecting area × total throughput.
 * Atmospheric extinction: k (mag per airmass, from the site) × airmass.
-* Interstellar extinction: A_band = R_band E(B−V), R_band from Schlafly & Finkbeiner
-  2011, ApJ 737, 103, Table 6 (R_V = 3.1; "A/E(B−V)_SFD" column, Landolt and 2MASS).
+* Interstellar extinction: A_band = (A_band/A_V)(R_V) × R_V × E(B−V) with the Cardelli,
+  Clayton & Mathis 1989 law (ApJ 345, 245) at the band's effective wavelength,
+  A_band/A_V = a(x) + b(x)/R_V (a, b in the band table), R_V = 3.1 unless the target
+  gives its own.  At R_V = 3.1, A_V = 3.13 E(B−V): the classical scale on which the
+  catalog's Harris E(B−V) is defined.
 * Sky: the site's dark zenith sky, brightened off the zenith with Krisciunas &
   Schaefer 1991 (PASP 103, 1033), B0(Z) = B_zen 10^(−0.4 k (X − 1)) X, with their
   scattering air mass X(Z) = (1 − 0.96 sin² Z)^(−1/2) and sin² Z = 1 − 1/airmass²
@@ -33,7 +36,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from planner.errors import InputError
-from planner.model.bands import BANDS, C_CM_S, H_ERG_S, Band
+from planner.model.bands import BANDS, C_CM_S, DEFAULT_R_V, EXTINCTION_LAW, H_ERG_S, Band
 
 
 class UnknownFilterError(InputError):
@@ -92,9 +95,12 @@ def electron_rate(magnitude, zero_mag_rate_e_per_s, extinction_mag_per_airmass=0
     return zero_mag_rate_e_per_s * 10.0 ** (-0.4 * (m + extinction_mag_per_airmass * np.asarray(airmass)))
 
 
-def interstellar_extinction_mag(band: str, ebv_mag) -> float:
-    """A_band = R_band E(B−V), Schlafly & Finkbeiner 2011 Table 6 (R_V = 3.1)."""
-    return band_info(band).r_ebv * np.asarray(ebv_mag, dtype=float)
+def interstellar_extinction_mag(band: str, ebv_mag, r_v=DEFAULT_R_V):
+    """A_band = (a + b / R_V) R_V E(B−V): Cardelli, Clayton & Mathis 1989 at λeff."""
+    r = np.asarray(r_v, dtype=float)
+    if not np.all(np.isfinite(r) & (r > 0)):
+        raise ConditionsError(f"R_V must be a positive number (got {r_v!r})")
+    return band_info(band).extinction_per_ebv(r) * np.asarray(ebv_mag, dtype=float)
 
 
 # ------------------------------------------------------------------ sky brightness
@@ -248,6 +254,7 @@ class ScienceLevel:
     rule_of_thumb: bool
     target: str | None = None
     notes: tuple[str, ...] = ()
+    r_v: float | None = None  # R_V used for extinction (None: no extinction applied)
 
 
 def metallicity_mh(feh_dex, alpha_fe_dex=0.3):
@@ -332,10 +339,12 @@ def science_level(target, level: str, band: str, *, period_d: float | None = Non
                              "add it to the target list, or a magnitude is needed")
     absolute, calibration, colour, thumb, notes = absolute_level_mag(
         level, band, target.feh_dex, period_d=period_d)
-    a_band = float(interstellar_extinction_mag(band, target.ebv_mag))
+    r_v = getattr(target, "r_v", None)
+    r_v = DEFAULT_R_V if _missing(r_v) else float(r_v)
+    a_band = float(interstellar_extinction_mag(band, target.ebv_mag, r_v))
     m = absolute + float(target.distance_modulus_mag) + a_band
     brightest = m - RRL_MAX_ABOVE_MEAN_MAG if level == "hb" else m
-    return ScienceLevel(level, band, m, brightest, absolute, a_band, calibration, colour, thumb, name, notes)
+    return ScienceLevel(level, band, m, brightest, absolute, a_band, calibration, colour, thumb, name, notes, r_v)
 
 
 def user_level(magnitude: float, band: str, target_name: str | None = None) -> ScienceLevel:

@@ -19,5 +19,6 @@ class Target:
     feh_dex: float | None = None  # [Fe/H]
     half_light_radius_arcmin: float | None = None
     v_mag: float | None = None  # integrated V
+    r_v: float | None = None  # A_V / E(B-V) towards it; None: the law's mean 3.1
     priority: float = 1.0  # > 0, larger is more important
     catalog_name: str | None = None  # primary name in the bundled catalog, if it is there

@@ -43,7 +43,7 @@ def expose_text(plan, level, target, site, width: int = 78) -> str:
             f"{plan.target}, {LEVEL_NAMES[level.level]} in {f}: {f} = {plan.magnitude:.2f}{thumb}. "
             f"M_{plan.band} = {level.absolute_mag:+.2f} ({level.calibration}; {level.colour_source}); "
             f"(m-M)0 = {target.distance_modulus_mag:.2f}, E(B-V) = {target.ebv_mag:.2f}, "
-            f"A_{plan.band} = {level.extinction_mag:.2f} (Schlafly & Finkbeiner 2011).")
+            f"A_{plan.band} = {level.extinction_mag:.2f} (Cardelli et al. 1989, R_V = {level.r_v:.2f}).")
     paragraphs.append(
         f"Sky: {f} = {plan.sky_mag_arcsec2:.2f} mag/arcsec2 at airmass {c.airmass:.2f} ({_moon_words(c)}; "
         f"dark zenith sky {c.dark_sky_mag_arcsec2:.2f}); seeing {c.seeing_fwhm_arcsec:.2f}\".")
