@@ -65,7 +65,9 @@ def test_cluster_level_json_and_default_period(capsys):
     assert data["target"] == "NGC 6397" and data["level"] == "hb"
     assert data["shortest_period_d"] == 0.2  # Catelan & Cortés 2008: RR Lyrae periods from 0.2 d
     assert data["saturation_magnitude"] < data["magnitude"]
-    assert "Cacciari" in data["calibration"]
+    # the catalog's observed HB (Harris 2010 V_HB = 12.87, read) sets the level
+    assert data["calibration"] == "observed V_HB = 12.87 (Harris 2010)" and data["level_from_observed_hb"]
+    assert data["magnitude"] == pytest.approx(12.87)
     assert data["tip_saturation_s"] is not None and data["tip_saturation_s"] < data["saturation_s"]
 
 

@@ -248,23 +248,90 @@ HARRIS_2010 = {
     "NGC6341": (-2.31, 0.02, 15.10), "NGC7078": (-2.37, 0.10, 15.83), "NGC4590": (-2.23, 0.05, 15.68),
     "NGC6752": (-1.54, 0.04, 13.70), "NGC6397": (-2.02, 0.18, 12.87), "NGC7099": (-2.27, 0.03, 15.10),
     "NGC362": (-1.26, 0.05, 15.44),
+    # reddened clusters, where the extinction law's scale shows
+    "NGC6838": (-0.78, 0.25, 14.48), "NGC6656": (-1.70, 0.34, 14.15), "NGC6266": (-1.18, 0.47, 16.25),
+    "NGC6402": (-1.28, 0.60, 17.30),
 }
 
 
-def _cluster(name):
-    feh, ebv, _ = HARRIS_2010[name]
-    return SimpleNamespace(name=name, distance_modulus_mag=_bv21_modulus(name), ebv_mag=ebv, feh_dex=feh)
+def _cluster(name, **extra):
+    feh, ebv, _ = HARRIS_2010.get(name) or HARRIS_2010_HIGH_RV[name][:3]
+    return SimpleNamespace(name=name, distance_modulus_mag=_bv21_modulus(name), ebv_mag=ebv, feh_dex=feh, **extra)
 
 
 @pytest.mark.parametrize("name", list(HARRIS_2010))
 def test_hb_level_against_harris_v_hb(name):
     # Harris 2010 V_HB against our M_V(RR)–[Fe/H] relation + Baumgardt & Vasiliev 2021
-    # distances (galpy) + Harris E(B-V).  Tolerance 0.15 mag: the relation's zero point
-    # (±0.03) and slope (±0.05 dex⁻¹), 1–2 % distances and the ±0.05–0.1 mag of V_HB
-    # itself.  (Computed residuals: -0.03 to +0.09 mag.)
+    # distances (galpy) + Harris E(B-V) with the CCM89 law at R_V = 3.1.  Tolerance
+    # 0.15 mag: the relation's zero point (±0.03) and slope (±0.05 dex⁻¹), 1–2 %
+    # distances, the ±0.05–0.1 mag of V_HB itself and, for the reddened clusters,
+    # R_V's spread.  (Computed residuals: -0.09 to +0.09 mag.)
     level = ph.science_level(_cluster(name), "hb", "V")
+    assert not level.observed
     assert level.magnitude == pytest.approx(HARRIS_2010[name][2], abs=0.15)
     assert level.brightest_mag < level.magnitude  # RR Lyrae at maximum set saturation
+
+
+# NGC 6121 (M 4): Harris 2010 [Fe/H], E(B-V), V_HB (read), with R_V ≈ 3.7 (from memory).
+HARRIS_2010_HIGH_RV = {"NGC6121": (-1.16, 0.35, 13.45, 3.7)}
+
+
+def test_hb_level_high_r_v_cluster():
+    # At R_V 3.1 the relation puts M 4's HB 0.36 mag too bright (computed); its own
+    # R_V (from memory) brings it within 0.2 mag of Harris's V_HB.
+    feh, ebv, v_hb, r_v = HARRIS_2010_HIGH_RV["NGC6121"]
+    mean = ph.science_level(_cluster("NGC6121"), "hb", "V").magnitude
+    own = ph.science_level(_cluster("NGC6121", r_v=r_v), "hb", "V").magnitude
+    assert abs(own - v_hb) < abs(mean - v_hb)
+    assert own == pytest.approx(v_hb, abs=0.2)
+
+
+def _harris_part2():
+    # Harris 2010 Part II as copied into the test data: {id: ([Fe/H], E(B-V), V_HB)}.
+    rows = {}
+    for line in (Path(__file__).parent / "data" / "catalog_sources" / "harris2010_part2.txt").read_text().splitlines():
+        tok = line[12:].split()
+        if "." in tok[0]:
+            rows[line[:12].strip().replace(" ", "")] = (float(tok[0]), float(tok[2]), float(tok[3]))
+    return rows
+
+
+def test_hb_residuals_do_not_grow_with_reddening():
+    # Over every Harris cluster with a Baumgardt & Vasiliev distance (galpy): the
+    # median residual against Harris V_HB stays within 0.1 mag at every reddening.
+    # (With A_V = 2.742 E(B−V) it was −0.49 mag above E(B−V) = 0.6; computed.)
+    import galpy
+
+    table = json.loads((Path(galpy.__file__).parent / "orbit" / "named_objects.json").read_text())
+    residuals = []
+    for name, (feh, ebv, v_hb) in _harris_part2().items():
+        if "distance" in table.get(name, {}):
+            target = SimpleNamespace(name=name, distance_modulus_mag=_bv21_modulus(name), ebv_mag=ebv, feh_dex=feh)
+            residuals.append((ebv, ph.science_level(target, "hb", "V").magnitude - v_hb))
+    ebv, res = np.array(residuals).T
+    assert len(res) > 120
+    for lo, hi in ((0.0, 0.1), (0.1, 0.3), (0.3, 0.6), (0.6, 5.0)):
+        assert abs(np.median(res[(ebv >= lo) & (ebv < hi)])) < 0.1
+
+
+def test_observed_hb_sets_hb_and_turnoff():
+    # A cluster of the bundled catalog carries Harris's observed V_HB (read): the HB in
+    # V is that value, the turnoff 3.5 mag below it (rule of thumb), and other bands
+    # follow by the colours and the colour excess E(band − V) = A_band − A_V.
+    from planner.inputs.catalog import load_catalog
+    from planner.inputs.targets import targets_from_names
+
+    (m4,) = targets_from_names(["M 4"], load_catalog())
+    hb = ph.science_level(m4, "hb", "V")
+    assert hb.observed and hb.magnitude == pytest.approx(13.45)
+    assert "observed V_HB = 13.45 (Harris 2010)" in hb.calibration
+    turnoff = ph.science_level(m4, "turnoff", "V")
+    assert turnoff.observed and turnoff.rule_of_thumb and turnoff.magnitude == pytest.approx(13.45 + 3.5)
+    hb_i = ph.science_level(m4, "hb", "I")
+    excess = float(ph.interstellar_extinction_mag("I", 0.35) - ph.interstellar_extinction_mag("V", 0.35))
+    assert hb_i.magnitude == pytest.approx(13.45 + ph.HB_COLOURS["I"] + excess)
+    assert not ph.science_level(m4, "hb", "Ks").observed  # near-IR: the period-luminosity relation
+    assert not ph.science_level(m4, "tip", "I").observed
 
 
 def test_tip_i_band_against_bellazzini_2004():

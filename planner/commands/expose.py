@@ -83,6 +83,7 @@ def plan_from_args(args, site):
                       moon_separation_deg=args.moon_separation, moon_altitude_deg=args.moon_altitude)
     plan = exposure_for_level(site, args.filter, level, args.snr, shortest_period_d=period, **conditions)
     extra = {"band": setup.band, "level_name": LEVEL_NAMES[level.level], "calibration": level.calibration,
+             "level_from_observed_hb": level.observed,
              "colour_source": level.colour_source, "absolute_mag": level.absolute_mag,
              "interstellar_extinction_mag": level.extinction_mag, "r_v": level.r_v,
              "extinction_law": EXTINCTION_LAW if level.r_v is not None else None, "rule_of_thumb": level.rule_of_thumb,

@@ -255,6 +255,7 @@ class ScienceLevel:
     target: str | None = None
     notes: tuple[str, ...] = ()
     r_v: float | None = None  # R_V used for extinction (None: no extinction applied)
+    observed: bool = False  # set by the cluster's observed V_HB, not by a calibration
 
 
 def metallicity_mh(feh_dex, alpha_fe_dex=0.3):
@@ -323,28 +324,60 @@ def _missing(value) -> bool:
     return value is None or (isinstance(value, float) and math.isnan(value))
 
 
+def _observed_hb_applies(target, level: str, band: str) -> bool:
+    """Whether the target's observed V_HB sets this level: HB in UBVRI (the near-IR HB
+    comes from the period-luminosity relation) and the turnoff in every band."""
+    if _missing(getattr(target, "v_hb_mag", None)) or level not in ("hb", "turnoff"):
+        return False
+    return level == "turnoff" or band in HB_COLOURS
+
+
 def science_level(target, level: str, band: str, *, period_d: float | None = None) -> ScienceLevel:
     """The apparent magnitude of ``level`` of cluster ``target`` in ``band``.
 
     ``target`` needs ``name``, ``distance_modulus_mag`` (true, dereddened), ``ebv_mag``
-    and ``feh_dex`` (any object with those attributes, e.g. ``planner.targets.Target``).
-    Raises :class:`LevelError` naming the missing quantity.
+    and ``feh_dex`` (any object with those attributes, e.g. ``planner.targets.Target``);
+    ``r_v`` (default 3.1) and an observed ``v_hb_mag`` are used when present: the
+    observed HB level then sets the HB (UBVRI) and the turnoff, shifted to other bands
+    by the colours and the colour excess A_band − A_V.  Raises :class:`LevelError`
+    naming the missing quantity.
     """
     name = getattr(target, "name", None)
+    observed = _observed_hb_applies(target, level, band)
     needs = (("distance_modulus_mag", "a distance modulus"), ("ebv_mag", "a reddening E(B-V)"),
              ("feh_dex", "a metallicity [Fe/H]"))
-    for attr, what in needs:
+    for attr, what in needs[1:] if observed else needs:
         if _missing(getattr(target, attr, None)):
             raise LevelError(f"target {name!r} has no {attr} ({what}); the {level} level needs it: "
                              "add it to the target list, or a magnitude is needed")
-    absolute, calibration, colour, thumb, notes = absolute_level_mag(
-        level, band, target.feh_dex, period_d=period_d)
     r_v = getattr(target, "r_v", None)
     r_v = DEFAULT_R_V if _missing(r_v) else float(r_v)
     a_band = float(interstellar_extinction_mag(band, target.ebv_mag, r_v))
-    m = absolute + float(target.distance_modulus_mag) + a_band
+    modulus = getattr(target, "distance_modulus_mag", None)
+    if observed:
+        m, calibration, colour, thumb = _from_observed_hb(target, level, band, a_band, r_v)
+        absolute, notes = (None if _missing(modulus) else m - float(modulus) - a_band), ()
+    else:
+        absolute, calibration, colour, thumb, notes = absolute_level_mag(
+            level, band, target.feh_dex, period_d=period_d)
+        m = absolute + float(modulus) + a_band
     brightest = m - RRL_MAX_ABOVE_MEAN_MAG if level == "hb" else m
-    return ScienceLevel(level, band, m, brightest, absolute, a_band, calibration, colour, thumb, name, notes, r_v)
+    return ScienceLevel(level, band, m, brightest, absolute, a_band, calibration, colour, thumb, name, notes, r_v,
+                        observed)
+
+
+def _from_observed_hb(target, level, band, a_band, r_v):
+    """(magnitude, calibration, colour source, rule of thumb) from the observed V_HB."""
+    v_hb = float(target.v_hb_mag)
+    source = getattr(target, "v_hb_source", None) or "given"
+    excess = a_band - float(interstellar_extinction_mag("V", target.ebv_mag, r_v))  # E(band - V)
+    calibration = f"observed V_HB = {v_hb:.2f} ({source})"
+    if level == "hb":
+        colour = "none needed" if band == "V" else f"RR Lyrae mean colours, {COLOUR_SOURCE_MEMORY}"
+        return v_hb + HB_COLOURS[band] + excess, calibration, colour, False
+    return (v_hb + TURNOFF_BELOW_HB_V + TURNOFF_COLOURS[band] + excess,
+            f"rule of thumb: V(turnoff) = V_HB + 3.5 (Buonanno et al. 1989, from memory), {calibration}",
+            f"turnoff dwarf colours, {COLOUR_SOURCE_MEMORY}", True)
 
 
 def user_level(magnitude: float, band: str, target_name: str | None = None) -> ScienceLevel:

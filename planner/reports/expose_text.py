@@ -39,11 +39,20 @@ def expose_text(plan, level, target, site, width: int = 78) -> str:
                           "(as given).")
     else:
         thumb = " (rule of thumb)" if level.rule_of_thumb else ""
-        paragraphs.append(
-            f"{plan.target}, {LEVEL_NAMES[level.level]} in {f}: {f} = {plan.magnitude:.2f}{thumb}. "
-            f"M_{plan.band} = {level.absolute_mag:+.2f} ({level.calibration}; {level.colour_source}); "
-            f"(m-M)0 = {target.distance_modulus_mag:.2f}, E(B-V) = {target.ebv_mag:.2f}, "
-            f"A_{plan.band} = {level.extinction_mag:.2f} (Cardelli et al. 1989, R_V = {level.r_v:.2f}).")
+        extinction = (f"E(B-V) = {target.ebv_mag:.2f}, A_{plan.band} = {level.extinction_mag:.2f} "
+                      f"(Cardelli et al. 1989, R_V = {level.r_v:.2f})")
+        colours = "" if level.colour_source == "none needed" else f"; {level.colour_source}"
+        if level.observed:
+            implied = ("" if level.absolute_mag is None else
+                       f", so M_{plan.band} = {level.absolute_mag:+.2f} at (m-M)0 = {target.distance_modulus_mag:.2f}")
+            paragraphs.append(
+                f"{plan.target}, {LEVEL_NAMES[level.level]} in {f}: {f} = {plan.magnitude:.2f}{thumb}, from the "
+                f"{level.calibration}{colours}; {extinction}{implied}.")
+        else:
+            paragraphs.append(
+                f"{plan.target}, {LEVEL_NAMES[level.level]} in {f}: {f} = {plan.magnitude:.2f}{thumb}. "
+                f"M_{plan.band} = {level.absolute_mag:+.2f} ({level.calibration}{colours}); "
+                f"(m-M)0 = {target.distance_modulus_mag:.2f}, {extinction}.")
     paragraphs.append(
         f"Sky: {f} = {plan.sky_mag_arcsec2:.2f} mag/arcsec2 at airmass {c.airmass:.2f} ({_moon_words(c)}; "
         f"dark zenith sky {c.dark_sky_mag_arcsec2:.2f}); seeing {c.seeing_fwhm_arcsec:.2f}\".")
