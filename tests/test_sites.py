@@ -564,3 +564,18 @@ def test_any_site_spec_gives_a_profile_or_site_profile_error(spec):
     else:
         assert -90 <= profile.location.latitude_deg <= 90
         assert -180 <= profile.location.longitude_deg <= 180
+
+
+def test_psf_is_a_sky_choice_with_a_moffat_default(write):
+    # Moffat β = 4.765 by default: Trujillo et al. 2001 (tests/REFERENCES.md,
+    # "Signal-to-noise and the point-spread function").
+    default = load_site_profile(write(FULL))
+    assert (default.sky.psf, default.sky.moffat_beta) == ("moffat", 4.765)
+    own = load_site_profile(write(edited("typical_seeing_arcsec", 'psf = "moffat"\nmoffat_beta = 3\ntypical_seeing_arcsec')))
+    assert (own.sky.psf, own.sky.moffat_beta) == ("moffat", 3.0)
+    gauss = load_site_profile(write(edited("typical_seeing_arcsec", 'psf = "gaussian"\ntypical_seeing_arcsec')))
+    assert gauss.sky.psf == "gaussian"
+    for text, message in (('psf = "moffit"', 'did you mean "moffat"'), ("moffat_beta = 1", "moffat_beta must be > 1"),
+                          ('psf = "gaussian"\nmoffat_beta = 3', 'applies only to psf = "moffat"')):
+        err = error_of(write(edited("typical_seeing_arcsec", text + "\ntypical_seeing_arcsec")))
+        assert "[sky]" in str(err) and message in str(err), str(err)

@@ -39,7 +39,9 @@ keys are errors.  ::
                   > 0 = none (the standard band's width); zero_point_mag 10..35, the
                   magnitude giving 1 e-/s above the atmosphere.  throughput and
                   zero_point_mag are each optional, but not both
-    [sky]         typical_seeing_arcsec > 0, ≤ 10; [sky.dark_mag_arcsec2] (zenith,
+    [sky]         typical_seeing_arcsec > 0, ≤ 10; psf "moffat" | "gaussian" = "moffat",
+                  the stars' profile; moffat_beta > 1, ≤ 20 = 4.765 (Trujillo et al. 2001),
+                  for psf = "moffat" only; [sky.dark_mag_arcsec2] (zenith,
                   moonless, 10..25 mag/arcsec²) and [sky.extinction_mag_per_airmass]
                   (0..2 mag/airmass), each a value for every filter NAME and no other
     top level     notes = "..." = "": free text (operators' rules, cautions)
@@ -68,6 +70,9 @@ from planner.inputs.tomlcheck import (
 )
 from planner.model.bands import BANDS as _BAND_TABLE
 from planner.model.site import (
+    DEFAULT_MOFFAT_BETA,
+    DEFAULT_PSF,
+    PSF_KINDS,
     TWILIGHTS,
     Camera,
     Filter,
@@ -95,7 +100,7 @@ _KEYS: dict[str, tuple[str, ...]] = {
                "full_well_e", "linearity_limit_e", "readout_s", "min_exposure_s",
                "detector_pixels", "fits_keywords"),
     "filter": ("band", "throughput", "bandwidth_angstrom", "zero_point_mag"),
-    "sky": ("typical_seeing_arcsec", "dark_mag_arcsec2", "extinction_mag_per_airmass"),
+    "sky": ("typical_seeing_arcsec", "psf", "moffat_beta", "dark_mag_arcsec2", "extinction_mag_per_airmass"),
 }
 _SCHEMA = Schema(_KEYS, SiteProfileError)
 DEFAULT_MIN_ALTITUDE_DEG = 20.0  # a common telescope limit (airmass 2.9), from memory
@@ -264,10 +269,14 @@ def parse_site_profile(data: Mapping, source: str) -> SiteProfile:
         table.fail("must hold at least one filter table, e.g. [filters.V]")
     filters = MappingProxyType({name: _filter(name, table.sub(name, "filter", True)) for name in table.table})
     sky = top.sub("sky", "sky", True)
+    psf = sky.string("psf", DEFAULT_PSF, PSF_KINDS)
+    if psf != "moffat" and sky.get("moffat_beta", False) is not None:
+        sky.fail(f"moffat_beta applies only to psf = \"moffat\" (psf is {show(psf)})")
     return SiteProfile(location, limits, telescope, camera, filters, Sky(
         typical_seeing_arcsec=sky.number("typical_seeing_arcsec", 0, 10, lo_open=True),
         dark_mag_arcsec2=_per_filter(sky, "dark_mag_arcsec2", filters, 10, 25),
         extinction_mag_per_airmass=_per_filter(sky, "extinction_mag_per_airmass", filters, 0, 2),
+        psf=psf, moffat_beta=sky.number("moffat_beta", 1, 20, lo_open=True, default=DEFAULT_MOFFAT_BETA),
     ), source, (notes or "").strip())
 
 
