@@ -30,7 +30,7 @@ def _moon_words(c) -> str:
             f"{c.moon_separation_deg:.0f} deg away")
 
 
-def expose_text(plan, level, target, site, width: int = 78) -> str:
+def expose_text(plan, level, target, site, width: int = 78, cluster_light: str | None = None) -> str:
     """The observer's note: the level, the sky, the frames to take, what to watch."""
     c, f = plan.inputs, plan.filter
     paragraphs = []
@@ -56,6 +56,12 @@ def expose_text(plan, level, target, site, width: int = 78) -> str:
     paragraphs.append(
         f"Sky: {f} = {plan.sky_mag_arcsec2:.2f} mag/arcsec2 at airmass {c.airmass:.2f} ({_moon_words(c)}; "
         f"dark zenith sky {c.dark_sky_mag_arcsec2:.2f}); seeing {c.seeing_fwhm_arcsec:.2f}\".")
+    if plan.cluster_surface_brightness_mag_arcsec2 is not None:
+        paragraphs.append(
+            f"Cluster light: {f} = {plan.cluster_surface_brightness_mag_arcsec2:.2f} mag/arcsec2 at the star "
+            f"({plan.cluster_e_per_s_per_pixel:.3g} e-/s per pixel), {cluster_light}.")
+    elif cluster_light:
+        paragraphs.append(f"Cluster light: {cluster_light}.")
     paragraphs.append(
         f"Take {plan.frames} x {plan.frame_s:g} s in {f}: {duration(plan.exposure_s)} on the star, "
         f"{duration(plan.elapsed_s)} with readout; S/N {plan.snr_reached:.0f} (goal {plan.snr_goal:g}).")
