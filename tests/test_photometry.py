@@ -437,3 +437,22 @@ def test_science_level_uses_the_targets_r_v():
     assert (mean.r_v, high.r_v) == (3.1, 3.7)
     assert high.extinction_mag == pytest.approx(3.7 * 0.35, rel=0.015)
     assert high.magnitude - mean.magnitude == pytest.approx(high.extinction_mag - mean.extinction_mag)
+
+
+def test_rr_lyrae_maximum_from_the_amplitude():
+    # The saturation margin of the HB level comes from gcplan's own RRab template and
+    # Bailey locus (planner.variables.recovery): recomputed here, maximum light lies
+    # 0.57 A above the intensity mean (0.62 A above the magnitude mean), A_V = 1.21 at
+    # P = 0.5 d; other bands scale with amplitude ratios (from memory).
+    from planner.variables.recovery import RRAB_SHAPE, bailey_amplitude_mag, template_magnitude
+
+    amplitude = float(bailey_amplitude_mag(0.5))
+    assert amplitude == pytest.approx(ph.RRAB_LARGEST_AMPLITUDE_V_MAG, abs=0.005)
+    t = template_magnitude(RRAB_SHAPE, np.arange(20000) / 20000) * amplitude
+    assert float(np.mean(t)) / amplitude == pytest.approx(0.62, abs=0.005)
+    intensity_mean = -2.5 * math.log10(float(np.mean(10 ** (-0.4 * t))))
+    assert intensity_mean / amplitude == pytest.approx(ph.RRAB_MAX_ABOVE_MEAN_PER_AMPLITUDE, abs=0.005)
+    v = ph.science_level(_cluster("NGC5272"), "hb", "V")
+    i = ph.science_level(_cluster("NGC5272"), "hb", "I")
+    assert v.magnitude - v.brightest_mag == pytest.approx(intensity_mean, abs=0.01)
+    assert 0 < i.magnitude - i.brightest_mag < v.magnitude - v.brightest_mag

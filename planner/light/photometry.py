@@ -234,9 +234,20 @@ HB_J_MINUS_KS, HB_H_MINUS_KS = 0.25, 0.05
 TURNOFF_COLOURS = {"U": 0.30, "B": 0.45, "V": 0.0, "R": -0.28, "I": -0.58,
                    "J": -1.05, "H": -1.35, "Ks": -1.40}
 COLOUR_SOURCE_MEMORY = "typical colours from memory, ±0.1 mag"
-# The brightest stars of the HB level are RR Lyrae at maximum light, about half a
-# typical RRab V amplitude (≈1 mag, from memory) above the mean; used for saturation.
-RRL_MAX_ABOVE_MEAN_MAG = 0.5
+# The brightest stars of the HB level are RR Lyrae at maximum light; used for saturation.
+# The largest RRab amplitudes: A_V = 1.21 at P = 0.5 d on the Bailey locus that
+# planner.variables.recovery adopts (computed).  Its RRab template puts maximum light
+# 0.57 A above the intensity mean, the mean the M_V calibrations use (0.62 A above the
+# magnitude mean; computed, tests/test_photometry.py recomputes both).  Amplitude ratios
+# A_band / A_V of RRab stars, from memory (±0.1): the amplitude shrinks to the red.
+RRAB_LARGEST_AMPLITUDE_V_MAG = 1.21
+RRAB_MAX_ABOVE_MEAN_PER_AMPLITUDE = 0.57
+RRL_AMPLITUDE_RATIO = {"U": 1.30, "B": 1.25, "V": 1.0, "R": 0.80, "I": 0.63, "J": 0.45, "H": 0.32, "Ks": 0.30}
+
+
+def rrl_max_above_mean_mag(band: str) -> float:
+    """How far the brightest RR Lyrae at maximum rise above the HB's mean level in ``band``."""
+    return RRAB_MAX_ABOVE_MEAN_PER_AMPLITUDE * RRAB_LARGEST_AMPLITUDE_V_MAG * RRL_AMPLITUDE_RATIO[band]
 
 
 @dataclass(frozen=True)
@@ -361,7 +372,7 @@ def science_level(target, level: str, band: str, *, period_d: float | None = Non
         absolute, calibration, colour, thumb, notes = absolute_level_mag(
             level, band, target.feh_dex, period_d=period_d)
         m = absolute + float(modulus) + a_band
-    brightest = m - RRL_MAX_ABOVE_MEAN_MAG if level == "hb" else m
+    brightest = m - rrl_max_above_mean_mag(band) if level == "hb" else m
     return ScienceLevel(level, band, m, brightest, absolute, a_band, calibration, colour, thumb, name, notes, r_v,
                         observed)
 
