@@ -292,12 +292,22 @@ def bundled_site_names() -> list[str]:
     return sorted(p.stem for p in folder.glob("*.toml")) if folder.is_dir() else []
 
 
+def mean_solar_zone(longitude_deg: float) -> str:
+    """The whole-hour zone nearest the site's mean solar time (longitude / 15 h), as tzdata
+    names it ("Etc/GMT+10" is UTC−10: POSIX signs are reversed); "UTC" at 0 h.
+
+    Local noon then falls within 30 min of mean solar noon, so a night counted from
+    local noon to local noon holds the whole night at every longitude."""
+    hours = int(round(longitude_deg / 15.0))
+    return "UTC" if hours == 0 else f"Etc/GMT{'+' if hours < 0 else '-'}{abs(hours)}"
+
+
 def site_from_coordinates(text: str, timezone: str | None = None) -> SiteProfile:
     """A site at ``"LAT,LON[,ELEV_M]"`` with generic telescope, camera, filters and sky.
 
     Everything but the location comes from the bundled ``generic.toml`` (a 1 m
     telescope with a CCD and UBVRI filters).  Elevation defaults to 0 m, the
-    time zone to UTC; the name is like ``"site at -30.200°, -70.800°"``.
+    time zone to the site's mean solar time (:func:`mean_solar_zone`); the name is like ``"site at -30.200°, -70.800°"``.
     """
     def fail(message: str) -> SiteProfileError:
         return error(SiteProfileError, f"site {show(text)}: {message}")
@@ -315,7 +325,7 @@ def site_from_coordinates(text: str, timezone: str | None = None) -> SiteProfile
             raise fail(f"{label} must be between {lo} and {hi} (got {show(part)})")
     lat, lon, elev = values[0], values[1], values[2] if len(values) == 3 else 0.0
     lon = lon - 360.0 if lon > 180.0 else lon
-    tz = "UTC" if timezone is None else timezone
+    tz = mean_solar_zone(lon) if timezone is None else timezone
     if _timezone_problem(tz):
         raise fail(f"timezone {_timezone_problem(tz)}")
     generic = load_site_profile(site_profiles_dir() / f"{GENERIC_PROFILE}.toml")

@@ -8,6 +8,7 @@ import textwrap
 import numpy as np
 
 from planner.cautions import PLAN_CAUTION as CAUTION
+from planner.inputs.sites import mean_solar_zone
 from planner.sky.nights import iso_utc, jd_to_datetime, local_hhmm, utc_hhmm
 
 
@@ -112,6 +113,8 @@ def night_text(run_, i: int = 0) -> str:
         f"  {loc.latitude_deg:+.4f}°, {loc.longitude_deg:+.4f}°, {loc.elevation_m:.0f} m · {zone} "
         f"({utc_offset_label(alm.middle_jd[i], zone)} at midnight)"
     )
+    if zone.startswith("Etc/") and zone == mean_solar_zone(loc.longitude_deg):
+        lines.append("  local clock: the whole hour nearest the site's mean solar time")
     lines.append("")
     lines.append(f"  {'':20s}{'evening':^14s}  {'morning':^14s}")
     lines.append(f"  {'':20s}{'local':>7s}{'UTC':>7s}  {'local':>7s}{'UTC':>7s}")
