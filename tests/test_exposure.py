@@ -435,3 +435,15 @@ def test_longest_frame_asked_for_caps_frames():
     plan = ex.exposure_for_snr(SITE, "V", 21.0, 100.0, max_frame_s=300.0)
     assert plan.frames > 1 and plan.frame_s <= 300.0 and plan.snr_reached >= 100.0
     assert any("at most 300 s" in w for w in plan.warnings)
+
+
+def test_opposition_brightening_is_stated_near_full_moon():
+    # Krisciunas & Schaefer 1991 exclude the opposition effect within about 7° of full
+    # phase (from memory): illuminated fraction (1 + cos 7°)/2 = 0.99627 (Meeus 48.1; computed).
+    def notes(illumination, altitude=30.0):
+        plan = ex.exposure_for_snr(SITE, "V", 19.0, 30.0, moon_illumination=illumination,
+                                   moon_separation_deg=60.0, moon_altitude_deg=altitude)
+        return [w for w in plan.warnings if "opposition" in w]
+
+    assert (1 + math.cos(math.radians(7.0))) / 2 == pytest.approx(0.99627, abs=1e-5)
+    assert notes(0.997) and not notes(0.996) and not notes(0.997, altitude=-5.0)

@@ -61,6 +61,7 @@ from planner.light.photometry import (
     band_info,
     check_conditions,
     electron_rate,
+    moon_phase_angle_deg,
     sky_brightness_mag_arcsec2,
     zero_mag_electron_rate,
 )
@@ -72,6 +73,9 @@ class SnrGoalError(InputError):
 
 DEFAULT_AIRMASS = 1.2
 DEFAULT_PHASE_SMEAR_FRACTION = 0.01  # frames above 1 % of the shortest period are flagged
+# Krisciunas & Schaefer 1991 (PASP 103, 1033) leave out the Moon's opposition surge
+# within about 7 deg of full phase (up to about 0.3 mag, from memory): stated, not modelled.
+OPPOSITION_PHASE_ANGLE_DEG = 7.0
 MAX_FRAMES = 10**6  # beyond this the goal counts as out of reach (sky or Moon too bright)
 
 
@@ -405,6 +409,10 @@ def exposure_for_snr(site, filter_name: str, magnitude: float, snr: float, *, ai
                             f"of the shortest period ({shortest_period_d:g} d, {smear:.0f} s)")
     if airmass > s.max_airmass:
         warnings.append(f"airmass {airmass:g} is beyond the site's limit {s.max_airmass:g}")
+    if moon_altitude_deg > 0 and float(moon_phase_angle_deg(moon_illumination)) < OPPOSITION_PHASE_ANGLE_DEG:
+        warnings.append(f"the Moon is within {OPPOSITION_PHASE_ANGLE_DEG:g} deg of full phase: its opposition "
+                        "brightening (up to about 0.3 mag, Krisciunas & Schaefer 1991) is not in the sky model, "
+                        "so the sky may be brighter and the times longer")
     if moon_altitude_deg > 0 and moon_illumination > 0 and moon_separation_deg < s.min_moon_separation_deg:
         warnings.append(f"the Moon is {moon_separation_deg:g} deg away, closer than the site's "
                         f"{s.min_moon_separation_deg:g} deg limit")
