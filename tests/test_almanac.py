@@ -528,3 +528,34 @@ def test_night_text_names_the_solar_clock_and_keeps_the_morning(capsys):
     assert "astronomically dark: 10.3 h" in out
     sun = next(line for line in out.splitlines() if line.strip().startswith("sun ("))
     assert "—" not in sun and len(sun.split()) == 6  # sunset and sunrise, local and UTC
+
+
+def test_moon_events_on_their_side_of_the_night(de421, capsys):
+    # Demo site, night of 2027-01-05 (a waning crescent): skyfield/DE421 sets the Moon
+    # before sunset and raises it before dawn.  The night log puts the moonset in the
+    # evening column and the moonrise in the morning one; the night text says "before sunset".
+    from types import SimpleNamespace
+
+    from skyfield import almanac as sf_almanac
+    from skyfield.api import wgs84
+
+    from planner.cli import main
+    from planner.reports.nightlog import almanac_rows
+
+    site = _site("demo", None)
+    alm = almanac_for_nights(site, [dt.date(2027, 1, 5)])
+    ts, eph = de421
+    loc = site.location
+    obs = eph["earth"] + wgs84.latlon(loc.latitude_deg, loc.longitude_deg, elevation_m=loc.elevation_m)
+    t, kinds = sf_almanac.find_settings(obs, eph["moon"], _sf_time(ts, alm.span_start_jd[0]),
+                                        _sf_time(ts, alm.sunset_jd[0]))
+    assert len(t) == 1  # skyfield: the Moon sets once between local noon and sunset
+    assert abs(alm.moonset_jd[0] - _jd(t[0])) < ONE_MINUTE_D
+    rows = almanac_rows(SimpleNamespace(almanac=alm, site=site))
+    evening = [r[0] for r in rows]
+    morning = [r[3] for r in rows]
+    assert "moonset" in evening and "moonrise" in morning
+    assert main(["night", "--site", "demo", "--date", "2027-01-05", "--target", "47 Tuc"]) == 0
+    out = capsys.readouterr().out
+    moon_line = next(line for line in out.splitlines() if "moonset" in line)
+    assert moon_line.index("moonset") < moon_line.index("moonrise") and "before sunset" in moon_line

@@ -132,10 +132,11 @@ def night_text(run_, i: int = 0) -> str:
     if always:
         lines.append("  the Moon is up all night" if always > 0 else "  the Moon stays below the horizon all night")
     else:
-        lines.append(
-            f"  moonrise {local_hhmm(alm.moonrise_jd[i], zone)} local ({utc_hhmm(alm.moonrise_jd[i])} UTC), "
-            f"moonset {local_hhmm(alm.moonset_jd[i], zone)} local ({utc_hhmm(alm.moonset_jd[i])} UTC)"
-        )
+        events = sorted((("moonrise", alm.moonrise_jd[i]), ("moonset", alm.moonset_jd[i])),
+                        key=lambda e: np.nan_to_num(e[1], nan=np.inf))  # in the order they happen
+        lines.append("  " + ", ".join(f"{name} {local_hhmm(jd, zone)} local ({utc_hhmm(jd)} UTC)"
+                                      + (" before sunset" if jd < alm.sunset_jd[i] else "")
+                                      for name, jd in events))
     before, after = (utc_offset_label(jd, zone) for jd in (alm.span_start_jd[i], alm.span_end_jd[i]))
     if before != after:
         lines.append(f"  the clocks change tonight: {before} in the evening, {after} in the morning")
@@ -179,7 +180,9 @@ def night_text(run_, i: int = 0) -> str:
             f"{_fmt(vis.moon_separation_deg[k, i], '4.0f', '°')}"
         )
     lines.append("")
-    lines.append("  Sun and Moon: their centres. Altitudes geometric; airmass Kasten & Young 1989.")
+    lines.append("  Sunset, sunrise: the Sun's centre at −0.833°; moonrise, moonset: the Moon's")
+    lines.append("  upper limb on the horizon; twilights, altitudes, separations: centres.")
+    lines.append("  Altitudes geometric; airmass Kasten & Young 1989.")
     lines.extend("  " + part for part in textwrap.wrap(CAUTION, 76))
     return "\n".join(line.rstrip() for line in lines)
 
