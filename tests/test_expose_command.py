@@ -156,3 +156,16 @@ def test_core_says_what_is_missing_and_the_command_names_its_option(capsys):
                                "--snr", "10"], capsys)
     assert status == 2 and out == "" and err.count("\n") == 1
     assert "U - V" in err and "--mag" in err
+
+
+def test_r_v_option_for_a_catalog_cluster(capsys):
+    # A_V = (a + b/R_V) R_V E(B-V) (Cardelli et al. 1989): NGC 6121's E(B-V) = 0.35 (Harris
+    # 2010) at R_V = 3.7 (from memory) gives A_V = 1.306 (computed from the band table).
+    base = ["expose", "--site", "demo", "--filter", "V", "--target", "NGC 6121", "--level", "tip", "--snr", "100",
+            "--json"]
+    status, out, _ = gcplan(base + ["--r-v", "3.7"], capsys)
+    data = json.loads(out)
+    assert status == 0 and data["r_v"] == 3.7
+    assert data["interstellar_extinction_mag"] == pytest.approx(0.35 * (1.0025 * 3.7 + 0.0215), abs=1e-4)
+    status, _, err = gcplan(base + ["--r-v", "9"], capsys)
+    assert status == 2 and "--r-v must be between 2 and 6" in err

@@ -29,6 +29,8 @@ def register(sub) -> None:
     what.add_argument("--mag", type=float, metavar="M", help="magnitude of the star, as observed (with extinction)")
     what.add_argument("--target", metavar="NAME", help="cluster by catalog name or alias, e.g. 'NGC 6397'")
     what.add_argument("--level", choices=LEVELS, help="science level of the cluster: tip, hb or turnoff")
+    what.add_argument("--r-v", type=float, metavar="R", dest="r_v",
+                      help="R_V = A_V/E(B-V) towards the cluster, 2..6 (default 3.1, the law's mean)")
     p.add_argument("--snr", type=float, required=True, metavar="X", help="S/N goal for the stacked frames")
     cond = p.add_argument_group("conditions (defaults: the site's typical seeing, airmass 1.2, no Moon)")
     cond.add_argument("--seeing", type=float, metavar="FWHM", help="seeing FWHM on the frame, arcsec")
@@ -67,6 +69,10 @@ def _level_from_args(args, band):
     from planner.inputs.targets import targets_from_names
 
     target = targets_from_names([args.target], load_catalog())[0]
+    if args.r_v is not None:
+        if not 2.0 <= args.r_v <= 6.0:  # the range target lists accept
+            raise LevelError(f"--r-v must be between 2 and 6 (got {args.r_v:g})")
+        target = dataclasses.replace(target, r_v=args.r_v)
     try:
         return science_level(target, args.level, band), target
     except LevelError as exc:
