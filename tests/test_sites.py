@@ -571,7 +571,8 @@ def test_psf_is_a_sky_choice_with_a_moffat_default(write):
     # "Signal-to-noise and the point-spread function").
     default = load_site_profile(write(FULL))
     assert (default.sky.psf, default.sky.moffat_beta) == ("moffat", 4.765)
-    own = load_site_profile(write(edited("typical_seeing_arcsec", 'psf = "moffat"\nmoffat_beta = 3\ntypical_seeing_arcsec')))
+    own = load_site_profile(write(edited("typical_seeing_arcsec",
+                                         'psf = "moffat"\nmoffat_beta = 3\ntypical_seeing_arcsec')))
     assert (own.sky.psf, own.sky.moffat_beta) == ("moffat", 3.0)
     gauss = load_site_profile(write(edited("typical_seeing_arcsec", 'psf = "gaussian"\ntypical_seeing_arcsec')))
     assert gauss.sky.psf == "gaussian"

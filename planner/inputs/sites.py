@@ -307,7 +307,8 @@ def site_from_coordinates(text: str, timezone: str | None = None) -> SiteProfile
 
     Everything but the location comes from the bundled ``generic.toml`` (a 1 m
     telescope with a CCD and UBVRI filters).  Elevation defaults to 0 m, the
-    time zone to the site's mean solar time (:func:`mean_solar_zone`); the name is like ``"site at -30.200°, -70.800°"``.
+    time zone to the site's mean solar time (:func:`mean_solar_zone`); the name is like
+    ``"site at -30.200°, -70.800°"``.
     """
     def fail(message: str) -> SiteProfileError:
         return error(SiteProfileError, f"site {show(text)}: {message}")

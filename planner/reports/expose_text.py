@@ -74,7 +74,8 @@ def expose_text(plan, level, target, site, width: int = 78, cluster_light: str |
     paragraphs.append(
         f"Aperture radius {plan.aperture_radius_arcsec:.2f}\" "
         f"({plan.aperture_radius_arcsec / c.pixel_scale_arcsec:.1f} px) holds {plan.enclosed_fraction:.0%} "
-        f"of the light ({plan.psf} profile); star {plan.source_e_per_s:.3g} e-/s, sky {plan.sky_e_per_s_per_pixel:.3g} e-/s "
+        f"of the light ({plan.psf} profile); star {plan.source_e_per_s:.3g} e-/s, "
+        f"sky {plan.sky_e_per_s_per_pixel:.3g} e-/s "
         f"per pixel, peak pixel {plan.peak_fraction:.1%} of the star.")
     paragraphs += [f"Note: {w}." for w in plan.warnings]
     paragraphs.append(f"Site {site.name}; twilight is not included (astronomical night assumed).")
