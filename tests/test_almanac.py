@@ -189,6 +189,11 @@ SKYFIELD_CASES = [
     ("64.1,-21.9,50", "Atlantic/Reykjavik", "2027-03-02"),
     ("64.1,-21.9,50", "Atlantic/Reykjavik", "2027-09-21"),
     ("-45.0,170.5,300", "Pacific/Auckland", "2027-07-15"),
+    # LAT,LON sites without a zone: the clock nearest mean solar time must give whole
+    # nights on both sides of the date line (Mauna Kea, Tokyo, Chatham Islands)
+    ("19.82,-155.47,4200", None, "2027-01-20"),
+    ("35.7,139.7,40", None, "2027-01-10"),
+    ("-44.0,-176.5,50", None, "2027-06-15"),
 ]
 
 
@@ -475,15 +480,16 @@ def test_night_beyond_the_bundled_iers_table(de421):
 
 
 def test_clock_far_from_solar_time(de421):
-    """A LAT,LON site keeps UTC unless told otherwise: at 139.7°E local clock
+    """A site given UTC far from its solar time: at 139.7°E local clock
     noon (12:00 UTC) is 21:19 solar time, after dark.  The night's span then
     starts in the dark; the sunrise inside the span and the dark stretch
     around the Sun's lowest point must still be found.  (skyfield: on the
     night of 2027-01-10 the Sun rises at 21:51 UTC and astronomical twilight
     begins at 20:21 UTC, both inside the span 2027-01-10T12:00Z..2027-01-11T12:00Z.)
     """
-    site = _site("35.7,139.7", None)
+    site = _site("35.7,139.7", "UTC")
     assert site.location.timezone == "UTC"
+    assert _site("35.7,139.7", None).location.timezone == "Etc/GMT-9"  # without a zone: UTC+9
     alm = almanac_for_nights(site, [dt.date(2027, 1, 10)])
     loc = site.location
     from skyfield import almanac as sf_almanac
@@ -508,3 +514,48 @@ def test_clock_far_from_solar_time(de421):
     start, end = alm.dark_window_jd("astronomical")
     assert start[0] <= lowest <= end[0], "the dark window misses the middle of the night"
     assert abs(end[0] - dawn) < ONE_MINUTE_D
+
+
+def test_night_text_names_the_solar_clock_and_keeps_the_morning(capsys):
+    # Mauna Kea as LAT,LON without a zone on 2027-01-20: skyfield/DE421 gives 10.3 h of
+    # astronomical darkness (see SKYFIELD_CASES); the whole night is in the text.
+    from planner.cli import main
+
+    assert main(["night", "--site=19.82,-155.47,4200", "--date", "2027-01-20", "--target", "NGC 104"]) == 0
+    out = capsys.readouterr().out
+    assert "Etc/GMT+10 (UTC−10:00 at midnight)" in out
+    assert "local clock: the whole hour nearest the site's mean solar time" in out
+    assert "astronomically dark: 10.3 h" in out
+    sun = next(line for line in out.splitlines() if line.strip().startswith("sun ("))
+    assert "—" not in sun and len(sun.split()) == 6  # sunset and sunrise, local and UTC
+
+
+def test_moon_events_on_their_side_of_the_night(de421, capsys):
+    # Demo site, night of 2027-01-05 (a waning crescent): skyfield/DE421 sets the Moon
+    # before sunset and raises it before dawn.  The night log puts the moonset in the
+    # evening column and the moonrise in the morning one; the night text says "before sunset".
+    from types import SimpleNamespace
+
+    from skyfield import almanac as sf_almanac
+    from skyfield.api import wgs84
+
+    from planner.cli import main
+    from planner.reports.nightlog import almanac_rows
+
+    site = _site("demo", None)
+    alm = almanac_for_nights(site, [dt.date(2027, 1, 5)])
+    ts, eph = de421
+    loc = site.location
+    obs = eph["earth"] + wgs84.latlon(loc.latitude_deg, loc.longitude_deg, elevation_m=loc.elevation_m)
+    t, kinds = sf_almanac.find_settings(obs, eph["moon"], _sf_time(ts, alm.span_start_jd[0]),
+                                        _sf_time(ts, alm.sunset_jd[0]))
+    assert len(t) == 1  # skyfield: the Moon sets once between local noon and sunset
+    assert abs(alm.moonset_jd[0] - _jd(t[0])) < ONE_MINUTE_D
+    rows = almanac_rows(SimpleNamespace(almanac=alm, site=site))
+    evening = [r[0] for r in rows]
+    morning = [r[3] for r in rows]
+    assert "moonset" in evening and "moonrise" in morning
+    assert main(["night", "--site", "demo", "--date", "2027-01-05", "--target", "47 Tuc"]) == 0
+    out = capsys.readouterr().out
+    moon_line = next(line for line in out.splitlines() if "moonset" in line)
+    assert moon_line.index("moonset") < moon_line.index("moonrise") and "before sunset" in moon_line

@@ -140,6 +140,11 @@ def test_demo_writes_its_folder(tmp_path, capsys):
                  "exposures.txt", "phases.txt", "README.txt"):
         assert (out_dir / name).stat().st_size > 0, name
     assert "INVENTED" in (out_dir / "README.txt").read_text()
+    # the exposures say which PSF, extinction law and HB level they use (README conventions)
+    header = " ".join((out_dir / "exposures.txt").read_text().split("cluster   level")[0].split())
+    for words in ("Moffat, beta = 4.765", "Cardelli, Clayton & Mathis 1989", "R_V = 3.1", "observed V_HB",
+                  "crowding"):
+        assert words in header, words
     night = json.loads((out_dir / "night.json").read_text())
     assert night["night"] == "2027-01-05" and len(night["targets"]) == 5
     assert not any("5904" in t["name"] for t in night["targets"])

@@ -65,7 +65,9 @@ def test_cluster_level_json_and_default_period(capsys):
     assert data["target"] == "NGC 6397" and data["level"] == "hb"
     assert data["shortest_period_d"] == 0.2  # Catelan & Cortés 2008: RR Lyrae periods from 0.2 d
     assert data["saturation_magnitude"] < data["magnitude"]
-    assert "Cacciari" in data["calibration"]
+    # the catalog's observed HB (Harris 2010 V_HB = 12.87, read) sets the level
+    assert data["calibration"] == "observed V_HB = 12.87 (Harris 2010)" and data["level_from_observed_hb"]
+    assert data["magnitude"] == pytest.approx(12.87)
     assert data["tip_saturation_s"] is not None and data["tip_saturation_s"] < data["saturation_s"]
 
 
@@ -154,3 +156,16 @@ def test_core_says_what_is_missing_and_the_command_names_its_option(capsys):
                                "--snr", "10"], capsys)
     assert status == 2 and out == "" and err.count("\n") == 1
     assert "U - V" in err and "--mag" in err
+
+
+def test_r_v_option_for_a_catalog_cluster(capsys):
+    # A_V = (a + b/R_V) R_V E(B-V) (Cardelli et al. 1989): NGC 6121's E(B-V) = 0.35 (Harris
+    # 2010) at R_V = 3.7 (from memory) gives A_V = 1.306 (computed from the band table).
+    base = ["expose", "--site", "demo", "--filter", "V", "--target", "NGC 6121", "--level", "tip", "--snr", "100",
+            "--json"]
+    status, out, _ = gcplan(base + ["--r-v", "3.7"], capsys)
+    data = json.loads(out)
+    assert status == 0 and data["r_v"] == 3.7
+    assert data["interstellar_extinction_mag"] == pytest.approx(0.35 * (1.0025 * 3.7 + 0.0215), abs=1e-4)
+    status, _, err = gcplan(base + ["--r-v", "9"], capsys)
+    assert status == 2 and "--r-v must be between 2 and 6" in err

@@ -31,8 +31,10 @@ from planner.model.site import (
 
 
 def make_site(*, read_noise_e=5.0, dark_e_per_s=0.002, dark_sky=21.5, k=0.15, pixel_scale=0.4,
-              linearity=60000.0, min_exposure_s=0.1, zero_point_mag=None, gain=2.0) -> SiteProfile:
-    """An invented 1 m telescope with one V filter (values typical, from memory)."""
+              linearity=60000.0, min_exposure_s=0.1, zero_point_mag=None, gain=2.0, psf="gaussian",
+              moffat_beta=4.765) -> SiteProfile:
+    """An invented 1 m telescope with one V filter (values typical, from memory); a
+    Gaussian PSF unless asked, so the CCD equation can be written out by hand."""
     return SiteProfile(
         Location("Invented test site", -30.0, -70.0, 2000.0, "UTC"),
         Limits(20.0, 2.9, 45.0, 30.0, "astronomical"),
@@ -40,7 +42,7 @@ def make_site(*, read_noise_e=5.0, dark_e_per_s=0.002, dark_sky=21.5, k=0.15, pi
         Camera("invented CCD", pixel_scale, read_noise_e, gain, dark_e_per_s, 65000.0, linearity, 20.0,
                min_exposure_s, (2048, 2048)),
         MappingProxyType({"V": Filter("V", "V", 0.4, None, zero_point_mag)}),
-        Sky(1.2, MappingProxyType({"V": dark_sky}), MappingProxyType({"V": k})),
+        Sky(1.2, MappingProxyType({"V": dark_sky}), MappingProxyType({"V": k}), psf, moffat_beta),
         source="invented.toml",
     )
 
@@ -87,6 +89,83 @@ def test_peak_pixel_fraction_against_scipy_norm():
     fwhm = np.array([0.8, 1.5, 2.5, 4.0, 7.0])
     sigma = fwhm / (2 * math.sqrt(2 * math.log(2)))
     assert np.allclose(ccd.peak_pixel_fraction(fwhm), (norm.cdf(0.5 / sigma) - norm.cdf(-0.5 / sigma)) ** 2)
+
+
+# ------------------------------------------------------------------ Moffat PSF
+
+MOFFAT = ccd.Psf("moffat", 4.765)
+
+
+def _moffat_profile(r, fwhm, beta):
+    # Moffat 1969 (A&A 3, 455; from memory): I(r) = (β − 1)/(π α²) [1 + (r/α)²]^−β, unit flux,
+    # with α from the FWHM written out here rather than taken from the code
+    alpha = fwhm / (2.0 * math.sqrt(2.0 ** (1.0 / beta) - 1.0))
+    return (beta - 1.0) / (math.pi * alpha**2) * (1.0 + (r / alpha) ** 2) ** (-beta)
+
+
+@pytest.mark.parametrize("beta", [2.5, 3.5, 4.765])
+def test_moffat_enclosed_fraction_against_numerical_integration(beta):
+    # The light within r is ∫ 2π r' I(r') dr' (scipy.integrate.quad of the profile above);
+    # half the peak at r = FWHM/2 checks the FWHM–α relation.
+    from scipy.integrate import quad
+
+    psf, fwhm = ccd.Psf("moffat", beta), 1.3
+    assert _moffat_profile(fwhm / 2, fwhm, beta) == pytest.approx(0.5 * _moffat_profile(0.0, fwhm, beta))
+    for r in (0.2, 0.6, 0.87, 1.5, 4.0):
+        direct = quad(lambda x: 2 * math.pi * x * _moffat_profile(x, fwhm, beta), 0.0, r)[0]
+        assert float(ccd.enclosed_fraction(r, fwhm, psf)) == pytest.approx(direct, rel=1e-9)
+
+
+@pytest.mark.parametrize("beta", [2.5, 4.765])
+def test_moffat_enclosed_fraction_published_formula(beta):
+    # Trujillo et al. 2001 (MNRAS 328, 977; quoted): L(R)/L_total = 1 − [1 + (R/α)²]^(1−β).
+    # Values at the Gaussian's 0.673 FWHM (computed, tests/REFERENCES.md): 0.496 at β 2.5,
+    # 0.609 at β 4.765, against the Gaussian's 0.715.
+    alpha = 1.0 / (2.0 * math.sqrt(2.0 ** (1.0 / beta) - 1.0))
+    psf = ccd.Psf("moffat", beta)
+    r = np.linspace(0.05, 3.0, 30)
+    assert np.allclose(ccd.enclosed_fraction(r, 1.0, psf), 1.0 - (1.0 + (r / alpha) ** 2) ** (1.0 - beta), rtol=1e-12)
+    expected = {2.5: 0.496, 4.765: 0.609}[beta]
+    assert float(ccd.enclosed_fraction(0.673, 1.0, psf)) == pytest.approx(expected, abs=5e-4)
+
+
+@pytest.mark.parametrize("beta, radius, enclosed", [(2.5, 0.751, 0.557), (3.5, 0.725, 0.612), (4.765, 0.709, 0.643)])
+def test_moffat_optimal_aperture(beta, radius, enclosed):
+    # The background-limited optimum maximises f(r)/r (scipy's minimize_scalar finds it on
+    # the profile's own formula); radius and enclosed light computed, tests/REFERENCES.md.
+    from scipy.optimize import minimize_scalar
+
+    psf = ccd.Psf("moffat", beta)
+    best = minimize_scalar(lambda r: -float(ccd.enclosed_fraction(r, 1.0, psf)) / r, bounds=(0.1, 3.0),
+                           method="bounded", options={"xatol": 1e-8})
+    assert ccd.optimal_radius_fwhm(psf) == pytest.approx(best.x, abs=1e-5)
+    assert ccd.optimal_radius_fwhm(psf) == pytest.approx(radius, abs=5e-4)
+    assert float(ccd.enclosed_fraction(radius, 1.0, psf)) == pytest.approx(enclosed, abs=5e-4)
+    assert ccd.optimal_radius_fwhm(ccd.GAUSSIAN) == ccd.OPTIMAL_RADIUS_FWHM
+
+
+@pytest.mark.parametrize("beta", [2.5, 4.765])
+@pytest.mark.parametrize("fwhm_px", [0.5, 1.0, 2.0, 3.0, 6.0])
+def test_moffat_peak_pixel_against_scipy_dblquad(beta, fwhm_px):
+    # The centred pixel's share of the light: the profile integrated over −½..½ in x and y.
+    from scipy.integrate import dblquad
+
+    direct = dblquad(lambda y, x: _moffat_profile(math.hypot(x, y), fwhm_px, beta), -0.5, 0.5, -0.5, 0.5,
+                     epsabs=1e-12, epsrel=1e-10)[0]
+    assert float(ccd.peak_pixel_fraction(fwhm_px, ccd.Psf("moffat", beta))) == pytest.approx(direct, rel=1e-6)
+
+
+def test_moffat_makes_sky_limited_exposures_longer():
+    # Sky-limited, t ∝ n_pix / f² at the optimum aperture of each profile: a Moffat
+    # (β 4.765) star needs (0.715/0.643)² × (0.709/0.673)² ≈ 1.37 × the Gaussian's time
+    # (computed); at the same FWHM more light sits in its wings, so its peak pixel holds
+    # less (0.079 against 0.093 at 3 px, computed) and saturation comes later.
+    gauss, moffat = make_site(dark_sky=19.0), make_site(dark_sky=19.0, psf="moffat")
+    tg = ex.exposure_for_snr(gauss, "V", 22.0, 10.0, round_frames=False)
+    tm = ex.exposure_for_snr(moffat, "V", 22.0, 10.0, round_frames=False)
+    assert tm.exposure_s / tg.exposure_s == pytest.approx((0.7153 / 0.6433) ** 2 * (0.7092 / 0.6732) ** 2, rel=0.03)
+    assert tm.psf == "Moffat, beta = 4.765" and tg.psf == "Gaussian"
+    assert tm.peak_fraction < tg.peak_fraction and tm.saturation_s > tg.saturation_s
 
 
 # ------------------------------------------------------------------ the CCD equation
@@ -356,3 +435,15 @@ def test_longest_frame_asked_for_caps_frames():
     plan = ex.exposure_for_snr(SITE, "V", 21.0, 100.0, max_frame_s=300.0)
     assert plan.frames > 1 and plan.frame_s <= 300.0 and plan.snr_reached >= 100.0
     assert any("at most 300 s" in w for w in plan.warnings)
+
+
+def test_opposition_brightening_is_stated_near_full_moon():
+    # Krisciunas & Schaefer 1991 exclude the opposition effect within about 7° of full
+    # phase (from memory): illuminated fraction (1 + cos 7°)/2 = 0.99627 (Meeus 48.1; computed).
+    def notes(illumination, altitude=30.0):
+        plan = ex.exposure_for_snr(SITE, "V", 19.0, 30.0, moon_illumination=illumination,
+                                   moon_separation_deg=60.0, moon_altitude_deg=altitude)
+        return [w for w in plan.warnings if "opposition" in w]
+
+    assert (1 + math.cos(math.radians(7.0))) / 2 == pytest.approx(0.99627, abs=1e-5)
+    assert notes(0.997) and not notes(0.996) and not notes(0.997, altitude=-5.0)

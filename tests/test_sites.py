@@ -421,7 +421,7 @@ def test_resolve_site_coordinates(spec, lat, lon, elev):
     loc = site.location
     assert (loc.latitude_deg, loc.elevation_m) == (lat, elev)
     assert loc.longitude_deg == pytest.approx(lon)
-    assert loc.timezone == "UTC"
+    assert loc.timezone == "Etc/GMT+5"  # -70.8° / 15 = -4.7 h: UTC-5, nearest mean solar time
     assert loc.name == "site at -30.200°, -70.800°"
     generic = load_site_profile(site_profiles_dir() / "generic.toml")
     assert site.telescope == generic.telescope and site.camera == generic.camera
@@ -564,3 +564,33 @@ def test_any_site_spec_gives_a_profile_or_site_profile_error(spec):
     else:
         assert -90 <= profile.location.latitude_deg <= 90
         assert -180 <= profile.location.longitude_deg <= 180
+
+
+def test_psf_is_a_sky_choice_with_a_moffat_default(write):
+    # Moffat β = 4.765 by default: Trujillo et al. 2001 (tests/REFERENCES.md,
+    # "Signal-to-noise and the point-spread function").
+    default = load_site_profile(write(FULL))
+    assert (default.sky.psf, default.sky.moffat_beta) == ("moffat", 4.765)
+    own = load_site_profile(write(edited("typical_seeing_arcsec",
+                                         'psf = "moffat"\nmoffat_beta = 3\ntypical_seeing_arcsec')))
+    assert (own.sky.psf, own.sky.moffat_beta) == ("moffat", 3.0)
+    gauss = load_site_profile(write(edited("typical_seeing_arcsec", 'psf = "gaussian"\ntypical_seeing_arcsec')))
+    assert gauss.sky.psf == "gaussian"
+    for text, message in (('psf = "moffit"', 'did you mean "moffat"'), ("moffat_beta = 1", "moffat_beta must be > 1"),
+                          ('psf = "gaussian"\nmoffat_beta = 3', 'applies only to psf = "moffat"')):
+        err = error_of(write(edited("typical_seeing_arcsec", text + "\ntypical_seeing_arcsec")))
+        assert "[sky]" in str(err) and message in str(err), str(err)
+
+
+@pytest.mark.parametrize("lon, zone", [(0.0, "UTC"), (7.4, "UTC"), (7.6, "Etc/GMT-1"), (-155.47, "Etc/GMT+10"),
+                                       (139.7, "Etc/GMT-9"), (179.9, "Etc/GMT-12"), (-179.9, "Etc/GMT+12")])
+def test_coordinate_site_clock_is_the_hour_nearest_mean_solar_time(lon, zone):
+    # mean solar time runs longitude/15 h ahead of UTC; tzdata's Etc/GMT+N is N hours
+    # behind UTC (zoneinfo, a reference library): local noon within 30 min of solar noon
+    from datetime import datetime
+    from zoneinfo import ZoneInfo
+
+    site = site_from_coordinates(f"10,{lon}")
+    assert site.location.timezone == zone
+    offset_h = ZoneInfo(zone).utcoffset(datetime(2027, 1, 1)).total_seconds() / 3600
+    assert abs(offset_h - lon / 15.0) <= 0.5

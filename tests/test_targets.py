@@ -83,9 +83,20 @@ def test_catalog_fills_missing_values(catalog):
         feh_dex=entry.feh_dex,
         half_light_radius_arcmin=entry.half_light_radius_arcmin,
         v_mag=entry.v_mag,
+        v_hb_mag=entry.v_hb_mag,
+        v_hb_source="Harris 2010",
+        central_sb_v_mag_arcsec2=entry.central_sb_v_mag_arcsec2,
+        core_radius_arcmin=entry.core_radius_arcmin,
+        king_concentration=entry.king_concentration,
+        integrated_colours=m13.integrated_colours,
         priority=1.0,
         catalog_name="NGC 6205",
     )
+    # Harris 2010 Part II/III for NGC 6205 (read from mwgc.dat): V_HB 14.90, mu_V 16.59,
+    # r_c 0.62', c 1.53; integrated U-B -0.02, B-V 0.68, V-R blank, V-I 0.86
+    assert (entry.v_hb_mag, entry.central_sb_v_mag_arcsec2, entry.core_radius_arcmin) == (14.90, 16.59, 0.62)
+    assert entry.king_concentration == 1.53
+    assert dict(m13.integrated_colours) == {"V": 0.0, "B": 0.68, "U": 0.66, "I": -0.86}
     # a value in the file wins over the catalog
     assert tuc.catalog_name == "NGC 104" and tuc.ebv_mag == 0.05 and tuc.priority == 2.5
     assert tuc.feh_dex == catalog.lookup("47 Tuc").feh_dex
@@ -417,3 +428,14 @@ def test_garbage_toml_raises_only_target_list_error(scratch, catalog, text):
     except TargetListError:
         return
     assert all(0 <= t.ra_deg < 360 and -90 <= t.dec_deg <= 90 for t in targets)
+
+
+def test_r_v_column_read_and_checked(tmp_path, catalog):
+    # R_V towards NGC 6121 is about 3.6-3.8 (from memory; tests/REFERENCES.md,
+    # "Interstellar extinction"); it is the list's own value, the catalog has none.
+    (m4,) = read_target_list(_write(tmp_path, "t.csv", "name,r_v\nNGC 6121,3.7\n"), catalog)
+    assert m4.r_v == 3.7 and m4.ebv_mag == 0.35
+    (m13,) = read_target_list(_write(tmp_path, "u.csv", "name\nM 13\n"), catalog)
+    assert m13.r_v is None
+    with pytest.raises(TargetListError, match="r_v"):
+        read_target_list(_write(tmp_path, "v.csv", "name,rv\nM 13,31\n"), catalog)

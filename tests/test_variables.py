@@ -109,6 +109,46 @@ def test_heliocentric_jd_against_skyfield_de421():
     assert np.max(np.abs(hjd - expected)) * 86400.0 < 0.01
 
 
+def test_barycentric_jd_tdb_against_skyfield_de421():
+    """BJD(TDB) = JD(TDB) + r_earth,SSB · n̂ / c (Eastman, Siverd & Gaudi 2010, eq. 1-2,
+    from memory), with the Earth's barycentric position from JPL DE421 (skyfield)."""
+    skyfield_api = pytest.importorskip("skyfield.api")
+    skyfield_data = pytest.importorskip("skyfield_data")
+    import warnings
+
+    from planner.variables.phases import barycentric_jd_tdb
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        load = skyfield_api.Loader(skyfield_data.get_skyfield_data_path())
+        eph = load("de421.bsp")
+        ts = load.timescale(builtin=True)
+    t = ts.tt_jd(TIMES.tt.jd)
+    r_au = eph["earth"].at(t).position.au  # barycentric, ICRF
+    dec, ra = np.radians(DEC), np.radians(RA)
+    n = np.array([np.cos(dec) * np.cos(ra), np.cos(dec) * np.sin(ra), np.sin(dec)])
+    c_au_per_day = 173.1446326846693
+    expected = TIMES.tdb.jd[None, :] + np.einsum("it,is->st", r_au, n) / c_au_per_day
+    assert np.max(np.abs(barycentric_jd_tdb(TIMES, RA, DEC) - expected)) * 86400.0 < 0.01
+    # Against HJD(UTC): TT − UTC = 32.184 + 37 s (TAI − UTC since 2017, IERS; from memory)
+    # plus the barycentre's offset from the Sun's centre, a few seconds at most; at
+    # P = 0.2 d, 73 s is 0.0042 in phase (computed).
+    diff_s = (barycentric_jd_tdb(TIMES, RA, DEC) - heliocentric_jd(TIMES, RA, DEC)) * 86400.0
+    assert np.all(np.abs(diff_s - 69.184) < 4.5) and np.max(np.abs(diff_s - 69.184)) > 0.5
+    assert 73.0 / 86400.0 / 0.2 == pytest.approx(0.0042, abs=5e-5)
+
+
+def test_ephemeris_dates_follow_each_stars_time_system():
+    from planner.model.variable import Variable
+    from planner.variables.phases import barycentric_jd_tdb, ephemeris_dates
+
+    stars = [Variable("a", 0.5, 2460000.0, RA[0], DEC[0]),
+             Variable("b", 0.5, 2460000.0, RA[1], DEC[1], time_system="BJD_TDB")]
+    dates = ephemeris_dates(TIMES, stars)
+    assert np.array_equal(dates[0], heliocentric_jd(TIMES, RA[:1], DEC[:1])[0])
+    assert np.array_equal(dates[1], barycentric_jd_tdb(TIMES, RA[1:2], DEC[1:2])[0])
+
+
 def test_heliocentric_grid_shape_and_topocentre():
     import astropy.units as u
     from astropy.coordinates import EarthLocation

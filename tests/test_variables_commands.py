@@ -129,3 +129,27 @@ def test_recover_command_bad_population(monkeypatch, capsys):
                       "--visits-per-night", "4", "--date", "2027-06-10"], monkeypatch)
     err = capsys.readouterr().err.strip().splitlines()
     assert status == 2 and len(err) == 1 and "oosterhoff-3" in err[0]
+
+
+def test_phases_with_bjd_tdb_epochs(tmp_path, monkeypatch, capsys):
+    # The same star with its epoch given as BJD(TDB): the phases use barycentric TDB dates
+    # (Eastman et al. 2010), and the output names the time system.
+    from astropy.time import Time
+
+    from planner.variables.phases import barycentric_jd_tdb, phases
+
+    variables = _write(tmp_path, "v.csv",
+                       "id,period_d,epoch_bjd_tdb,ra_deg,dec_deg\nv1,0.5731,2461000.2310,322.4812,12.159\n")
+    times = _write(tmp_path, "t.csv", "time_utc\n2027-06-10T03:00:00\n2027-06-10T04:30:00\n")
+    assert _gcplan(["phases", "--variables", str(variables), "--times", str(times), "--json"], monkeypatch) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["time_system"].startswith("BJD (TDB scale)")
+    star = out["stars"][0]
+    assert star["time_system"] == "BJD_TDB" and star["epoch_bjd_tdb"] == 2461000.2310 and star["epoch_hjd"] is None
+    t = Time(["2027-06-10T03:00:00", "2027-06-10T04:30:00"], scale="utc")
+    expected = phases(barycentric_jd_tdb(t, [322.4812], [12.159]), [2461000.2310], [0.5731])[0]
+    np.testing.assert_allclose(star["phases"], expected, atol=2e-6)
+    both = _write(tmp_path, "w.csv",
+                  "id,period_d,epoch_hjd,epoch_bjd_tdb,ra_deg,dec_deg\nv1,0.5,2461000.2,2461000.2,1,2\n")
+    assert _gcplan(["phases", "--variables", str(both), "--times", str(times)], monkeypatch) == 2
+    assert "one time system" in capsys.readouterr().err

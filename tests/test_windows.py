@@ -486,8 +486,8 @@ def test_run_of_nights_is_visibility_for_nights(catalog):
          limit=18.355582, moon=0.0, twilight="nautical", solar_clock=False)
 def test_random_sites_and_targets_against_brute_force(lat, lon, ra, dec, day, limit, moon, twilight, solar_clock):
     # Either a fixed-offset zone near the site's solar time (Etc/GMT−N is N
-    # hours east) or UTC, the default for a LAT,LON site, which can be up to
-    # 12 hours off solar time.
+    # hours east; a LAT,LON site's default) or UTC given explicitly, which can be
+    # up to 12 hours off solar time.
     hours_east = int(round(lon / 15.0))
     zone = "UTC" if not solar_clock else "Etc/GMT" if hours_east == 0 else f"Etc/GMT{-hours_east:+d}"
     site = resolve_site(f"{lat:.4f},{lon:.4f},500", timezone=zone)

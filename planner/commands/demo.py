@@ -130,13 +130,18 @@ DEMO_VARIABLE_NIGHTS = 7
 
 def step_exposures(site, targets, night, out):
     """Exposure table: every cluster × level × filter at the site's typical seeing, airmass 1.2, dark."""
+    from planner.light.ccd import Psf
     from planner.light.exposure_table import exposure_table
+    from planner.model.bands import DEFAULT_R_V, EXTINCTION_LAW
 
     rows = exposure_table(site, targets, tuple(DEMO_SNR), DEMO_FILTERS, DEMO_SNR)
     lines = textwrap.wrap(
         f"Exposures for the demo campaign at {site.name}: seeing {site.sky.typical_seeing_arcsec:.1f}\", "
         "airmass 1.2, no Moon (campaign goals invented: S/N "
-        + ", ".join(f"{k} {v:.0f}" for k, v in DEMO_SNR.items()) + ")",
+        + ", ".join(f"{k} {v:.0f}" for k, v in DEMO_SNR.items()) + "). "
+        f"Stars: {Psf(site.sky.psf, site.sky.moffat_beta).describe()} profile, the aperture its optimum; "
+        f"extinction: {EXTINCTION_LAW}, R_V = {DEFAULT_R_V}; HB and turnoff from the observed V_HB "
+        "(Harris 2010); crowding and the clusters' own light not included.",
         80,
     ) + [
         "",

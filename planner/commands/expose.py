@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 import dataclasses
+import math
 
 import numpy as np
 
 from planner.commands import common
 from planner.light.photometry import LEVEL_NAMES, LEVELS, LevelError
+from planner.model.bands import EXTINCTION_LAW
 
 PLOT_SUFFIXES = (".png", ".pdf", ".svg")
 
@@ -27,6 +29,8 @@ def register(sub) -> None:
     what.add_argument("--mag", type=float, metavar="M", help="magnitude of the star, as observed (with extinction)")
     what.add_argument("--target", metavar="NAME", help="cluster by catalog name or alias, e.g. 'NGC 6397'")
     what.add_argument("--level", choices=LEVELS, help="science level of the cluster: tip, hb or turnoff")
+    what.add_argument("--r-v", type=float, metavar="R", dest="r_v",
+                      help="R_V = A_V/E(B-V) towards the cluster, 2..6 (default 3.1, the law's mean)")
     p.add_argument("--snr", type=float, required=True, metavar="X", help="S/N goal for the stacked frames")
     cond = p.add_argument_group("conditions (defaults: the site's typical seeing, airmass 1.2, no Moon)")
     cond.add_argument("--seeing", type=float, metavar="FWHM", help="seeing FWHM on the frame, arcsec")
@@ -37,6 +41,9 @@ def register(sub) -> None:
                       help="Moon-target distance, degrees (default 90)")
     cond.add_argument("--moon-altitude", type=float, default=-90.0, metavar="DEG",
                       help="Moon's altitude, degrees (default -90: below the horizon)")
+    cond.add_argument("--field-radius", type=float, metavar="ARCMIN",
+                      help="the star's distance from the cluster centre: adds the cluster's unresolved light "
+                      "there (King 1962 profile) to the sky; needs --target")
     p.add_argument("--shortest-period", type=float, metavar="DAYS",
                    help="flag frames longer than 1%% of this period (phase smearing); "
                    "default 0.2 d for --level hb (the shortest RR Lyrae periods)")
@@ -62,10 +69,37 @@ def _level_from_args(args, band):
     from planner.inputs.targets import targets_from_names
 
     target = targets_from_names([args.target], load_catalog())[0]
+    if args.r_v is not None:
+        if not 2.0 <= args.r_v <= 6.0:  # the range target lists accept
+            raise LevelError(f"--r-v must be between 2 and 6 (got {args.r_v:g})")
+        target = dataclasses.replace(target, r_v=args.r_v)
     try:
         return science_level(target, args.level, band), target
     except LevelError as exc:
         raise LevelError(f"{exc} (give it with --mag)") from None
+
+
+NO_CLUSTER_LIGHT = "crowding and the cluster's own light are not included (give --field-radius)"
+
+
+def _cluster_light(args, target, band):
+    """The cluster's surface brightness at ``--field-radius`` (None without one) and the JSON fields."""
+    from planner.light.cluster_light import KING_SOURCE, cluster_surface_brightness
+
+    extra = {"field_radius_arcmin": args.field_radius, "cluster_surface_brightness_mag_arcsec2": None,
+             "cluster_light": NO_CLUSTER_LIGHT, "cluster_light_notes": []}
+    if args.field_radius is None:
+        return None, extra
+    if target is None:
+        raise LevelError("--field-radius needs --target (the cluster whose light is added)")
+    mu, notes = cluster_surface_brightness(target, band, args.field_radius)
+    extra["cluster_light_notes"] = list(notes)
+    if not math.isfinite(mu):
+        extra["cluster_light"] = "none (beyond the tidal radius)"
+        return None, extra
+    extra.update(cluster_surface_brightness_mag_arcsec2=mu,
+                 cluster_light=f"added to the sky: {KING_SOURCE}; crowding not included")
+    return mu, extra
 
 
 def plan_from_args(args, site):
@@ -78,13 +112,21 @@ def plan_from_args(args, site):
     period = args.shortest_period
     if period is None and level.level == "hb":
         period = SHORTEST_RR_LYRAE_PERIOD_D
+    cluster_sb, cluster_extra = _cluster_light(args, target, setup.band)
     conditions = dict(airmass=args.airmass, seeing_fwhm_arcsec=args.seeing, moon_illumination=args.moon_illumination,
-                      moon_separation_deg=args.moon_separation, moon_altitude_deg=args.moon_altitude)
+                      moon_separation_deg=args.moon_separation, moon_altitude_deg=args.moon_altitude,
+                      cluster_sb_mag_arcsec2=cluster_sb)
     plan = exposure_for_level(site, args.filter, level, args.snr, shortest_period_d=period, **conditions)
+    notes = tuple(cluster_extra.pop("cluster_light_notes"))  # they join the warnings
+    if notes:
+        plan = dataclasses.replace(plan, warnings=plan.warnings + notes)
     extra = {"band": setup.band, "level_name": LEVEL_NAMES[level.level], "calibration": level.calibration,
+             "level_from_observed_hb": level.observed,
              "colour_source": level.colour_source, "absolute_mag": level.absolute_mag,
-             "interstellar_extinction_mag": level.extinction_mag, "rule_of_thumb": level.rule_of_thumb,
-             "shortest_period_d": period, "tip_saturation_s": None, "twilight": "not modelled (astronomical night)"}
+             "interstellar_extinction_mag": level.extinction_mag, "r_v": level.r_v,
+             "extinction_law": EXTINCTION_LAW if level.r_v is not None else None, "rule_of_thumb": level.rule_of_thumb,
+             "shortest_period_d": period, "tip_saturation_s": None, "twilight": "not modelled (astronomical night)",
+             **cluster_extra}
     if target is not None and level.level != "tip":
         try:
             tip = science_level(target, "tip", setup.band)
@@ -109,7 +151,7 @@ def run(args) -> int:
     else:
         from planner.reports.expose_text import expose_text
 
-        print(expose_text(plan, level, target, site))
+        print(expose_text(plan, level, target, site, cluster_light=extra["cluster_light"]))
     if plot_path is not None:
         write_plot(plot_path, plan, site, args)
         if not args.json:
@@ -127,7 +169,8 @@ def write_plot(path, plan, site, args):
     times = np.geomspace(max(lo, 1e-3), hi, 200)
     snr = snr_of_exposure(site, plan.filter, plan.magnitude, times, airmass=c.airmass,
                           seeing_fwhm_arcsec=c.seeing_fwhm_arcsec, moon_illumination=c.moon_illumination,
-                          moon_separation_deg=c.moon_separation_deg, moon_altitude_deg=c.moon_altitude_deg)
+                          moon_separation_deg=c.moon_separation_deg, moon_altitude_deg=c.moon_altitude_deg,
+                          cluster_sb_mag_arcsec2=plan.cluster_surface_brightness_mag_arcsec2)
     what = f"{plan.target}, {LEVEL_NAMES[plan.level]}" if plan.target else LEVEL_NAMES[plan.level]
     return save_snr_plot(path, times, snr, snr_goal=plan.snr_goal, saturation_s=plan.saturation_s,
                          frame_s=plan.frame_s, frames=plan.frames, min_exposure_s=c.min_exposure_s,

@@ -238,13 +238,12 @@ def file_stars(path: str, n_stars: int | None, mean_mag: float | None, site, fil
     """The variables of a table, each at its own position."""
     from astropy.time import Time
 
-    from planner.variables.phases import heliocentric_jd
+    from planner.variables.phases import ephemeris_dates, time_system_label
 
     default = mean_mag if mean_mag is not None else (_hb_mag(site, filter_name, entry) if entry else None)
     stars, mean, variables = population_from_file(path, n_stars, site, filter_name, default)
-    t = heliocentric_jd(Time(jd, format="jd", scale="utc"), [v.ra_deg for v in variables],
-                        [v.dec_deg for v in variables])
-    return Population(stars, mean, t, "HJD (UTC) per star, as the file's epochs", f"variables table {path}", path)
+    t = ephemeris_dates(Time(jd, format="jd", scale="utc"), variables)
+    return Population(stars, mean, t, time_system_label(variables) + " per star", f"variables table {path}", path)
 
 
 def visit_noise(site, filter_name: str, mean_mag: np.ndarray, exposure_s: float, noise_mag: float | None,

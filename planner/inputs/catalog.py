@@ -37,6 +37,19 @@ REQUIRED_COLUMNS = (
     "half_light_radius_arcmin",
     "v_mag",
 )
+#: Columns read when present (a catalog without them still loads; the values are None):
+#: observed HB level, apparent modulus, structure (King 1962) and integrated colours.
+OPTIONAL_COLUMNS = (
+    "v_hb_mag",
+    "distance_modulus_v_mag",
+    "central_sb_v_mag_arcsec2",
+    "core_radius_arcmin",
+    "king_concentration",
+    "ub_integrated_mag",
+    "bv_integrated_mag",
+    "vr_integrated_mag",
+    "vi_integrated_mag",
+)
 
 
 @dataclass(frozen=True)
@@ -51,6 +64,15 @@ class ClusterEntry:
     feh_dex: float | None  # [Fe/H]
     half_light_radius_arcmin: float | None
     v_mag: float | None  # integrated V_t
+    v_hb_mag: float | None = None  # observed V of the horizontal branch (with extinction)
+    distance_modulus_v_mag: float | None = None  # apparent (m-M)_V
+    central_sb_v_mag_arcsec2: float | None = None  # observed central mu_V
+    core_radius_arcmin: float | None = None  # King r_c
+    king_concentration: float | None = None  # c = log10(r_t / r_c)
+    ub_integrated_mag: float | None = None  # integrated colours, observed
+    bv_integrated_mag: float | None = None
+    vr_integrated_mag: float | None = None
+    vi_integrated_mag: float | None = None
 
     @property
     def names(self) -> tuple[str, ...]:
@@ -156,7 +178,8 @@ def load_catalog(path: Path | None = None) -> Catalog:
 
     names = _text_column(table, "name")
     aliases = _text_column(table, "aliases")
-    numbers = {c: _float_column(table, c, source) for c in REQUIRED_COLUMNS[2:]}
+    numeric = REQUIRED_COLUMNS[2:] + tuple(c for c in OPTIONAL_COLUMNS if c in table.colnames)
+    numbers = {c: _float_column(table, c, source) for c in numeric}
     entries = []
     for i, name in enumerate(names):
         row = i + 1
@@ -171,7 +194,7 @@ def load_catalog(path: Path | None = None) -> Catalog:
             ClusterEntry(
                 name=name,
                 aliases=tuple(a.strip() for a in aliases[i].split(";") if a.strip()),
-                **{c: numbers[c][i] for c in REQUIRED_COLUMNS[2:]},
+                **{c: numbers[c][i] for c in numeric},
             )
         )
     try:

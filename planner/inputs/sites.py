@@ -41,7 +41,9 @@ keys are errors.  ::
                   > 0 = none (the standard band's width); zero_point_mag 10..35, the
                   magnitude giving 1 e-/s above the atmosphere.  throughput and
                   zero_point_mag are each optional, but not both
-    [sky]         typical_seeing_arcsec > 0, ≤ 10; [sky.dark_mag_arcsec2] (zenith,
+    [sky]         typical_seeing_arcsec > 0, ≤ 10; psf "moffat" | "gaussian" = "moffat",
+                  the stars' profile; moffat_beta > 1, ≤ 20 = 4.765 (Trujillo et al. 2001),
+                  for psf = "moffat" only; [sky.dark_mag_arcsec2] (zenith,
                   moonless, 10..25 mag/arcsec²) and [sky.extinction_mag_per_airmass]
                   (0..2 mag/airmass), each a value for every filter NAME and no other
     top level     notes = "..." = "": free text (operators' rules, cautions)
@@ -70,6 +72,9 @@ from planner.inputs.tomlcheck import (
 )
 from planner.model.bands import BANDS as _BAND_TABLE
 from planner.model.site import (
+    DEFAULT_MOFFAT_BETA,
+    DEFAULT_PSF,
+    PSF_KINDS,
     TWILIGHTS,
     Camera,
     Filter,
@@ -97,7 +102,7 @@ _KEYS: dict[str, tuple[str, ...]] = {
                "full_well_e", "linearity_limit_e", "readout_s", "min_exposure_s",
                "detector_pixels", "fits_keywords"),
     "filter": ("band", "throughput", "bandwidth_angstrom", "zero_point_mag"),
-    "sky": ("typical_seeing_arcsec", "dark_mag_arcsec2", "extinction_mag_per_airmass"),
+    "sky": ("typical_seeing_arcsec", "psf", "moffat_beta", "dark_mag_arcsec2", "extinction_mag_per_airmass"),
 }
 _SCHEMA = Schema(_KEYS, SiteProfileError)
 DEFAULT_MIN_ALTITUDE_DEG = 20.0  # a common telescope limit (airmass 2.9), from memory
@@ -272,10 +277,14 @@ def parse_site_profile(data: Mapping, source: str) -> SiteProfile:
         table.fail("must hold at least one filter table, e.g. [filters.V]")
     filters = MappingProxyType({name: _filter(name, table.sub(name, "filter", True)) for name in table.table})
     sky = top.sub("sky", "sky", True)
+    psf = sky.string("psf", DEFAULT_PSF, PSF_KINDS)
+    if psf != "moffat" and sky.get("moffat_beta", False) is not None:
+        sky.fail(f"moffat_beta applies only to psf = \"moffat\" (psf is {show(psf)})")
     return SiteProfile(location, limits, telescope, camera, filters, Sky(
         typical_seeing_arcsec=sky.number("typical_seeing_arcsec", 0, 10, lo_open=True),
         dark_mag_arcsec2=_per_filter(sky, "dark_mag_arcsec2", filters, 10, 25),
         extinction_mag_per_airmass=_per_filter(sky, "extinction_mag_per_airmass", filters, 0, 2),
+        psf=psf, moffat_beta=sky.number("moffat_beta", 1, 20, lo_open=True, default=DEFAULT_MOFFAT_BETA),
     ), source, (notes or "").strip())
 
 
@@ -291,12 +300,23 @@ def bundled_site_names() -> list[str]:
     return sorted(p.stem for p in folder.glob("*.toml")) if folder.is_dir() else []
 
 
+def mean_solar_zone(longitude_deg: float) -> str:
+    """The whole-hour zone nearest the site's mean solar time (longitude / 15 h), as tzdata
+    names it ("Etc/GMT+10" is UTC−10: POSIX signs are reversed); "UTC" at 0 h.
+
+    Local noon then falls within 30 min of mean solar noon, so a night counted from
+    local noon to local noon holds the whole night at every longitude."""
+    hours = int(round(longitude_deg / 15.0))
+    return "UTC" if hours == 0 else f"Etc/GMT{'+' if hours < 0 else '-'}{abs(hours)}"
+
+
 def site_from_coordinates(text: str, timezone: str | None = None) -> SiteProfile:
     """A site at ``"LAT,LON[,ELEV_M]"`` with generic telescope, camera, filters and sky.
 
     Everything but the location comes from the bundled ``generic.toml`` (a 1 m
     telescope with a CCD and UBVRI filters).  Elevation defaults to 0 m, the
-    time zone to UTC; the name is like ``"site at -30.200°, -70.800°"``.
+    time zone to the site's mean solar time (:func:`mean_solar_zone`); the name is like
+    ``"site at -30.200°, -70.800°"``.
     """
     def fail(message: str) -> SiteProfileError:
         return error(SiteProfileError, f"site {show(text)}: {message}")
@@ -314,7 +334,7 @@ def site_from_coordinates(text: str, timezone: str | None = None) -> SiteProfile
             raise fail(f"{label} must be between {lo} and {hi} (got {show(part)})")
     lat, lon, elev = values[0], values[1], values[2] if len(values) == 3 else 0.0
     lon = lon - 360.0 if lon > 180.0 else lon
-    tz = "UTC" if timezone is None else timezone
+    tz = mean_solar_zone(lon) if timezone is None else timezone
     if _timezone_problem(tz):
         raise fail(f"timezone {_timezone_problem(tz)}")
     generic = load_site_profile(site_profiles_dir() / f"{GENERIC_PROFILE}.toml")

@@ -30,6 +30,8 @@ _SPELLINGS: dict[str, tuple[str, ...]] = {
     "feh_dex": ("feh", "feh_dex", "[fe/h]"),
     "half_light_radius_arcmin": ("half_light_radius_arcmin", "r_h_arcmin"),
     "v_mag": ("v_mag",),
+    "v_hb_mag": ("v_hb", "v_hb_mag"),
+    "r_v": ("r_v", "rv"),
     "priority": ("priority",),
 }
 _COLUMNS = {spelling: field for field, spellings in _SPELLINGS.items() for spelling in spellings}
@@ -37,7 +39,10 @@ _IGNORED_COLUMNS = ("notes", "note", "comment", "comments")
 
 # Plausible ranges (inclusive) of the optional numbers; they catch unit slips
 # (parsecs for kpc, apparent for true modulus beyond 35) rather than physics.
-_RANGES = {"distance_modulus_mag": (0.0, 35.0), "ebv_mag": (0.0, 10.0), "feh_dex": (-5.0, 1.0), "v_mag": (-5.0, 30.0)}
+_RANGES = {"distance_modulus_mag": (0.0, 35.0), "ebv_mag": (0.0, 10.0), "feh_dex": (-5.0, 1.0), "v_mag": (-5.0, 30.0),
+           "v_hb_mag": (-5.0, 30.0),
+           # R_V: 2..6 spans the Milky Way's sight lines (Cardelli et al. 1989 fit 2.6-5.6)
+           "r_v": (2.0, 6.0)}
 _POSITIVE = ("distance_kpc", "half_light_radius_arcmin", "priority")
 
 _RA_HELP = "degrees 0..360 or sexagesimal hours such as 00:24:05.67 or 00h24m05.67s"

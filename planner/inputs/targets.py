@@ -16,6 +16,10 @@ and giving two of them is an error):
   ``distance_kpc`` > 0.  Either gives the other; both must agree within 0.1 mag.
 * ``ebv`` / ``ebv_mag`` / ``E(B-V)``: 0..10;  ``feh`` / ``feh_dex`` / ``[Fe/H]``: -5..1
 * ``half_light_radius_arcmin`` / ``r_h_arcmin`` > 0;  ``v_mag``: integrated V, -5..30
+* ``v_hb`` / ``v_hb_mag``: the observed (reddened) V of the horizontal branch, -5..30;
+  when known it sets the HB and turnoff levels instead of the M_V-[Fe/H] relation
+* ``r_v`` / ``rv``: the ratio R_V = A_V / E(B-V) towards the cluster, 2..6, default 3.1
+  (the extinction law's mean; e.g. about 3.6-3.8 towards NGC 6121)
 * ``priority`` > 0, default 1 (larger is more important)
 * ``notes`` / ``note`` / ``comment`` / ``comments``: free text, ignored
 
@@ -101,6 +105,10 @@ def _target_from_row(row: Row, catalog: Catalog | None) -> Target:
         feh_dex=pick("feh_dex"),
         half_light_radius_arcmin=pick("half_light_radius_arcmin"),
         v_mag=pick("v_mag"),
+        v_hb_mag=pick("v_hb_mag"),
+        v_hb_source=_v_hb_source(row.number_or_none("v_hb_mag"), entry),
+        r_v=row.number_or_none("r_v"),
+        **({} if entry is None else _structure(entry)),
         priority=1.0 if priority is None else priority,
         catalog_name=entry.name if entry is not None else None,
     )
@@ -170,13 +178,32 @@ def _identity(target: Target) -> str:
     return "catalog:" + target.catalog_name if target.catalog_name else "name:" + normalize_name(target.name)
 
 
+CATALOG_V_HB_SOURCE = "Harris 2010"
 _SHARED_FIELDS = ("ra_deg", "dec_deg", "distance_modulus_mag", "distance_kpc", "ebv_mag", "feh_dex",
-                  "half_light_radius_arcmin", "v_mag")
+                  "half_light_radius_arcmin", "v_mag", "v_hb_mag")
+_STRUCTURE_FIELDS = ("central_sb_v_mag_arcsec2", "core_radius_arcmin", "king_concentration")
+
+
+def _structure(entry: ClusterEntry) -> dict:
+    """The catalog's King-profile numbers and the cluster light's colours (band - V)."""
+    ub, bv, vr, vi = (entry.ub_integrated_mag, entry.bv_integrated_mag, entry.vr_integrated_mag,
+                      entry.vi_integrated_mag)
+    colours = {"V": 0.0, "B": bv, "U": None if ub is None or bv is None else ub + bv,
+               "R": None if vr is None else -vr, "I": None if vi is None else -vi}
+    return {**{f: getattr(entry, f) for f in _STRUCTURE_FIELDS},
+            "integrated_colours": tuple((b, round(c, 3)) for b, c in colours.items() if c is not None)}
+
+
+def _v_hb_source(listed: float | None, entry: ClusterEntry | None) -> str | None:
+    if listed is not None:
+        return "the target list"
+    return CATALOG_V_HB_SOURCE if entry is not None and entry.v_hb_mag is not None else None
 
 
 def _target_from_entry(entry: ClusterEntry, shown_name: str | None = None) -> Target:
     values = {f: getattr(entry, f) for f in _SHARED_FIELDS}
-    return Target(name=shown_name or entry.name, catalog_name=entry.name, **values)
+    return Target(name=shown_name or entry.name, catalog_name=entry.name, v_hb_source=_v_hb_source(None, entry),
+                  **values, **_structure(entry))
 
 
 def targets_from_names(names: Sequence[str], catalog: Catalog) -> list[Target]:

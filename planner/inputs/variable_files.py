@@ -2,8 +2,10 @@
 
 Variables table (ECSV, or CSV with a header line; ``#`` lines are comments):
 
-* required: ``id``, ``period_d`` (> 0), ``epoch_hjd`` (a time of maximum light, HJD on
-  the UTC scale, the full Julian date ≈ 2,4xx,xxx), and a position: ``ra_deg`` and
+* required: ``id``, ``period_d`` (> 0), an epoch of maximum light as a full Julian date
+  (≈ 2,4xx,xxx) in one of two time systems, chosen per file by its column: ``epoch_hjd``
+  (heliocentric, UTC scale) or ``epoch_bjd_tdb`` (barycentric, TDB scale; Eastman et al.
+  2010's recommended standard); and a position: ``ra_deg`` and
   ``dec_deg`` (ICRS, degrees) or ``cluster`` (a name in the bundled catalog, whose centre
   is then used);
 * optional: ``type`` (RRab, RRc, RRd), ``amplitude_mag`` (V, peak-to-peak), ``mean_mag`` (V).
@@ -27,7 +29,8 @@ from typing import Any
 from planner.errors import InputError
 from planner.model.variable import VARIABLE_TYPES, Variable
 
-REQUIRED = ("id", "period_d", "epoch_hjd")
+REQUIRED = ("id", "period_d")
+EPOCH_COLUMNS = {"epoch_hjd": ("HJD_UTC", "HJD"), "epoch_bjd_tdb": ("BJD_TDB", "BJD(TDB)")}
 OPTIONAL = ("ra_deg", "dec_deg", "cluster", "type", "amplitude_mag", "mean_mag")
 # Full Julian dates from 1858 (JD 2,400,000) to 2406 (2,600,000): anything smaller is
 # almost surely an MJD (JD − 2,400,000.5) or a reduced date (JD − 2,400,000).
@@ -169,13 +172,19 @@ def read_variables(path: str | Path, catalog=None) -> tuple[Variable, ...]:
     src = str(table.path)
     names = _column_map(table)
     missing = [c for c in REQUIRED if c not in names]
+    epochs = [c for c in EPOCH_COLUMNS if c in names]
+    if len(epochs) > 1:
+        raise VariablesError("both epoch_hjd and epoch_bjd_tdb columns: give the epochs in one time system", src)
+    if not epochs:
+        missing.append("epoch_hjd (or epoch_bjd_tdb)")
     has_position = "ra_deg" in names and "dec_deg" in names
     if not has_position and "cluster" not in names:
         missing += [c for c in ("ra_deg", "dec_deg") if c not in names] + ["(or cluster)"]
     if missing:
         raise VariablesError(
             f"missing column(s) {', '.join(missing)}; found {', '.join(table.columns) or 'none'}. "
-            "A variables table needs id, period_d, epoch_hjd and either ra_deg, dec_deg or cluster",
+            "A variables table needs id, period_d, epoch_hjd (or epoch_bjd_tdb) and either ra_deg, dec_deg "
+            "or cluster",
             src,
         )
     if not table.rows:
@@ -210,7 +219,8 @@ def read_variables(path: str | Path, catalog=None) -> tuple[Variable, ...]:
                 "(days; RR Lyrae have 0.2–1.0 d)",
                 src,
             )
-        epoch = _julian_date(table, i, names["epoch_hjd"], cell(row, "epoch_hjd"), "HJD")
+        system, label = EPOCH_COLUMNS[epochs[0]]
+        epoch = _julian_date(table, i, names[epochs[0]], cell(row, epochs[0]), label)
         ra, dec, cluster = _position(table, i, row, names, get_catalog)
         out.append(
             Variable(
@@ -223,6 +233,7 @@ def read_variables(path: str | Path, catalog=None) -> tuple[Variable, ...]:
                 cluster=cluster,
                 amplitude_mag=_optional_magnitude(table, i, names, row, "amplitude_mag", minimum=0.0),
                 mean_mag=_optional_magnitude(table, i, names, row, "mean_mag"),
+                time_system=system,
             )
         )
     return tuple(out)

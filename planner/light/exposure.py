@@ -12,13 +12,17 @@ The model
 
   with σ_f = 0.289 ADU (1/√12, the digitisation noise) and n_B the sky-annulus pixels
   (``None``: the sky level is taken as known exactly, the n_pix/n_B term dropped).
-* Gaussian PSF of the given FWHM (the seeing on the frame; not scaled with airmass).
-  Aperture radius 0.673 FWHM by default: the background-limited optimum, enclosing
-  1 − 2^(−4 (r/FWHM)²) = 71.5 % of the light; never less than one pixel.  (For bright,
-  source-limited stars a larger aperture does better by at most 1/√0.715 in S/N.)
+* PSF of the given FWHM (the seeing on the frame; not scaled with airmass), of the
+  site's shape (``[sky] psf``): a Moffat profile [1 + (r/α)²]^(−β) by default, with
+  β = 4.765 (Trujillo et al. 2001, the turbulence value) unless the site gives its own,
+  or a Gaussian.  Aperture radius by default the background-limited optimum for that
+  profile (the r maximising f(r)/r): 0.709 FWHM enclosing 64 % for the default Moffat,
+  0.673 FWHM enclosing 71.5 % for a Gaussian; never less than one pixel.  (For bright,
+  source-limited stars a larger aperture does better, by at most 1/√f in S/N.)
 * Saturation: the peak pixel of the level's brightest star, centred on a pixel (the
-  worst case), holds [erf(p / (2√2 σ))]² of the star's light, on top of sky and dark;
-  the frame must stay below the camera's linearity limit.  When the S/N needs longer,
+  worst case), holds the same profile's light over that pixel ([erf(p / (2√2 σ))]² for
+  a Gaussian, a quadrature for the Moffat), on top of sky and dark; the frame must stay
+  below the camera's linearity limit.  When the S/N needs longer,
   the exposure is split into frames, each below the limit (and never shorter than the
   camera's shortest exposure); n frames reach √n times the S/N of one.
 * Frame times are rounded up to 0.01 s below 1 s, 0.1 s below 10 s, 1 s below 100 s,
@@ -42,8 +46,9 @@ import numpy as np
 from planner.errors import InputError
 from planner.light.ccd import (
     DIGITISATION_NOISE_ADU,
-    OPTIMAL_RADIUS_FWHM,
+    Psf,
     enclosed_fraction,
+    optimal_radius_fwhm,
     peak_pixel_fraction,
     round_down_frame,
     round_up_frame,
@@ -56,6 +61,7 @@ from planner.light.photometry import (
     band_info,
     check_conditions,
     electron_rate,
+    moon_phase_angle_deg,
     sky_brightness_mag_arcsec2,
     zero_mag_electron_rate,
 )
@@ -67,6 +73,9 @@ class SnrGoalError(InputError):
 
 DEFAULT_AIRMASS = 1.2
 DEFAULT_PHASE_SMEAR_FRACTION = 0.01  # frames above 1 % of the shortest period are flagged
+# Krisciunas & Schaefer 1991 (PASP 103, 1033) leave out the Moon's opposition surge
+# within about 7 deg of full phase (up to about 0.3 mag, from memory): stated, not modelled.
+OPPOSITION_PHASE_ANGLE_DEG = 7.0
 MAX_FRAMES = 10**6  # beyond this the goal counts as out of reach (sky or Moon too bright)
 
 
@@ -94,6 +103,7 @@ class BandSetup:
     typical_seeing_arcsec: float
     max_airmass: float
     min_moon_separation_deg: float
+    psf: Psf = Psf()
 
 
 def band_setup(site, filter_name: str) -> BandSetup:
@@ -115,7 +125,8 @@ def band_setup(site, filter_name: str) -> BandSetup:
         site.sky.dark_mag_arcsec2[filter_name], band.sun_minus_v_mag, cam.pixel_scale_arcsec,
         cam.read_noise_e, cam.gain_e_per_adu, cam.dark_e_per_s, cam.linearity_limit_e,
         cam.min_exposure_s, cam.readout_s, site.sky.typical_seeing_arcsec,
-        site.limits.max_airmass, site.limits.min_moon_separation_deg)
+        site.limits.max_airmass, site.limits.min_moon_separation_deg,
+        Psf(site.sky.psf, site.sky.moffat_beta))
 
 
 @dataclass(frozen=True)
@@ -124,6 +135,7 @@ class _Rates:
     source_e_per_s: np.ndarray  # whole star, after the atmosphere
     in_aperture_e_per_s: np.ndarray
     sky_e_per_s_per_pixel: np.ndarray
+    cluster_e_per_s_per_pixel: np.ndarray  # the cluster's unresolved light, 0 if not asked for
     radius_arcsec: np.ndarray
     n_pix: np.ndarray
     enclosed: np.ndarray
@@ -133,7 +145,7 @@ class _Rates:
 
 
 def _rates(s: BandSetup, magnitude, airmass, seeing, illumination, separation, moon_alt,
-           radius_fwhm, sky_annulus_pixels) -> _Rates:
+           radius_fwhm, sky_annulus_pixels, cluster_sb=None) -> _Rates:
     seeing = s.typical_seeing_arcsec if seeing is None else seeing
     check_conditions(airmass, seeing, illumination, separation, moon_alt)
     m = np.asarray(magnitude, dtype=float)
@@ -144,14 +156,18 @@ def _rates(s: BandSetup, magnitude, airmass, seeing, illumination, separation, m
     p = s.pixel_scale_arcsec
     sky_pix = s.zero_mag_rate_e_per_s * 10.0 ** (-0.4 * sky_mag) * p * p
     source = electron_rate(m, s.zero_mag_rate_e_per_s, s.extinction_mag_per_airmass, airmass)
+    # the cluster's light is above the atmosphere, dimmed like the stars' (infinite: none)
+    cluster_pix = (0.0 * sky_pix if cluster_sb is None else
+                   electron_rate(cluster_sb, s.zero_mag_rate_e_per_s, s.extinction_mag_per_airmass, airmass) * p * p)
     seeing = np.asarray(seeing, dtype=float)
+    radius_fwhm = optimal_radius_fwhm(s.psf) if radius_fwhm is None else radius_fwhm
     radius = np.maximum(radius_fwhm * seeing, p)
-    enclosed = enclosed_fraction(radius, seeing)
+    enclosed = enclosed_fraction(radius, seeing, s.psf)
     n_pix = np.pi * (radius / p) ** 2
     weight = n_pix if sky_annulus_pixels is None else n_pix * (1.0 + n_pix / sky_annulus_pixels)
     per_frame = weight * (s.read_noise_e**2 + (s.gain_e_per_adu * DIGITISATION_NOISE_ADU) ** 2)
-    return _Rates(sky_mag, source, source * enclosed, sky_pix, radius, n_pix, enclosed, weight,
-                  weight * (sky_pix + s.dark_e_per_s), per_frame)
+    return _Rates(sky_mag, source, source * enclosed, sky_pix, cluster_pix, radius, n_pix, enclosed, weight,
+                  weight * (sky_pix + cluster_pix + s.dark_e_per_s), per_frame)
 
 
 def _snr_frame(r: _Rates, t):
@@ -174,17 +190,20 @@ def _scalar_or_array(x):
 
 def snr_of_exposure(site, filter_name, magnitude, exposure_s, *, airmass=DEFAULT_AIRMASS,
                     seeing_fwhm_arcsec=None, moon_illumination=0.0, moon_separation_deg=90.0,
-                    moon_altitude_deg=-90.0, aperture_radius_fwhm=OPTIMAL_RADIUS_FWHM,
-                    sky_annulus_pixels=None):
+                    moon_altitude_deg=-90.0, aperture_radius_fwhm=None,
+                    sky_annulus_pixels=None, cluster_sb_mag_arcsec2=None):
     """S/N of one frame of ``exposure_s`` on a star of ``magnitude`` (saturation ignored).
 
     All of magnitude, exposure, airmass, seeing and the Moon's geometry broadcast;
     a float comes back for scalar input, else an array.  Seeing defaults to the site's
-    typical seeing; the Moon defaults to below the horizon.
+    typical seeing; the Moon defaults to below the horizon.  ``aperture_radius_fwhm``
+    defaults to the site PSF's background-limited optimum; ``cluster_sb_mag_arcsec2``
+    is unresolved cluster light (above the atmosphere) added to the sky.
     """
     _check_positive(exposure_s, "exposure time (s)")
     r = _rates(band_setup(site, filter_name), magnitude, airmass, seeing_fwhm_arcsec, moon_illumination,
-               moon_separation_deg, moon_altitude_deg, aperture_radius_fwhm, sky_annulus_pixels)
+               moon_separation_deg, moon_altitude_deg, aperture_radius_fwhm, sky_annulus_pixels,
+               cluster_sb_mag_arcsec2)
     return _scalar_or_array(_snr_frame(r, np.asarray(exposure_s, dtype=float)))
 
 
@@ -201,6 +220,7 @@ class ExposureGrid:
     sky_mag_arcsec2: np.ndarray
     source_e_per_s: np.ndarray
     sky_e_per_s_per_pixel: np.ndarray
+    cluster_e_per_s_per_pixel: np.ndarray
     aperture_radius_arcsec: np.ndarray
     aperture_pixels: np.ndarray
     enclosed_fraction: np.ndarray
@@ -212,17 +232,20 @@ class ExposureGrid:
 
 
 def _grid(s: BandSetup, magnitude, snr, airmass, seeing, illumination, separation, moon_alt,
-          saturation_magnitude, max_frame_s, radius_fwhm, sky_annulus_pixels, round_frames) -> ExposureGrid:
+          saturation_magnitude, max_frame_s, radius_fwhm, sky_annulus_pixels, round_frames,
+          cluster_sb=None) -> ExposureGrid:
     _check_positive(snr, "S/N goal")
     if max_frame_s is not None:
         _check_positive(max_frame_s, "longest frame (s)")
     snr = np.asarray(snr, dtype=float)
-    r = _rates(s, magnitude, airmass, seeing, illumination, separation, moon_alt, radius_fwhm, sky_annulus_pixels)
+    r = _rates(s, magnitude, airmass, seeing, illumination, separation, moon_alt, radius_fwhm, sky_annulus_pixels,
+               cluster_sb)
     seeing = s.typical_seeing_arcsec if seeing is None else seeing
-    peak = peak_pixel_fraction(np.asarray(seeing, dtype=float) / s.pixel_scale_arcsec)
+    peak = peak_pixel_fraction(np.asarray(seeing, dtype=float) / s.pixel_scale_arcsec, s.psf)
     bright = np.asarray(magnitude if saturation_magnitude is None else saturation_magnitude, dtype=float)
     bright_rate = electron_rate(bright, s.zero_mag_rate_e_per_s, s.extinction_mag_per_airmass, airmass)
-    saturation = s.linearity_limit_e / (bright_rate * peak + r.sky_e_per_s_per_pixel + s.dark_e_per_s)
+    saturation = s.linearity_limit_e / (bright_rate * peak + r.sky_e_per_s_per_pixel + r.cluster_e_per_s_per_pixel
+                                        + s.dark_e_per_s)
     limit = saturation if max_frame_s is None else np.minimum(saturation, max_frame_s)
     t_min = s.min_exposure_s
     too_bright = limit < t_min
@@ -255,6 +278,7 @@ def _grid(s: BandSetup, magnitude, snr, airmass, seeing, illumination, separatio
         single_frame_s=np.broadcast_to(single, shape), sky_mag_arcsec2=np.broadcast_to(r.sky_mag_arcsec2, shape),
         source_e_per_s=np.broadcast_to(r.source_e_per_s, shape),
         sky_e_per_s_per_pixel=np.broadcast_to(r.sky_e_per_s_per_pixel, shape),
+        cluster_e_per_s_per_pixel=np.broadcast_to(r.cluster_e_per_s_per_pixel, shape),
         aperture_radius_arcsec=np.broadcast_to(r.radius_arcsec, shape),
         aperture_pixels=np.broadcast_to(r.n_pix, shape), enclosed_fraction=np.broadcast_to(r.enclosed, shape),
         peak_fraction=np.broadcast_to(peak, shape), split=np.broadcast_to(n > 1, shape),
@@ -264,16 +288,17 @@ def _grid(s: BandSetup, magnitude, snr, airmass, seeing, illumination, separatio
 
 def exposure_grid(site, filter_name, magnitude, snr, *, airmass=DEFAULT_AIRMASS, seeing_fwhm_arcsec=None,
                   moon_illumination=0.0, moon_separation_deg=90.0, moon_altitude_deg=-90.0,
-                  saturation_magnitude=None, max_frame_s=None, aperture_radius_fwhm=OPTIMAL_RADIUS_FWHM,
-                  sky_annulus_pixels=None, round_frames=True) -> ExposureGrid:
+                  saturation_magnitude=None, max_frame_s=None, aperture_radius_fwhm=None,
+                  sky_annulus_pixels=None, round_frames=True, cluster_sb_mag_arcsec2=None) -> ExposureGrid:
     """Frames and frame times reaching ``snr`` on arrays of conditions (all broadcast).
 
     ``saturation_magnitude`` is the brightest star that must stay below the linearity
-    limit (default: the star itself); ``max_frame_s`` caps frames further.
+    limit (default: the star itself); ``max_frame_s`` caps frames further; the aperture
+    and cluster light as in :func:`snr_of_exposure`.
     """
     return _grid(band_setup(site, filter_name), magnitude, snr, airmass, seeing_fwhm_arcsec,
                  moon_illumination, moon_separation_deg, moon_altitude_deg, saturation_magnitude,
-                 max_frame_s, aperture_radius_fwhm, sky_annulus_pixels, round_frames)
+                 max_frame_s, aperture_radius_fwhm, sky_annulus_pixels, round_frames, cluster_sb_mag_arcsec2)
 
 
 def saturation_time_s(site, filter_name, magnitude, **conditions) -> float | np.ndarray:
@@ -333,6 +358,9 @@ class ExposurePlan:
     peak_fraction: float
     inputs: ExposureInputs
     warnings: tuple[str, ...] = field(default_factory=tuple)
+    psf: str = "Gaussian"  # the profile the aperture and peak pixel assume
+    cluster_surface_brightness_mag_arcsec2: float | None = None  # unresolved cluster light, if counted
+    cluster_e_per_s_per_pixel: float = 0.0
 
 
 def exposure_for_snr(site, filter_name: str, magnitude: float, snr: float, *, airmass=DEFAULT_AIRMASS,
@@ -340,17 +368,19 @@ def exposure_for_snr(site, filter_name: str, magnitude: float, snr: float, *, ai
                      moon_altitude_deg=-90.0, saturation_magnitude=None, shortest_period_d=None,
                      phase_smear_fraction=DEFAULT_PHASE_SMEAR_FRACTION, max_frame_s=None,
                      level: str = "user", target: str | None = None, round_frames=True,
-                     aperture_radius_fwhm=OPTIMAL_RADIUS_FWHM, sky_annulus_pixels=None) -> ExposurePlan:
+                     aperture_radius_fwhm=None, sky_annulus_pixels=None,
+                     cluster_sb_mag_arcsec2=None) -> ExposurePlan:
     """The exposure plan for one star (scalar inputs), with warnings an observer should read.
 
     ``shortest_period_d``: for variables, frames longer than ``phase_smear_fraction``
-    of it are flagged (phase smearing).
+    of it are flagged (phase smearing).  ``cluster_sb_mag_arcsec2``: the cluster's own
+    light at the star's place, added to the sky (see :mod:`planner.light.cluster_light`).
     """
     s = band_setup(site, filter_name)
     seeing = s.typical_seeing_arcsec if seeing_fwhm_arcsec is None else float(seeing_fwhm_arcsec)
     g = _grid(s, float(magnitude), snr, airmass, seeing, moon_illumination, moon_separation_deg,
               moon_altitude_deg, saturation_magnitude, max_frame_s, aperture_radius_fwhm,
-              sky_annulus_pixels, round_frames)
+              sky_annulus_pixels, round_frames, cluster_sb_mag_arcsec2)
     v = {name: np.asarray(getattr(g, name)).item() for name in g.__dataclass_fields__}
     if not v["reachable"]:
         raise SnrGoalError(
@@ -379,6 +409,10 @@ def exposure_for_snr(site, filter_name: str, magnitude: float, snr: float, *, ai
                             f"of the shortest period ({shortest_period_d:g} d, {smear:.0f} s)")
     if airmass > s.max_airmass:
         warnings.append(f"airmass {airmass:g} is beyond the site's limit {s.max_airmass:g}")
+    if moon_altitude_deg > 0 and float(moon_phase_angle_deg(moon_illumination)) < OPPOSITION_PHASE_ANGLE_DEG:
+        warnings.append(f"the Moon is within {OPPOSITION_PHASE_ANGLE_DEG:g} deg of full phase: its opposition "
+                        "brightening (up to about 0.3 mag, Krisciunas & Schaefer 1991) is not in the sky model, "
+                        "so the sky may be brighter and the times longer")
     if moon_altitude_deg > 0 and moon_illumination > 0 and moon_separation_deg < s.min_moon_separation_deg:
         warnings.append(f"the Moon is {moon_separation_deg:g} deg away, closer than the site's "
                         f"{s.min_moon_separation_deg:g} deg limit")
@@ -392,7 +426,9 @@ def exposure_for_snr(site, filter_name: str, magnitude: float, snr: float, *, ai
         filter_name, s.band, float(magnitude), level, target, float(snr), v["exposure_s"], n, frame,
         v["snr_reached"], saturation, bright, v["single_frame_s"], n * (frame + s.readout_s),
         v["sky_mag_arcsec2"], v["source_e_per_s"], v["sky_e_per_s_per_pixel"], v["aperture_radius_arcsec"],
-        v["aperture_pixels"], v["enclosed_fraction"], v["peak_fraction"], inputs, tuple(warnings))
+        v["aperture_pixels"], v["enclosed_fraction"], v["peak_fraction"], inputs, tuple(warnings),
+        s.psf.describe(), None if cluster_sb_mag_arcsec2 is None else float(cluster_sb_mag_arcsec2),
+        v["cluster_e_per_s_per_pixel"])
 
 
 def exposure_for_level(site, filter_name: str, level: ScienceLevel, snr: float, **options) -> ExposurePlan:

@@ -11,8 +11,11 @@ Conventions and sources
   giving 1 e⁻/s above the atmosphere; preferred when the site gives one, since it is
   measured) or from photons × bandwidth × collecting area × total throughput.
 * Atmospheric extinction: k (mag per airmass, from the site) × airmass.
-* Interstellar extinction: A_band = R_band E(B−V), R_band from Schlafly & Finkbeiner
-  2011, ApJ 737, 103, Table 6 (R_V = 3.1; "A/E(B−V)_SFD" column, Landolt and 2MASS).
+* Interstellar extinction: A_band = (A_band/A_V)(R_V) × R_V × E(B−V) with the Cardelli,
+  Clayton & Mathis 1989 law (ApJ 345, 245) at the band's effective wavelength,
+  A_band/A_V = a(x) + b(x)/R_V (a, b in the band table), R_V = 3.1 unless the target
+  gives its own.  At R_V = 3.1, A_V = 3.13 E(B−V): the classical scale on which the
+  catalog's Harris E(B−V) is defined.
 * Sky: the site's dark zenith sky, brightened off the zenith with Krisciunas &
   Schaefer 1991 (PASP 103, 1033), B0(Z) = B_zen 10^(−0.4 k (X − 1)) X, with their
   scattering air mass X(Z) = (1 − 0.96 sin² Z)^(−1/2) and sin² Z = 1 − 1/airmass²
@@ -33,7 +36,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from planner.errors import InputError
-from planner.model.bands import BANDS, C_CM_S, H_ERG_S, Band
+from planner.model.bands import BANDS, C_CM_S, DEFAULT_R_V, EXTINCTION_LAW, H_ERG_S, Band
 
 
 class UnknownFilterError(InputError):
@@ -92,9 +95,12 @@ def electron_rate(magnitude, zero_mag_rate_e_per_s, extinction_mag_per_airmass=0
     return zero_mag_rate_e_per_s * 10.0 ** (-0.4 * (m + extinction_mag_per_airmass * np.asarray(airmass)))
 
 
-def interstellar_extinction_mag(band: str, ebv_mag) -> float:
-    """A_band = R_band E(B−V), Schlafly & Finkbeiner 2011 Table 6 (R_V = 3.1)."""
-    return band_info(band).r_ebv * np.asarray(ebv_mag, dtype=float)
+def interstellar_extinction_mag(band: str, ebv_mag, r_v=DEFAULT_R_V):
+    """A_band = (a + b / R_V) R_V E(B−V): Cardelli, Clayton & Mathis 1989 at λeff."""
+    r = np.asarray(r_v, dtype=float)
+    if not np.all(np.isfinite(r) & (r > 0)):
+        raise ConditionsError(f"R_V must be a positive number (got {r_v!r})")
+    return band_info(band).extinction_per_ebv(r) * np.asarray(ebv_mag, dtype=float)
 
 
 # ------------------------------------------------------------------ sky brightness
@@ -228,9 +234,20 @@ HB_J_MINUS_KS, HB_H_MINUS_KS = 0.25, 0.05
 TURNOFF_COLOURS = {"U": 0.30, "B": 0.45, "V": 0.0, "R": -0.28, "I": -0.58,
                    "J": -1.05, "H": -1.35, "Ks": -1.40}
 COLOUR_SOURCE_MEMORY = "typical colours from memory, ±0.1 mag"
-# The brightest stars of the HB level are RR Lyrae at maximum light, about half a
-# typical RRab V amplitude (≈1 mag, from memory) above the mean; used for saturation.
-RRL_MAX_ABOVE_MEAN_MAG = 0.5
+# The brightest stars of the HB level are RR Lyrae at maximum light; used for saturation.
+# The largest RRab amplitudes: A_V = 1.21 at P = 0.5 d on the Bailey locus that
+# planner.variables.recovery adopts (computed).  Its RRab template puts maximum light
+# 0.57 A above the intensity mean, the mean the M_V calibrations use (0.62 A above the
+# magnitude mean; computed, tests/test_photometry.py recomputes both).  Amplitude ratios
+# A_band / A_V of RRab stars, from memory (±0.1): the amplitude shrinks to the red.
+RRAB_LARGEST_AMPLITUDE_V_MAG = 1.21
+RRAB_MAX_ABOVE_MEAN_PER_AMPLITUDE = 0.57
+RRL_AMPLITUDE_RATIO = {"U": 1.30, "B": 1.25, "V": 1.0, "R": 0.80, "I": 0.63, "J": 0.45, "H": 0.32, "Ks": 0.30}
+
+
+def rrl_max_above_mean_mag(band: str) -> float:
+    """How far the brightest RR Lyrae at maximum rise above the HB's mean level in ``band``."""
+    return RRAB_MAX_ABOVE_MEAN_PER_AMPLITUDE * RRAB_LARGEST_AMPLITUDE_V_MAG * RRL_AMPLITUDE_RATIO[band]
 
 
 @dataclass(frozen=True)
@@ -248,6 +265,8 @@ class ScienceLevel:
     rule_of_thumb: bool
     target: str | None = None
     notes: tuple[str, ...] = ()
+    r_v: float | None = None  # R_V used for extinction (None: no extinction applied)
+    observed: bool = False  # set by the cluster's observed V_HB, not by a calibration
 
 
 def metallicity_mh(feh_dex, alpha_fe_dex=0.3):
@@ -316,26 +335,60 @@ def _missing(value) -> bool:
     return value is None or (isinstance(value, float) and math.isnan(value))
 
 
+def _observed_hb_applies(target, level: str, band: str) -> bool:
+    """Whether the target's observed V_HB sets this level: HB in UBVRI (the near-IR HB
+    comes from the period-luminosity relation) and the turnoff in every band."""
+    if _missing(getattr(target, "v_hb_mag", None)) or level not in ("hb", "turnoff"):
+        return False
+    return level == "turnoff" or band in HB_COLOURS
+
+
 def science_level(target, level: str, band: str, *, period_d: float | None = None) -> ScienceLevel:
     """The apparent magnitude of ``level`` of cluster ``target`` in ``band``.
 
     ``target`` needs ``name``, ``distance_modulus_mag`` (true, dereddened), ``ebv_mag``
-    and ``feh_dex`` (any object with those attributes, e.g. ``planner.targets.Target``).
-    Raises :class:`LevelError` naming the missing quantity.
+    and ``feh_dex`` (any object with those attributes, e.g. ``planner.targets.Target``);
+    ``r_v`` (default 3.1) and an observed ``v_hb_mag`` are used when present: the
+    observed HB level then sets the HB (UBVRI) and the turnoff, shifted to other bands
+    by the colours and the colour excess A_band − A_V.  Raises :class:`LevelError`
+    naming the missing quantity.
     """
     name = getattr(target, "name", None)
+    observed = _observed_hb_applies(target, level, band)
     needs = (("distance_modulus_mag", "a distance modulus"), ("ebv_mag", "a reddening E(B-V)"),
              ("feh_dex", "a metallicity [Fe/H]"))
-    for attr, what in needs:
+    for attr, what in needs[1:] if observed else needs:
         if _missing(getattr(target, attr, None)):
             raise LevelError(f"target {name!r} has no {attr} ({what}); the {level} level needs it: "
                              "add it to the target list, or a magnitude is needed")
-    absolute, calibration, colour, thumb, notes = absolute_level_mag(
-        level, band, target.feh_dex, period_d=period_d)
-    a_band = float(interstellar_extinction_mag(band, target.ebv_mag))
-    m = absolute + float(target.distance_modulus_mag) + a_band
-    brightest = m - RRL_MAX_ABOVE_MEAN_MAG if level == "hb" else m
-    return ScienceLevel(level, band, m, brightest, absolute, a_band, calibration, colour, thumb, name, notes)
+    r_v = getattr(target, "r_v", None)
+    r_v = DEFAULT_R_V if _missing(r_v) else float(r_v)
+    a_band = float(interstellar_extinction_mag(band, target.ebv_mag, r_v))
+    modulus = getattr(target, "distance_modulus_mag", None)
+    if observed:
+        m, calibration, colour, thumb = _from_observed_hb(target, level, band, a_band, r_v)
+        absolute, notes = (None if _missing(modulus) else m - float(modulus) - a_band), ()
+    else:
+        absolute, calibration, colour, thumb, notes = absolute_level_mag(
+            level, band, target.feh_dex, period_d=period_d)
+        m = absolute + float(modulus) + a_band
+    brightest = m - rrl_max_above_mean_mag(band) if level == "hb" else m
+    return ScienceLevel(level, band, m, brightest, absolute, a_band, calibration, colour, thumb, name, notes, r_v,
+                        observed)
+
+
+def _from_observed_hb(target, level, band, a_band, r_v):
+    """(magnitude, calibration, colour source, rule of thumb) from the observed V_HB."""
+    v_hb = float(target.v_hb_mag)
+    source = getattr(target, "v_hb_source", None) or "given"
+    excess = a_band - float(interstellar_extinction_mag("V", target.ebv_mag, r_v))  # E(band - V)
+    calibration = f"observed V_HB = {v_hb:.2f} ({source})"
+    if level == "hb":
+        colour = "none needed" if band == "V" else f"RR Lyrae mean colours, {COLOUR_SOURCE_MEMORY}"
+        return v_hb + HB_COLOURS[band] + excess, calibration, colour, False
+    return (v_hb + TURNOFF_BELOW_HB_V + TURNOFF_COLOURS[band] + excess,
+            f"rule of thumb: V(turnoff) = V_HB + 3.5 (Buonanno et al. 1989, from memory), {calibration}",
+            f"turnoff dwarf colours, {COLOUR_SOURCE_MEMORY}", True)
 
 
 def user_level(magnitude: float, band: str, target_name: str | None = None) -> ScienceLevel:

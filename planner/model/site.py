@@ -12,6 +12,13 @@ from types import MappingProxyType
 from typing import Mapping
 
 TWILIGHTS = ("civil", "nautical", "astronomical")
+# The stars' profile on the frame.  Seeing-limited stars are Moffat profiles; β = 4.765
+# is what Kolmogorov turbulence gives (Trujillo et al. 2001, MNRAS 328, 977).  Real
+# PSFs with optics and guiding often have broader wings (β ≈ 2.5-3.5, from memory):
+# a site may give its own β, or choose a Gaussian.
+PSF_KINDS = ("moffat", "gaussian")
+DEFAULT_PSF = "moffat"
+DEFAULT_MOFFAT_BETA = 4.765
 
 
 @dataclass(frozen=True)
@@ -84,6 +91,8 @@ class Sky:
     typical_seeing_arcsec: float
     dark_mag_arcsec2: Mapping[str, float]  # per filter name, zenith, moonless
     extinction_mag_per_airmass: Mapping[str, float]  # per filter name
+    psf: str = DEFAULT_PSF  # the stars' profile, one of PSF_KINDS (planner.light.ccd)
+    moffat_beta: float = DEFAULT_MOFFAT_BETA  # Moffat β, > 1
 
 
 @dataclass(frozen=True)

@@ -8,6 +8,7 @@ import textwrap
 import numpy as np
 
 from planner.cautions import PLAN_CAUTION as CAUTION
+from planner.inputs.sites import mean_solar_zone
 from planner.sky.nights import iso_utc, jd_to_datetime, local_hhmm, utc_hhmm
 
 
@@ -113,6 +114,8 @@ def night_text(run_, i: int = 0) -> str:
         f"  {loc.latitude_deg:+.4f}°, {loc.longitude_deg:+.4f}°, {loc.elevation_m:.0f} m · {zone} "
         f"({utc_offset_label(alm.middle_jd[i], zone)} at midnight)"
     )
+    if zone.startswith("Etc/") and zone == mean_solar_zone(loc.longitude_deg):
+        lines.append("  local clock: the whole hour nearest the site's mean solar time")
     lines.append("")
     lines.append(f"  {'':20s}{'evening':^14s}  {'morning':^14s}")
     lines.append(f"  {'':20s}{'local':>7s}{'UTC':>7s}  {'local':>7s}{'UTC':>7s}")
@@ -130,10 +133,11 @@ def night_text(run_, i: int = 0) -> str:
     if always:
         lines.append("  the Moon is up all night" if always > 0 else "  the Moon stays below the horizon all night")
     else:
-        lines.append(
-            f"  moonrise {local_hhmm(alm.moonrise_jd[i], zone)} local ({utc_hhmm(alm.moonrise_jd[i])} UTC), "
-            f"moonset {local_hhmm(alm.moonset_jd[i], zone)} local ({utc_hhmm(alm.moonset_jd[i])} UTC)"
-        )
+        events = sorted((("moonrise", alm.moonrise_jd[i]), ("moonset", alm.moonset_jd[i])),
+                        key=lambda e: np.nan_to_num(e[1], nan=np.inf))  # in the order they happen
+        lines.append("  " + ", ".join(f"{name} {local_hhmm(jd, zone)} local ({utc_hhmm(jd)} UTC)"
+                                      + (" before sunset" if jd < alm.sunset_jd[i] else "")
+                                      for name, jd in events))
     before, after = (utc_offset_label(jd, zone) for jd in (alm.span_start_jd[i], alm.span_end_jd[i]))
     if before != after:
         lines.append(f"  the clocks change tonight: {before} in the evening, {after} in the morning")
@@ -182,7 +186,9 @@ def night_text(run_, i: int = 0) -> str:
             lines.append(f"  {'':<12s}above {c.max_altitude_deg:g}° (not usable) {local_hhmm(g0, zone)}–"
                          f"{local_hhmm(g1, zone)} local, {utc_hhmm(g0)}–{utc_hhmm(g1)} UTC")
     lines.append("")
-    lines.append("  Sun and Moon: their centres. Altitudes geometric; airmass Kasten & Young 1989.")
+    lines.append("  Sunset, sunrise: the Sun's centre at −0.833°; moonrise, moonset: the Moon's")
+    lines.append("  upper limb on the horizon; twilights, altitudes, separations: centres.")
+    lines.append("  Altitudes geometric; airmass Kasten & Young 1989.")
     lines.extend("  " + part for part in textwrap.wrap(CAUTION, 76))
     return "\n".join(line.rstrip() for line in lines)
 

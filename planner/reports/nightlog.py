@@ -86,7 +86,19 @@ def almanac_rows(log: NightLog) -> list[tuple[str, str, str, str, str, str]]:
     morning = [(f"{n} twilight begins", alm.morning_jd[n][0]) for n, d in levels[::-1]]
     morning.append(("sunrise", alm.sunrise_jd[0]))
     rows = [(a, *t(ja), b, *t(jb)) for (a, ja), (b, jb) in zip(evening, morning)]  # both in time order
-    rows.append(("moonrise", *t(alm.moonrise_jd[0]), "moonset", *t(alm.moonset_jd[0])))
+    # Each Moon event on the side of the night it belongs to (a moonset before sunset is
+    # an evening event), in time order; an event the span lacks keeps its usual side.
+    middle = alm.middle_jd[0]
+    moon = [("moonrise", alm.moonrise_jd[0], "evening"), ("moonset", alm.moonset_jd[0], "morning")]
+    sides = {"evening": [], "morning": []}
+    for label, jd, usual in sorted(moon, key=lambda m: (np.nan_to_num(m[1], nan=np.inf))):
+        side = usual if not np.isfinite(jd) else "evening" if jd < middle else "morning"
+        sides[side].append((label, *t(jd)))
+    blank = ("", "", "")
+    for k in range(max(len(sides["evening"]), len(sides["morning"]))):
+        e = sides["evening"][k] if k < len(sides["evening"]) else blank
+        m = sides["morning"][k] if k < len(sides["morning"]) else blank
+        rows.append((*e, *m))
     return rows
 
 

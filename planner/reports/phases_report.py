@@ -10,15 +10,12 @@ import numpy as np
 
 from planner.sky.nights import iso_utc
 
-TIME_SYSTEM = "HJD (UTC scale), heliocentric, for the geocentre; epochs must be in the same system"
-
-
 def phase_report(variables, times, n_bins: int, max_drift_per_day: float):
     """Everything the command shows, as plain data (also used by the plot)."""
     from planner.variables.phases import (
         alias_warnings,
         cluster_coverage_summary,
-        heliocentric_jd,
+        ephemeris_dates,
         phase_coverage,
         phase_drift_per_day,
         phases,
@@ -27,7 +24,7 @@ def phase_report(variables, times, n_bins: int, max_drift_per_day: float):
     ids = [v.id for v in variables]
     periods = np.array([v.period_d for v in variables])
     types = [v.type for v in variables]
-    hjd = heliocentric_jd(times, [v.ra_deg for v in variables], [v.dec_deg for v in variables])
+    hjd = ephemeris_dates(times, variables)  # HJD(UTC) or BJD(TDB), as each star's epoch
     phase = phases(hjd, [v.epoch_hjd for v in variables], periods)
     coverage = phase_coverage(phase, n_bins, types)
     jd = times.utc.jd
@@ -59,7 +56,9 @@ def report_json(variables, report) -> dict:
             "cluster": v.cluster,
             "type": v.type,
             "period_d": v.period_d,
-            "epoch_hjd": v.epoch_hjd,
+            "epoch_hjd": v.epoch_hjd if v.time_system == "HJD_UTC" else None,
+            "epoch_bjd_tdb": v.epoch_hjd if v.time_system == "BJD_TDB" else None,
+            "time_system": v.time_system,
             "ra_deg": v.ra_deg,
             "dec_deg": v.dec_deg,
             "phases": [None if not np.isfinite(p) else round(float(p), 6) for p in report["phase"][k]],
@@ -73,7 +72,7 @@ def report_json(variables, report) -> dict:
     jd = report["jd"]
     return {
         "n_bins": cov.n_bins,
-        "time_system": TIME_SYSTEM,
+        "time_system": _time_system(variables),
         "n_times": int(jd.size),
         "first_time": iso_utc(float(np.min(jd))),
         "last_time": iso_utc(float(np.max(jd))),
@@ -84,11 +83,17 @@ def report_json(variables, report) -> dict:
     }
 
 
+def _time_system(variables) -> str:
+    from planner.variables.phases import time_system_label
+
+    return time_system_label(variables)
+
+
 def report_text(variables, report) -> str:
     cov = report["coverage"]
     lines = textwrap.wrap(
         f"{len(variables)} variables at {report['jd'].size} times over {report['baseline_d']:.2f} d; "
-        f"phase 0 = maximum light; {TIME_SYSTEM}",
+        f"phase 0 = maximum light; dates {_time_system(variables)}",
         80,
     ) + [
         "",

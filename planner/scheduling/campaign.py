@@ -268,7 +268,7 @@ def forecast_variables(campaign: Campaign, plans, exposures) -> tuple[dict, dict
     from planner.light.exposure import snr_of_exposure
     from planner.variables.phases import (
         cluster_coverage_summary,
-        heliocentric_jd,
+        ephemeris_dates,
         phase_coverage,
         phases,
     )
@@ -301,8 +301,7 @@ def forecast_variables(campaign: Campaign, plans, exposures) -> tuple[dict, dict
             coverage["clusters"].append({**entry, "median_bins_covered": 0, "min_bins_covered": 0})
             recovery["clusters"].append({**entry, "recovered_fraction": 0.0, "note": "no visits planned"})
             continue
-        hjd = heliocentric_jd(Time(jd, format="jd", scale="utc"), [s.ra_deg for s in stars],
-                              [s.dec_deg for s in stars])
+        hjd = ephemeris_dates(Time(jd, format="jd", scale="utc"), stars)  # each star's epoch's system
         ph = phases(hjd, np.array([s.epoch_hjd for s in stars])[:, None], np.array([s.period_d for s in stars])[:, None])
         cov = phase_coverage(ph, c.phase_bins, types)
         summary = cluster_coverage_summary(ids, [name] * len(stars), cov)[0]

@@ -8,12 +8,13 @@ Conventions
 * Phase ``φ = frac((HJD − epoch) / P)`` with the epoch a time of **maximum light**, so
   φ = 0 is maximum light and an RRab's steep rising branch sits just before φ = 1.
 * Times are **heliocentric** Julian dates on the **UTC** scale, HJD(UTC) = JD(UTC) + the
-  light-travel time from the observer to the Sun along the line of sight.  This is the
-  system in which cluster-variable ephemerides are traditionally published; the epochs in
-  a variables table must be in the same system.  (Barycentric dates differ from
-  heliocentric by up to about 4 s, and the TT − UTC offset is about 69 s; both are
-  below 0.002 in phase for periods above 0.2 d, but mixing systems over decades of
-  cycles does add up, so keep them consistent.)
+  light-travel time from the observer to the Sun along the line of sight (the system in
+  which cluster-variable ephemerides were traditionally published), or **barycentric**
+  Julian dates on the **TDB** scale, BJD(TDB) = JD(TDB) + the light-travel time to the
+  solar-system barycentre, the recommended standard (Eastman, Siverd & Gaudi 2010,
+  PASP 122, 935).  Each star's dates are in the system of its epoch.  The two differ by
+  TT − UTC (69.184 s since 2017) plus up to about 4 s between the barycentre and the
+  Sun's centre: about 73 s, 0.0042 of a 0.2 d period, so never mix them.
 * The light-travel time is computed for the geocentre unless a location is given: the
   topocentric term is at most R_earth / c ≈ 0.021 s.
 
@@ -133,6 +134,11 @@ def heliocentric_jd(
     ndarray, shape (n_stars, n_times)
         HJD(UTC) = JD(UTC) + heliocentric light-travel time, in days.
     """
+    return _light_time_dates(times, ra_deg, dec_deg, location, "heliocentric")
+
+
+def _light_time_dates(times, ra_deg, dec_deg, location, kind: str) -> np.ndarray:
+    """JD + light-travel time to the Sun's centre (UTC scale) or the barycentre (TDB scale)."""
     import astropy.units as u
     from astropy.coordinates import EarthLocation, SkyCoord
 
@@ -144,12 +150,42 @@ def heliocentric_jd(
     stars = SkyCoord(ra=ra * u.deg, dec=dec * u.deg, frame="icrs")
     # One call on the broadcast (n_stars, n_times) grid: the Sun's and Earth's
     # positions are computed once per time, not once per star.
-    ltt = times[np.newaxis, :].light_travel_time(
-        stars[:, np.newaxis], kind="heliocentric", location=location
-    )
-    utc = times.utc
-    jd_utc = utc.jd1 + utc.jd2  # float64: ~40 µs resolution at JD 2.46e6
-    return jd_utc[np.newaxis, :] + ltt.to_value(u.day)
+    ltt = times[np.newaxis, :].light_travel_time(stars[:, np.newaxis], kind=kind, location=location)
+    scale = times.utc if kind == "heliocentric" else times.tdb
+    jd = scale.jd1 + scale.jd2  # float64: ~40 µs resolution at JD 2.46e6
+    return jd[np.newaxis, :] + ltt.to_value(u.day)
+
+
+def barycentric_jd_tdb(
+    times: "Time",
+    ra_deg: Sequence[float] | np.ndarray,
+    dec_deg: Sequence[float] | np.ndarray,
+    location: "EarthLocation | None" = None,
+) -> np.ndarray:
+    """Barycentric Julian dates (TDB scale) of ``times`` for each star, shape (n_stars, n_times):
+    BJD(TDB) = JD(TDB) + light-travel time to the solar-system barycentre (as
+    :func:`heliocentric_jd`, with the barycentre for the Sun and TDB for UTC)."""
+    return _light_time_dates(times, ra_deg, dec_deg, location, "barycentric")
+
+
+def ephemeris_dates(times: "Time", variables, location: "EarthLocation | None" = None) -> np.ndarray:
+    """Each star's dates of ``times`` in the time system of its epoch, (n_stars, n_times)."""
+    ra = np.array([v.ra_deg for v in variables], dtype=float)
+    dec = np.array([v.dec_deg for v in variables], dtype=float)
+    bary = np.array([getattr(v, "time_system", "HJD_UTC") == "BJD_TDB" for v in variables])
+    out = np.empty((ra.size, len(np.atleast_1d(times.jd))))
+    if np.any(~bary):
+        out[~bary] = heliocentric_jd(times, ra[~bary], dec[~bary], location)
+    if np.any(bary):
+        out[bary] = barycentric_jd_tdb(times, ra[bary], dec[bary], location)
+    return out
+
+
+def time_system_label(variables) -> str:
+    """What the phase output's dates are, for a set of variables."""
+    systems = sorted({getattr(v, "time_system", "HJD_UTC") for v in variables})
+    labels = {"HJD_UTC": "HJD (UTC scale), heliocentric", "BJD_TDB": "BJD (TDB scale), barycentric"}
+    return "; ".join(labels[s] for s in systems) + ", for the geocentre, as each star's epoch"
 
 
 def phases(hjd: np.ndarray, epoch_hjd, period_d) -> np.ndarray:

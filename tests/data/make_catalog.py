@@ -78,6 +78,9 @@ def read_part2(path: Path) -> dict[str, dict]:
             dm_v=float(tok[4]),
             v_t=float(tok[5]) if len(tok) > 5 else None,
             mv_t=float(tok[6]) if len(tok) > 6 else None,
+            # Integrated colours by fixed columns (a blank colour would shift the tokens).
+            ub=fnum(line.ljust(80)[54:60]), bv=fnum(line.ljust(80)[60:66]),
+            vr=fnum(line.ljust(80)[66:72]), vi=fnum(line.ljust(80)[72:78]),
         )
     return rows
 
@@ -87,7 +90,8 @@ def read_part3(path: Path) -> dict[str, dict]:
     for line in path.read_text().splitlines():
         line = line.ljust(100)
         ident = line[:12].strip()
-        rows[ident] = dict(c=fnum(line[47:54]), r_c=fnum(line[58:64]), r_h=fnum(line[64:70]))
+        rows[ident] = dict(c=fnum(line[47:54]), collapsed=line[54:58].strip(), r_c=fnum(line[58:64]),
+                           r_h=fnum(line[64:70]), mu_v=fnum(line[70:78]))
     return rows
 
 
@@ -180,6 +184,7 @@ def main() -> None:
         raise SystemExit(f"{len(failures)} consistency checks of the copied tables failed")
 
     names, aliases, ra, dec, dist, dm, ebv, feh, rh, vt, dsrc, notes = ([] for _ in range(12))
+    extra = {key: [] for key in ("v_hb", "dm_v", "mu_v", "r_c", "c", "ub", "bv", "vr", "vi")}
     for r, c in zip(part1, icrs):
         p2, p3 = part2[r["id"]], part3[r["id"]]
         lv = lv_by_id.get(r["id"])
@@ -198,6 +203,10 @@ def main() -> None:
         for a in [r["id"], *al]:
             if a.startswith("Pal "):
                 al.append("Palomar " + a[4:])
+        if p3["collapsed"] == "c":
+            note_parts.append(f"core-collapsed (Harris flag c): the concentration {p3['c']} is nominal")
+        elif p3["collapsed"]:
+            note_parts.append("possibly core-collapsed (Harris flag c:)")
         if r["id"] == "Lynga 7":
             note_parts.append("[Fe/H] -1.01 as in the mwgc.dat copy used (and as the Local Volume Database "
                               "quotes Harris); another public copy of the 2010 edition has -0.67")
@@ -221,6 +230,8 @@ def main() -> None:
         rh.append(p3["r_h"])
         vt.append(p2["v_t"])
         dsrc.append(src)
+        for key in extra:
+            extra[key].append(p2[key] if key in p2 else p3[key])
         notes.append("; ".join(note_parts))
 
     def masked(values, unit=None, description=""):
@@ -238,6 +249,14 @@ def main() -> None:
     t["feh_dex"] = masked(feh, None, "[Fe/H], Harris 2010")
     t["half_light_radius_arcmin"] = masked(rh, u.arcmin, "half-light radius r_h, Harris 2010")
     t["v_mag"] = masked(vt, u.mag, "integrated V magnitude V_t, Harris 2010")
+    t["v_hb_mag"] = masked(extra["v_hb"], u.mag, "observed V of the horizontal branch V_HB, Harris 2010")
+    t["distance_modulus_v_mag"] = masked(extra["dm_v"], u.mag, "apparent visual distance modulus (m-M)_V, Harris 2010")
+    t["central_sb_v_mag_arcsec2"] = masked(extra["mu_v"], u.mag / u.arcsec**2,
+                                           "central V surface brightness mu_V, Harris 2010")
+    t["core_radius_arcmin"] = masked(extra["r_c"], u.arcmin, "King core radius r_c, Harris 2010")
+    t["king_concentration"] = masked(extra["c"], None, "King concentration c = log10(r_t / r_c), Harris 2010")
+    for key, colour in (("ub", "U-B"), ("bv", "B-V"), ("vr", "V-R"), ("vi", "V-I")):
+        t[f"{key}_integrated_mag"] = masked(extra[key], u.mag, f"integrated colour {colour}, observed, Harris 2010")
     t["distance_source"] = MaskedColumn(dsrc, description="BV21 or H10, see meta distance_sources")
     t["notes"] = MaskedColumn(notes, description="per-row remarks")
     t.meta.update(build_meta())
@@ -269,6 +288,15 @@ def build_meta() -> dict:
             "feh_dex": "Harris 2010 Part II col. 2, [Fe/H]",
             "half_light_radius_arcmin": "Harris 2010 Part III col. 9, r_h",
             "v_mag": "Harris 2010 Part II col. 7, V_t",
+            "v_hb_mag": "Harris 2010 Part II col. 5, V_HB (observed, not corrected for extinction)",
+            "distance_modulus_v_mag": "Harris 2010 Part II col. 6, (m-M)_V",
+            "ub_integrated_mag, bv_integrated_mag, vr_integrated_mag, vi_integrated_mag":
+                "Harris 2010 Part II cols. 9-12, integrated U-B, B-V, V-R, V-I (observed, reddened)",
+            "king_concentration": "Harris 2010 Part III col. 7, c; core-collapsed clusters (flag c, "
+            "see notes) carry the nominal 2.5",
+            "core_radius_arcmin": "Harris 2010 Part III col. 8, r_c",
+            "central_sb_v_mag_arcsec2": "Harris 2010 Part III col. 10, mu_V (observed, not corrected for "
+            "extinction)",
         },
         "distance_sources": {
             "BV21": "Baumgardt H., Vasiliev E. 2021, MNRAS 505, 5957 (2021MNRAS.505.5957B), mean distances "
@@ -301,7 +329,8 @@ def build_meta() -> dict:
             "One position is not Harris's: Terzan 10, whose Harris 2010 centre lies 8.7 arcmin from the "
             "modern one (see its notes). Rows are in Harris's order. Missing values are masked (empty): "
             "[Fe/H] for Ko 1, Ko 2, FSR 1735, 2MS-GC01, GLIMPSE01; V_t for GLIMPSE02; r_h for Pyxis, "
-            "Liller 1, UKS 1, NGC 6540, GLIMPSE02. No value was typed from memory (the notes column "
+            "Liller 1, UKS 1, NGC 6540, GLIMPSE02; structural parameters and integrated colours where Harris "
+            "gives none. No value was typed from memory (the notes column "
             "would say so)."),
     }
 
