@@ -45,14 +45,18 @@ from __future__ import annotations
 
 import datetime as dt
 
+from dataclasses import replace
+
 import numpy as np
 
 from planner.model.constraints import Constraints
-from planner.scheduling.dispatch import DispatchState, dispatch, fill_gaps
+from planner.scheduling.bound import night_bound
+from planner.scheduling.dispatch import DispatchState, dispatch, fill_gaps, improve
 from planner.scheduling.night_plan import Gap, NightPlan, Unplanned
 from planner.scheduling.slot_table import SLOT_MIN, build_slot_table
-from planner.scheduling.visits import Visit, VisitRequest
+from planner.scheduling.visits import Visit, VisitRequest, setup_s
 from planner.sky.ephemeris import Ephemeris, moon_phase
+from planner.sky.visibility import angular_separation_deg
 
 METHOD = "value-rate dispatch with closing-window look-ahead, then gap-filling local search (1-minute slots)"
 
@@ -102,13 +106,17 @@ def plan_night(
         gaps = _gaps(window_start_jd, window_end_jd, list(fixed), closed)
         return NightPlan(night, constraints, window_start_jd, window_end_jd, tuple(fixed), gaps, tuple(unplanned),
                          closed, seeing, moon_illum, 0.0, METHOD, tuple(warnings))
-    tab = build_slot_table(site, constraints, requests, eph, jd, closed, moon_illum)
-    state = DispatchState(site, requests, tab, window_start_jd, covered_bins or {})
+    tab = build_slot_table(site, constraints, requests, eph, jd, closed, moon_illum, seeing)
+    state = DispatchState(site, requests, tab, window_start_jd, covered_bins or {}, seeing, moon_illum)
     for v in fixed:
         state.occupy(v)
         state.fixed_ids.add(id(v))
     start = window_start_jd if not_before_jd is None else max(window_start_jd, not_before_jd)
+    bound, body_min = _bound(site, state, fixed, start)
+    state.set_prices(bound.price_per_min, bound.occupancy, body_min / 60.0)
     dispatch(state, start, fixed)
+    fill_gaps(state, start)
+    improve(state, start)
     fill_gaps(state, start)
     visits = sorted(state.visits, key=lambda v: v.start_jd)
     planned_new = [v for v in visits if v not in fixed]
@@ -124,7 +132,42 @@ def plan_night(
     value = float(sum(state.value_of.get(id(v), 0.0) for v in planned_new))
     gaps = _gaps(window_start_jd, window_end_jd, visits, closed)
     return NightPlan(night, constraints, window_start_jd, window_end_jd, tuple(visits), gaps, tuple(unplanned),
-                     closed, seeing, moon_illum, value, METHOD, tuple(warnings))
+                     closed, seeing, moon_illum, value, METHOD, tuple(warnings), bound.value, bound.method)
+
+
+def _bound(site, state: DispatchState, fixed, start_jd: float):
+    """The relaxation's bound (:mod:`planner.scheduling.bound`) on the new visits' value, and
+    each request's shortest body (s)."""
+    tab = state.tab
+    step = SLOT_MIN / 1440.0
+    a, b = tab.jd[:-1], tab.jd[1:]
+    free = np.clip((b - np.maximum(a, start_jd)) / step, 0.0, 1.0)
+    for v in fixed:  # time a fixed visit takes is not free
+        free -= np.clip((np.minimum(b, v.end_jd) - np.maximum(a, v.start_jd)) / step, 0.0, 1.0)
+    free = np.clip(free, 0.0, 1.0)
+    body = np.where(tab.ok, tab.body_s, np.inf)
+    body_min = np.min(body, axis=1)
+    body_max = np.max(np.where(np.isfinite(body), body, 0.0), axis=1)
+    longest_setup = float(setup_s(site, 180.0, True))
+    scale = state.prio * state.shutter_h
+    v_point = np.where(tab.ok, scale[:, None] * tab.eff, 0.0)
+    body_min = np.where(np.isfinite(body_min), body_min, 0.0)
+    # Every visit but the night's first slews from another target (or repeats its own):
+    # its shortest setup joins its shortest time; the first visit's missing setup is paid
+    # for by ``first`` (the value of the share of a visit that setup would be).
+    sep = angular_separation_deg(state.ra[:, None], state.dec[:, None], state.ra[None, :], state.dec[None, :])
+    sep = np.where(np.eye(len(sep), dtype=bool), np.where(state.remaining > 1, 0.0, np.inf)[:, None], sep)
+    if len(sep) > 1 or (state.remaining > 1).any():
+        least_setup = np.min(np.where(np.isfinite(sep), setup_s(site, np.where(np.isfinite(sep), sep, 0.0),
+                                                                  False), np.inf), axis=0)
+    else:
+        least_setup = np.zeros(len(sep))
+    least_setup = np.where(np.isfinite(least_setup), least_setup, 0.0)
+    shortest = body_min + least_setup
+    first = float(np.max(np.where(shortest > 0, scale * least_setup / np.maximum(shortest, 1e-9), 0.0)))
+    b = night_bound(v_point, tab.ok, free, state.remaining.astype(float), shortest / 60.0,
+                    (body_max + longest_setup) / 60.0, SLOT_MIN)
+    return replace(b, value=b.value + first), body_min
 
 
 def _number(visits: list[Visit], offset: int = 0) -> list[Visit]:
