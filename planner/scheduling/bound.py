@@ -19,8 +19,11 @@ let ``y[r, k]`` be the minutes of slot k that request r occupies.  Maximise
   holds;
 
 with ``c[r, k] = U[r, k] / b_r`` and ``U[r, k]`` the largest value a visit of r
-can have with its middle within the longest duration D_r of r (body plus the
-longest setup) of slot k, i.e. of any visit that touches slot k.
+can have with its middle within ``h_r`` of slot k, where ``h_r`` = half the
+longest body of r + the longest setup (slew across the sky, settle, a filter
+change) + one slot: every instant of a visit lies that close to the middle of
+its science (the middle is at most half the body from its end, and at most half
+the body plus the setup from its start), so U covers every visit touching slot k.
 
 Why it is an upper bound
 ------------------------
@@ -33,7 +36,7 @@ at most n_r visits of r: the second row.  A visit covers only slots where its
 constraints hold: the third.  So the plan maps to a feasible y.  Its objective
 there is, per visit, ``∫ (b_r / D) · U/b_r dτ = mean of U over the visit ≥
 value(visit)``, because every slot the visit touches has U at least the
-visit's value (its middle lies within D of every instant of it; phase gain ≤ 1).
+visit's value (its middle lies within h_r of every instant of it; phase gain ≤ 1).
 Hence LP optimum ≥ objective of every plan, including the optimal one.
 Spacing between repeats, slews and the visits' discreteness are what the
 relaxation drops; the gap to the plan measures what they, and the planner's
@@ -73,13 +76,13 @@ def window_max(v: np.ndarray, half_width: int) -> np.ndarray:
     return maximum_filter1d(v, size=2 * half_width + 1, axis=-1, mode="constant", cval=0.0)
 
 
-def night_bound(v_point, ok_point, free, count, body_min_min, longest_min, slot_min=1.0) -> Bound:
+def night_bound(v_point, ok_point, free, count, body_min_min, reach_min, slot_min=1.0) -> Bound:
     """Solve the relaxation.
 
     ``v_point`` (R, T): value of a visit with its middle at grid point i (0 where
     unusable); ``ok_point`` (R, T): constraints hold at the point; ``free`` (T-1,):
     free fraction of each 1-minute interval; ``count`` (R,) visits wanted;
-    ``body_min_min``/``longest_min`` (R,) shortest body and longest visit, minutes.
+    ``body_min_min`` (R,) shortest time a visit takes, ``reach_min`` (R,) h_r, minutes.
     """
     from scipy.optimize import linprog
     from scipy.sparse import coo_matrix
@@ -90,7 +93,7 @@ def night_bound(v_point, ok_point, free, count, body_min_min, longest_min, slot_
         return Bound(0.0, METHOD, np.zeros(max(n_int, 0)), np.zeros((n_req, max(n_int, 0))))
     u_int = np.zeros((n_req, n_int))
     for r in range(n_req):
-        w = int(np.ceil(longest_min[r] / slot_min)) + 1
+        w = int(np.ceil(reach_min[r] / slot_min)) + 1
         u = window_max(v_point[r], w)
         u_int[r] = np.maximum(u[:-1], u[1:])
     ok_int = ok_point[:, :-1] & ok_point[:, 1:]

@@ -273,7 +273,10 @@ def dispatch(state: DispatchState, t: float, fixed) -> None:
             if free_now or (state.patient[r] & feas).all():
                 t = max(state.tab.jd[0] + (int(state.slot(t)) + 1) * step, t + 1e-3 * step)
                 continue
-            go = feas
+            # priced time: the visit that loses least against its own best later start goes
+            k = int(r[int(np.argmax(np.where(feas, now - later, -np.inf)))])
+            t = state.place(k, t, ra, dec, filt).end_jd
+            continue
         urgency = 1.0 + lookahead / np.maximum(state.tab.left[r, i], 1.0)
         score = np.where(go, state.value(r, mid) * urgency / (d * 1440.0), -np.inf)
         k = int(r[int(np.argmax(score))])

@@ -166,7 +166,7 @@ def _bound(site, state: DispatchState, fixed, start_jd: float):
     shortest = body_min + least_setup
     first = float(np.max(np.where(shortest > 0, scale * least_setup / np.maximum(shortest, 1e-9), 0.0)))
     b = night_bound(v_point, tab.ok, free, state.remaining.astype(float), shortest / 60.0,
-                    (body_max + longest_setup) / 60.0, SLOT_MIN)
+                    (0.5 * body_max + longest_setup) / 60.0, SLOT_MIN)
     return replace(b, value=b.value + first), body_min
 
 
