@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from planner.scheduling.slot_table import SLOT_MIN, SlotTable
+from planner.scheduling.slot_table import SLOT_MIN, SlotTable, next_bad_slot
 from planner.scheduling.quality import snr_planned
 from planner.scheduling.visits import Exposure, Visit, setup_s, shutter_s
 from planner.sky.visibility import angular_separation_deg
@@ -49,6 +49,8 @@ class DispatchState:
         self.best_later = np.full((len(requests), len(tab.jd) + 1), -np.inf)
         self.cum_occ = np.zeros((len(requests), len(tab.jd)))  # the relaxed optimum's minutes, cumulative
         self.body_min = np.ones(len(requests))
+        self.next_event = np.zeros((len(requests), len(tab.jd) + 1), dtype=int)
+        self.next_startable = self.next_event
         self.prio = np.array([q.priority for q in requests], dtype=float)
         self.first_filter = np.array([q.exposures[0].filter for q in requests], dtype=object)
         self.last_filter = np.array([q.exposures[-1].filter for q in requests], dtype=object)
@@ -156,8 +158,24 @@ class DispatchState:
         b, _ = self.body_at(r, sci)
         end = sci + b / _DAY_S
         net = self.value(r, sci + 0.5 * b / _DAY_S, phase=False) - self.price(sci, end)
-        net = np.where(self.holds(r, sci, end), net, -np.inf)
+        startable = self.holds(r, sci, end)
+        net = np.where(startable, net, -np.inf)
         self.best_later[:, :-1] = np.maximum.accumulate(net[:, ::-1], axis=1)[:, ::-1]
+        # Slots where a request might stop waiting (its best remaining start, the relaxed
+        # optimum's time for it, or its patience running out): the dispatch, idle, jumps
+        # from one such slot to the next instead of stepping minute by minute.
+        scale = (self.prio * self.shutter_h)[:, None]
+        event = net + WAIT_GAIN * scale >= self.best_later[:, 1:]
+        # the relaxed optimum's pick looks a visit's length ahead (and a slot either side)
+        ahead = int(np.ceil(np.max(np.where(startable, b, 0.0)) / 60.0 / SLOT_MIN)) + 2
+        idx = np.arange(len(jd))
+        occ_ahead = self.cum_occ[:, np.minimum(idx + ahead, len(jd) - 1)] - self.cum_occ[:, np.maximum(idx - 1, 0)]
+        event |= occ_ahead > 0
+        patient_ok = self.tab.airmass <= PATIENCE_AIRMASS * self.tab.best_after[:, :-1]
+        event |= self.patient[:, None] & patient_ok
+        priced = np.append(price_per_min > 0, False)[None, :]  # the regret rule may start something
+        self.next_event = next_bad_slot(~(event & startable | priced & startable))  # first at or after i
+        self.next_startable = next_bad_slot(~startable)
 
     def place(self, r, start, ra, dec, filt) -> Visit:
         su, slew = self.setup(np.array([r]), ra, dec, filt)
@@ -246,10 +264,12 @@ def dispatch(state: DispatchState, t: float, fixed) -> None:
         limit = _next_start(state, t)  # a fixed visit later on bounds this one
         feas = state.holds(r, t, t + d) & (t + d <= min(limit, end) + 1e-9)
         mid = t + su / _DAY_S + 0.5 * body / _DAY_S
-        feas &= state.spaced(r, mid)
-        if not feas.any():
-            t = max(state.tab.jd[0] + (int(state.slot(t)) + 1) * step, t + 1e-3 * step)
+        spaced = state.spaced(r, mid)
+        held = feas.copy()
+        if not (feas & spaced).any():
+            t = _look_again(state, t, r, held, spaced, mid, None)
             continue
+        feas &= spaced
         i = min(max(int(state.slot(t)), 0), state.tab.left.shape[1] - 1)
         # The relaxed optimum's choice: the request it gives most of this time (a little late is fine).
         share = np.where(feas, state.occupancy(r, t - LP_LAG_MIN / 1440.0, t + d), 0.0)
@@ -271,7 +291,7 @@ def dispatch(state: DispatchState, t: float, fixed) -> None:
         if not go.any():
             free_now = state.price(t, t + step) <= 1e-12
             if free_now or (state.patient[r] & feas).all():
-                t = max(state.tab.jd[0] + (int(state.slot(t)) + 1) * step, t + 1e-3 * step)
+                t = _look_again(state, t, r, held, spaced, mid, feas)
                 continue
             # priced time: the visit that loses least against its own best later start goes
             k = int(r[int(np.argmax(np.where(feas, now - later, -np.inf)))])
@@ -284,11 +304,58 @@ def dispatch(state: DispatchState, t: float, fixed) -> None:
         t = v.end_jd
 
 
+def _skip(state: DispatchState, t: float, r, events) -> float:
+    """The next moment worth a look while nothing starts: a slot on, or one slot before the
+    next of ``events`` (first slot at or after i where a request of r becomes startable, or
+    might stop waiting: :meth:`DispatchState.set_prices`), whichever is later; never past a
+    placed visit's start, where the telescope's position changes."""
+    step = SLOT_MIN / 1440.0
+    i = int(state.slot(t))
+    one = max(state.tab.jd[0] + (i + 1) * step, t + 1e-3 * step)
+    n = state.next_event.shape[1] - 1
+    nxt = int(np.min(events[r, min(max(i + 1, 0), n)])) - 1
+    jump = state.tab.jd[0] + nxt * step if nxt > i + 1 else one
+    return float(min(max(one, jump), _next_start(state, t)))
+
+
+def _look_again(state: DispatchState, t: float, r, held, spaced, mid, waiting) -> float:
+    """When nothing starts at t: the next moment something might — a request not holding
+    now becomes startable, one held but too close to its own visits is spaced again, or one
+    ``waiting`` reaches an event (:meth:`DispatchState.set_prices`); at least a slot on."""
+    end = state.tab.jd[-1]
+    out = _skip(state, t, r[~held], state.next_startable) if (~held).any() else end
+    if (held & ~spaced).any():
+        out = min(out, _spaced_again(state, t, r[held & ~spaced], mid[held & ~spaced]))
+    if waiting is not None and waiting.any():
+        out = min(out, _skip(state, t, r[waiting], state.next_event))
+    return max(out, min(t + 1e-3 * SLOT_MIN / 1440.0, end))
+
+
+def _spaced_again(state: DispatchState, t: float, r, mid) -> float:
+    """Earliest start at which one of requests r (feasible now, too close to a visit of its
+    own) could be spaced from its visits before: at least a slot on."""
+    step = SLOT_MIN / 1440.0
+    one = max(state.tab.jd[0] + (int(state.slot(t)) + 1) * step, t + 1e-3 * step)
+    best = np.inf
+    for k, m in zip(r, mid):
+        before = [x for x in state.times[k] if x <= m + state.spacing_d[k]]
+        if before:
+            best = min(best, t + max(before) + state.spacing_d[k] - m)
+    return float(min(max(one, best), _next_start(state, t))) if np.isfinite(best) else one
+
+
 def fill_gaps(state: DispatchState, t_min: float) -> None:
-    """Local search: insert what still wants time into the idle gaps, best value first."""
+    """Local search: insert what still wants time into the idle gaps, best value first.
+
+    Each gap's best candidate is kept between insertions: placing request r only
+    lowers r's own worth elsewhere (fewer wanted, phases covered, spacing), so only
+    the gaps whose best was r, and the two pieces of the gap it went into, are
+    searched again."""
+    cache: dict[tuple[float, float], tuple | None] = {}
     while state.remaining.any():
         best = None
         visits = sorted(state.visits, key=lambda v: v.start_jd)
+        live = {}
         for g0 in [t_min] + [v.end_jd for v in visits if v.end_jd > t_min]:
             if _busy_until(state, g0) is not None:
                 continue
@@ -297,12 +364,15 @@ def fill_gaps(state: DispatchState, t_min: float) -> None:
             g1 = nxt.start_jd if nxt is not None else state.tab.jd[-1]
             if g1 - g0 < 2 * SLOT_MIN / 1440.0:
                 continue
-            cand = _best_in_gap(state, g0, g1, prev, nxt)
+            key = (g0, g1)
+            cand = cache[key] if key in cache else _best_in_gap(state, g0, g1, prev, nxt)
+            live[key] = cand
             if cand is not None and (best is None or cand[0] > best[0]):
                 best = cand
         if best is None:
             return
         _, r, start, prev, nxt = best
+        cache = {k: c for k, c in live.items() if c is None or c[1] != r}
         ra, dec, filt = (None, None, None) if prev is None else (prev.ra_deg, prev.dec_deg, prev.exposures[-1].filter)
         v = state.place(r, start, ra, dec, filt)
         if nxt is not None and id(nxt) not in state.fixed_ids:
