@@ -401,9 +401,14 @@ def _best_in_gap(state: DispatchState, g0, g1, prev, nxt):
             fits &= state.holds(np.full(len(r), k[0])[:, None], new_start[:, None], nxt.end_jd)
         else:
             fits &= ends <= nxt.start_jd + 1e-9
+    mids = 0.5 * (sci + ends)
+    for j in np.flatnonzero((state.spacing_d[r] > 0) & fits.any(axis=1)):  # repeats keep their spacing
+        placed = np.array(state.times[r[j]])
+        if placed.size:
+            near = np.min(np.abs(mids[j][:, None] - placed[None, :]), axis=1)
+            fits[j] &= near >= state.spacing_d[r[j]] - 1e-9
     if not fits.any():
         return None
-    mids = 0.5 * (sci + ends)
     # each request at its most valuable start in the gap (the earliest of equals)
     val = np.where(fits, state.value(np.broadcast_to(r[:, None], mids.shape), mids, phase=False), -np.inf)
     first = np.argmax(val, axis=1)
