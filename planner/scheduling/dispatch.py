@@ -1,4 +1,4 @@
-"""The night planner's search: value-rate dispatch with look-ahead, then gap filling.
+"""The night planner's search: relaxation-guided forward dispatch, gap filling, local search.
 
 Works on a :class:`~planner.scheduling.slot_table.SlotTable` through a
 :class:`DispatchState` (what is placed, where the telescope points, what is
@@ -340,7 +340,8 @@ def _spaced_again(state: DispatchState, t: float, r, mid) -> float:
     for k, m in zip(r, mid):
         before = [x for x in state.times[k] if x <= m + state.spacing_d[k]]
         if before:
-            best = min(best, t + max(before) + state.spacing_d[k] - m)
+            # a hundredth of a second past the spacing, so that rounding never leaves it short
+            best = min(best, t + max(before) + state.spacing_d[k] - m + 1e-7)
     return float(min(max(one, best), _next_start(state, t))) if np.isfinite(best) else one
 
 

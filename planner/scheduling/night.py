@@ -1,39 +1,62 @@
-"""One night's timed plan: value-rate dispatch with a closing-window look-ahead, then local search.
+"""One night's timed plan: a relaxation-guided forward dispatch, then local search, with a bound.
+
+The objective
+-------------
+A plan's value is the sum over its new visits of
+
+    priority × shutter hours × efficiency × phase gain,
+
+the efficiency (:mod:`planner.scheduling.quality`) being the S/N-equivalent
+worth of the visit's time where it is placed — extinction 10^(−0.8 k ΔX),
+seeing ∝ X^0.6 (so (X_best/X)^1.2) and the sky's brightness under the Moon
+(Krisciunas & Schaefer 1991) — relative to the best the target reaches
+tonight, taken at the visit's middle; the phase gain (variables) is the share
+of new phase bins it covers.  Time is the constraint: a visit at a poor
+airmass is worth less, and the time it takes is time another visit cannot
+have.  Every plan carries an upper bound on this value over all plans of the
+same requests and constraints (:mod:`planner.scheduling.bound`), and its gap
+to it.
 
 The method, and why
 -------------------
 The night is cut into one-minute slots.  Every constraint of every request is
-evaluated on all requests × slots at once: one :func:`~planner.visibility.sky_at`
-call for the night's distinct targets, with the Sun, the Moon and the sidereal
-time computed once (:func:`~planner.visibility.time_track`).  From the
-resulting pass/fail table, ``next_bad[r, i]`` — the first failing slot at or
-after ``i`` — makes "does visit r hold over [t, t + d]?" one array lookup.
+evaluated on all requests × slots at once (:mod:`planner.scheduling.slot_table`:
+one :func:`~planner.sky.visibility.sky_at` call, the Sun, the Moon and the
+sidereal time computed once); ``next_bad[r, i]`` — the first failing slot at
+or after ``i`` — makes "does visit r hold over [t, t + d]?" one array lookup.
+Frames of requests with an S/N goal are sized at every slot at once.
 
-1. **Dispatch.**  Time moves forward from the start of the usable window; at
-   each decision every waiting request is scored in one vector operation:
-   value (priority × shutter hours × an airmass factor × the phase coverage it
-   would gain) per second of telescope time including its slew, settle and
-   filter change from where the telescope is now, times a *look-ahead* urgency
-   ``1 + H / (feasible start minutes it has left)`` that lifts targets whose
-   window is closing (H = :data:`~planner.scheduling.dispatch.LOOKAHEAD_MIN`).  The best feasible request
-   starts now; if none is feasible, time moves on a slot.
-2. **Local search.**  The idle gaps the dispatch leaves (a target set, the
-   next not yet risen) are offered to every request still wanting time; the
-   most valuable one that fits — including the slew into it and the changed
-   slew out of it to the next visit — is inserted, until nothing more fits.
+1. **The relaxation.**  The bound's LP (requests share each 5-minute slot's
+   minutes; HiGHS, milliseconds) is solved first.  Its optimum says which
+   request should use which part of the night, its duals what each minute is
+   worth to the others.
+2. **Dispatch.**  Time moves forward.  At each free moment the request the
+   relaxed optimum gives most of the coming visit's span starts (a little late
+   is fine: real visits slew).  Otherwise each feasible request compares its
+   value now, net of the time's price, with the best it can still get later
+   tonight (:data:`~planner.scheduling.dispatch.WAIT_GAIN`): one that is
+   clearly better later waits.  If all would wait and the time is free (price
+   0, nothing else needs it), the telescope waits for the next moment anything
+   changes; on priced time the visit that loses least by going now goes.
+   With time to spare, then, a visit sits at its best airmass; on a full night
+   the relaxation trades each visit's airmass against the others' time.
+3. **Local search.**  Idle gaps are offered to every request still wanting
+   time, each at its most valuable start inside the gap, including the slew
+   into it and the changed slew out of it; then each single visit is taken
+   out in turn and the most valuable visit that fits its place put back
+   (itself moved, or a request left out), and the gaps are filled again.
 
-Why not an integer programme over the slots (scipy's ``milp``)?  Overheads
-depend on the order (slews), which a time-indexed model can only carry with
-order variables per pair of visits and slot: for 60 targets and 500 slots
-that is far past a second of HiGHS time, and the plan must be ready again in
-a fraction of a second when the weather turns.  Dispatch costs
-O(visits × requests) with each step a vector operation, is deterministic (ties
-go to the first request), and the local search takes back most of what
-greediness leaves idle.
+Why not solve the whole night as an integer programme?  Overheads depend on
+the order (slews), which a time-indexed model can only carry with order
+variables per pair of visits and slot: for 60 targets and 600 slots that is
+far past a second of HiGHS time, and the plan must be ready again in a
+fraction of a second when the weather turns.  The relaxation without slews is
+a small transportation LP, it bounds every plan, and its solution is close to
+a plan; the dispatch turns it into one with real slews and whole visits.  All
+steps are deterministic (ties go to the first request).
 
-The slot table is :mod:`planner.scheduling.slot_table`, the dispatch and the
-local search :mod:`planner.scheduling.dispatch`, the plan's data classes
-:mod:`planner.scheduling.night_plan`.
+The dispatch and the local search are :mod:`planner.scheduling.dispatch`, the
+plan's data classes :mod:`planner.scheduling.night_plan`.
 
 Constraints hold over each visit's whole duration, from the start of its
 slew to its last readout, on the slot grid with a small safety margin
@@ -58,7 +81,8 @@ from planner.scheduling.visits import Visit, VisitRequest, setup_s
 from planner.sky.ephemeris import Ephemeris, moon_phase
 from planner.sky.visibility import angular_separation_deg
 
-METHOD = "value-rate dispatch with closing-window look-ahead, then gap-filling local search (1-minute slots)"
+METHOD = ("forward dispatch guided by the LP relaxation's time shares and prices (waits while a later start "
+          "is clearly better), then gap filling and remove-and-reinsert local search (1-minute slots)")
 
 
 def plan_night(
