@@ -70,10 +70,11 @@ class Bound:
 
 
 def window_max(v: np.ndarray, half_width: int) -> np.ndarray:
-    """Running maximum of each row over ±``half_width`` points."""
-    from scipy.ndimage import maximum_filter1d
+    """Running maximum of a row over ±``half_width`` points (0 beyond its ends)."""
+    from numpy.lib.stride_tricks import sliding_window_view
 
-    return maximum_filter1d(v, size=2 * half_width + 1, axis=-1, mode="constant", cval=0.0)
+    padded = np.pad(v, (half_width, half_width), constant_values=0.0)
+    return sliding_window_view(padded, 2 * half_width + 1).max(axis=-1)
 
 
 def night_bound(v_point, ok_point, free, count, body_min_min, reach_min, slot_min=1.0) -> Bound:
