@@ -186,3 +186,17 @@ def test_a_night_with_nothing_observable_has_a_zero_bound():
     never = VisitRequest("n", "north", 0.0, 85.0, "visit", (Exposure("V", 1, 60.0),))
     plan = _plan_requests([never])
     assert plan.visits == () and plan.bound_value == 0.0 and plan.gap_fraction == 0.0
+
+
+def test_the_bound_holds_with_fixed_visits_and_a_late_start():
+    """Re-planning: visits already made stay, nothing starts before "now"; the bound is on
+    the new visits and still holds."""
+    c, requests = _benchmark_night()
+    requests = requests[:25]
+    first = _plan_requests(requests, constraints=c)
+    fixed = tuple(replace(v, status="done") for v in first.visits[:4])
+    now = fixed[-1].end_jd + 0.02
+    again = _plan_requests(requests, constraints=c, fixed=fixed, not_before_jd=now)
+    assert validate_plan(SITE, again, requests) == []
+    assert all(v.start_jd >= now - 1e-9 for v in again.visits if v not in fixed)
+    assert again.value <= again.bound_value * (1 + 1e-9)

@@ -13,8 +13,10 @@ let ``y[r, k]`` be the minutes of slot k that request r occupies.  Maximise
 * ``Σ_r y[r, k] ≤ free_k`` — the slot's minutes not taken by fixed visits,
   closed or before ``not_before``;
 * ``Σ_k y[r, k] ≤ n_r b_r`` — n_r visits still wanted, ``b_r`` the shortest
-  body a visit of r can have (acquisition and frames, no slew: sized requests
-  take the least over the night);
+  time a visit of r can take: its shortest body (acquisition and frames; sized
+  requests take the least over the night) plus its shortest setup from any
+  possible predecessor (another request, itself when it repeats, a fixed
+  visit; slew and settle, no filter change);
 * ``0 ≤ y[r, k] ≤ ok_rk`` — the minutes of slot k where every constraint of r
   holds;
 
@@ -29,7 +31,11 @@ Why it is an upper bound
 ------------------------
 Take any plan that obeys the constraints.  Give each of its new visits, of
 length D ≥ b_r from slew start to last readout, the occupancy density
-``b_r / D`` over its own interval.  The visits do not overlap and lie in free
+``b_r / D`` over its own interval.  (Only the night's first visit may start
+with no slew, parked; give it density 1, i.e. D ≤ b_r minutes: what the LP then
+counts of it falls short of its value by at most ``value × (1 − D/b_r) ≤
+priority × shutter hours × (shortest setup / b_r)``, which the caller adds to
+the LP's optimum, taking the largest over the requests.)  The visits do not overlap and lie in free
 time, so the densities of all visits sum to at most 1 at every instant: the
 slot totals satisfy the first row.  Each visit contributes exactly b_r minutes,
 at most n_r visits of r: the second row.  A visit covers only slots where its

@@ -179,14 +179,15 @@ def _bound(site, state: DispatchState, fixed, start_jd: float):
     # Every visit but the night's first slews from another target (or repeats its own):
     # its shortest setup joins its shortest time; the first visit's missing setup is paid
     # for by ``first`` (the value of the share of a visit that setup would be).
-    sep = angular_separation_deg(state.ra[:, None], state.dec[:, None], state.ra[None, :], state.dec[None, :])
-    sep = np.where(np.eye(len(sep), dtype=bool), np.where(state.remaining > 1, 0.0, np.inf)[:, None], sep)
-    if len(sep) > 1 or (state.remaining > 1).any():
-        least_setup = np.min(np.where(np.isfinite(sep), setup_s(site, np.where(np.isfinite(sep), sep, 0.0),
-                                                                  False), np.inf), axis=0)
-    else:
-        least_setup = np.zeros(len(sep))
-    least_setup = np.where(np.isfinite(least_setup), least_setup, 0.0)
+    # Predecessors: the other requests, the request itself when it repeats, the fixed visits.
+    ra = np.concatenate([state.ra, [v.ra_deg for v in fixed]])
+    dec = np.concatenate([state.dec, [v.dec_deg for v in fixed]])
+    sep = angular_separation_deg(ra[:, None], dec[:, None], state.ra[None, :], state.dec[None, :])
+    n = len(state.ra)
+    sep[np.arange(n), np.arange(n)] = np.where(state.remaining > 1, 0.0, np.inf)
+    cost = np.where(np.isfinite(sep), setup_s(site, np.where(np.isfinite(sep), sep, 0.0), False), np.inf)
+    least_setup = np.min(cost, axis=0) if len(cost) else np.zeros(n)
+    least_setup = np.where(np.isfinite(least_setup), least_setup, 0.0)  # a lone request: no predecessor
     shortest = body_min + least_setup
     first = float(np.max(np.where(shortest > 0, scale * least_setup / np.maximum(shortest, 1e-9), 0.0)))
     b = night_bound(v_point, tab.ok, free, state.remaining.astype(float), shortest / 60.0,
