@@ -60,13 +60,13 @@ def raw_efficiency(site, filter_name, airmass, moon_illum, moon_sep, moon_alt):
 
 def efficiency_table(site, requests, airmass, moon_sep, moon_alt, moon_illum, ok):
     """(R, T) efficiency of each request at each slot, 1 at its best usable slot tonight, 0 where unusable."""
+    filters = list(dict.fromkeys(e.filter for q in requests for e in q.exposures))
+    per_filter = {f: raw_efficiency(site, f, airmass, moon_illum, moon_sep, moon_alt[None, :]) for f in filters}
     out = np.zeros(airmass.shape)
     for r, q in enumerate(requests):
         shutter = np.array([e.frames * e.exposure_s for e in q.exposures], dtype=float)
         weights = shutter / shutter.sum() if shutter.sum() > 0 else np.full(len(shutter), 1.0 / len(shutter))
-        row = np.zeros(airmass.shape[1])
-        for e, w in zip(q.exposures, weights):
-            row += w * raw_efficiency(site, e.filter, airmass[r], moon_illum, moon_sep[r], moon_alt)
+        row = sum(w * per_filter[e.filter][r] for e, w in zip(q.exposures, weights))
         row = np.where(ok[r], row, 0.0)
         best = row.max() if row.size else 0.0
         out[r] = row / best if best > 0 else 0.0
