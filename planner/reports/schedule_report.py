@@ -33,6 +33,8 @@ def visit_json(v) -> dict:
         "duration_s": round(v.duration_s, 1),
         "shutter_s": round(v.shutter_s, 2),
         "priority": v.priority,
+        "best_airmass": rounded(v.best_airmass, 3),
+        "snr_planned": None if v.snr_planned is None else round(float(v.snr_planned), 1),
         "status": v.status,
         "status_source": v.status_source,
         "notes": list(v.notes),
@@ -57,10 +59,30 @@ def schedule_json(site, plan) -> dict:
         "seeing_arcsec": plan.seeing_arcsec,
         "moon_illumination": round(plan.moon_illumination, 3),
         "value": round(plan.value, 4),
+        "mean_airmass": rounded(plan.mean_airmass, 3),
+        "bound": bound_json(plan),
         "method": plan.method,
         "warnings": list(plan.warnings),
         "caution": PLAN_CAUTION,
     }
+
+
+def bound_json(plan) -> dict | None:
+    """The upper bound on the plan's value (planner.scheduling.bound) and the share it misses."""
+    if not np.isfinite(plan.bound_value):
+        return None
+    return {"value": round(plan.bound_value, 4), "gap_fraction": round(plan.gap_fraction, 4),
+            "method": plan.bound_method}
+
+
+def bound_line(plan) -> str | None:
+    """One line for the night sheet: how close the plan comes to the best any plan could do."""
+    if not np.isfinite(plan.bound_value) or plan.bound_value <= 0:
+        return None
+    x = f", mean airmass {plan.mean_airmass:.2f}" if np.isfinite(plan.mean_airmass) else ""
+    return (f"plan reaches {100 * (1 - plan.gap_fraction):.1f} % of the most any plan of these visits "
+            f"could ({plan.value:.3g} of {plan.bound_value:.3g} priority × shutter hours at each target's "
+            f"best sky; LP bound){x}")
 
 
 # ----------------------------------------------------------------- ECSV
@@ -117,6 +139,9 @@ def night_sheet(site, plan) -> str:
     lines.append(f"  {len(plan.visits)} visits, shutter open {plan.shutter_s / 60:.1f} min (efficiency "
                  f"{plan.efficiency * 100:.1f} %), idle {plan.idle_minutes:.0f} min"
                  + (f", closed {plan.closed_minutes:.0f} min" if plan.closed_minutes else ""))
+    line = bound_line(plan)
+    if line:
+        lines.extend(textwrap.wrap(line, 78, initial_indent="  ", subsequent_indent="    "))
     lines.append("")
     # The visit column is the id without the night (what `replan --done` takes); it says
     # what the visit is for (var, tipI, hbV, toV...), so no purpose column is needed.

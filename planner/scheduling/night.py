@@ -1,39 +1,62 @@
-"""One night's timed plan: value-rate dispatch with a closing-window look-ahead, then local search.
+"""One night's timed plan: a relaxation-guided forward dispatch, then local search, with a bound.
+
+The objective
+-------------
+A plan's value is the sum over its new visits of
+
+    priority × shutter hours × efficiency × phase gain,
+
+the efficiency (:mod:`planner.scheduling.quality`) being the S/N-equivalent
+worth of the visit's time where it is placed — extinction 10^(−0.8 k ΔX),
+seeing ∝ X^0.6 (so (X_best/X)^1.2) and the sky's brightness under the Moon
+(Krisciunas & Schaefer 1991) — relative to the best the target reaches
+tonight, taken at the visit's middle; the phase gain (variables) is the share
+of new phase bins it covers.  Time is the constraint: a visit at a poor
+airmass is worth less, and the time it takes is time another visit cannot
+have.  Every plan carries an upper bound on this value over all plans of the
+same requests and constraints (:mod:`planner.scheduling.bound`), and its gap
+to it.
 
 The method, and why
 -------------------
 The night is cut into one-minute slots.  Every constraint of every request is
-evaluated on all requests × slots at once: one :func:`~planner.visibility.sky_at`
-call for the night's distinct targets, with the Sun, the Moon and the sidereal
-time computed once (:func:`~planner.visibility.time_track`).  From the
-resulting pass/fail table, ``next_bad[r, i]`` — the first failing slot at or
-after ``i`` — makes "does visit r hold over [t, t + d]?" one array lookup.
+evaluated on all requests × slots at once (:mod:`planner.scheduling.slot_table`:
+one :func:`~planner.sky.visibility.sky_at` call, the Sun, the Moon and the
+sidereal time computed once); ``next_bad[r, i]`` — the first failing slot at
+or after ``i`` — makes "does visit r hold over [t, t + d]?" one array lookup.
+Frames of requests with an S/N goal are sized at every slot at once.
 
-1. **Dispatch.**  Time moves forward from the start of the usable window; at
-   each decision every waiting request is scored in one vector operation:
-   value (priority × shutter hours × an airmass factor × the phase coverage it
-   would gain) per second of telescope time including its slew, settle and
-   filter change from where the telescope is now, times a *look-ahead* urgency
-   ``1 + H / (feasible start minutes it has left)`` that lifts targets whose
-   window is closing (H = :data:`~planner.scheduling.dispatch.LOOKAHEAD_MIN`).  The best feasible request
-   starts now; if none is feasible, time moves on a slot.
-2. **Local search.**  The idle gaps the dispatch leaves (a target set, the
-   next not yet risen) are offered to every request still wanting time; the
-   most valuable one that fits — including the slew into it and the changed
-   slew out of it to the next visit — is inserted, until nothing more fits.
+1. **The relaxation.**  The bound's LP (requests share each 5-minute slot's
+   minutes; HiGHS, milliseconds) is solved first.  Its optimum says which
+   request should use which part of the night, its duals what each minute is
+   worth to the others.
+2. **Dispatch.**  Time moves forward.  At each free moment the request the
+   relaxed optimum gives most of the coming visit's span starts (a little late
+   is fine: real visits slew).  Otherwise each feasible request compares its
+   value now, net of the time's price, with the best it can still get later
+   tonight (:data:`~planner.scheduling.dispatch.WAIT_GAIN`): one that is
+   clearly better later waits.  If all would wait and the time is free (price
+   0, nothing else needs it), the telescope waits for the next moment anything
+   changes; on priced time the visit that loses least by going now goes.
+   With time to spare, then, a visit sits at its best airmass; on a full night
+   the relaxation trades each visit's airmass against the others' time.
+3. **Local search.**  Idle gaps are offered to every request still wanting
+   time, each at its most valuable start inside the gap, including the slew
+   into it and the changed slew out of it; then each single visit is taken
+   out in turn and the most valuable visit that fits its place put back
+   (itself moved, or a request left out), and the gaps are filled again.
 
-Why not an integer programme over the slots (scipy's ``milp``)?  Overheads
-depend on the order (slews), which a time-indexed model can only carry with
-order variables per pair of visits and slot: for 60 targets and 500 slots
-that is far past a second of HiGHS time, and the plan must be ready again in
-a fraction of a second when the weather turns.  Dispatch costs
-O(visits × requests) with each step a vector operation, is deterministic (ties
-go to the first request), and the local search takes back most of what
-greediness leaves idle.
+Why not solve the whole night as an integer programme?  Overheads depend on
+the order (slews), which a time-indexed model can only carry with order
+variables per pair of visits and slot: for 60 targets and 600 slots that is
+far past a second of HiGHS time, and the plan must be ready again in a
+fraction of a second when the weather turns.  The relaxation without slews is
+a small transportation LP, it bounds every plan, and its solution is close to
+a plan; the dispatch turns it into one with real slews and whole visits.  All
+steps are deterministic (ties go to the first request).
 
-The slot table is :mod:`planner.scheduling.slot_table`, the dispatch and the
-local search :mod:`planner.scheduling.dispatch`, the plan's data classes
-:mod:`planner.scheduling.night_plan`.
+The dispatch and the local search are :mod:`planner.scheduling.dispatch`, the
+plan's data classes :mod:`planner.scheduling.night_plan`.
 
 Constraints hold over each visit's whole duration, from the start of its
 slew to its last readout, on the slot grid with a small safety margin
@@ -45,16 +68,21 @@ from __future__ import annotations
 
 import datetime as dt
 
+from dataclasses import replace
+
 import numpy as np
 
 from planner.model.constraints import Constraints
-from planner.scheduling.dispatch import DispatchState, dispatch, fill_gaps
+from planner.scheduling.bound import night_bound
+from planner.scheduling.dispatch import DispatchState, dispatch, fill_gaps, improve
 from planner.scheduling.night_plan import Gap, NightPlan, Unplanned
 from planner.scheduling.slot_table import SLOT_MIN, build_slot_table
-from planner.scheduling.visits import Visit, VisitRequest
+from planner.scheduling.visits import Visit, VisitRequest, setup_s
 from planner.sky.ephemeris import Ephemeris, moon_phase
+from planner.sky.visibility import angular_separation_deg
 
-METHOD = "value-rate dispatch with closing-window look-ahead, then gap-filling local search (1-minute slots)"
+METHOD = ("forward dispatch guided by the LP relaxation's time shares and prices (waits while a later start "
+          "is clearly better), then gap filling and remove-and-reinsert local search (1-minute slots)")
 
 
 def plan_night(
@@ -102,13 +130,17 @@ def plan_night(
         gaps = _gaps(window_start_jd, window_end_jd, list(fixed), closed)
         return NightPlan(night, constraints, window_start_jd, window_end_jd, tuple(fixed), gaps, tuple(unplanned),
                          closed, seeing, moon_illum, 0.0, METHOD, tuple(warnings))
-    tab = build_slot_table(site, constraints, requests, eph, jd, closed, moon_illum)
-    state = DispatchState(site, requests, tab, window_start_jd, covered_bins or {})
+    tab = build_slot_table(site, constraints, requests, eph, jd, closed, moon_illum, seeing)
+    state = DispatchState(site, requests, tab, window_start_jd, covered_bins or {}, seeing, moon_illum)
     for v in fixed:
         state.occupy(v)
         state.fixed_ids.add(id(v))
     start = window_start_jd if not_before_jd is None else max(window_start_jd, not_before_jd)
+    bound, body_min = _bound(site, state, fixed, start)
+    state.set_prices(bound.price_per_min, bound.occupancy, body_min / 60.0)
     dispatch(state, start, fixed)
+    fill_gaps(state, start)
+    improve(state, start)
     fill_gaps(state, start)
     visits = sorted(state.visits, key=lambda v: v.start_jd)
     planned_new = [v for v in visits if v not in fixed]
@@ -124,7 +156,43 @@ def plan_night(
     value = float(sum(state.value_of.get(id(v), 0.0) for v in planned_new))
     gaps = _gaps(window_start_jd, window_end_jd, visits, closed)
     return NightPlan(night, constraints, window_start_jd, window_end_jd, tuple(visits), gaps, tuple(unplanned),
-                     closed, seeing, moon_illum, value, METHOD, tuple(warnings))
+                     closed, seeing, moon_illum, value, METHOD, tuple(warnings), bound.value, bound.method)
+
+
+def _bound(site, state: DispatchState, fixed, start_jd: float):
+    """The relaxation's bound (:mod:`planner.scheduling.bound`) on the new visits' value, and
+    each request's shortest body (s)."""
+    tab = state.tab
+    step = SLOT_MIN / 1440.0
+    a, b = tab.jd[:-1], tab.jd[1:]
+    free = np.clip((b - np.maximum(a, start_jd)) / step, 0.0, 1.0)
+    for v in fixed:  # time a fixed visit takes is not free
+        free -= np.clip((np.minimum(b, v.end_jd) - np.maximum(a, v.start_jd)) / step, 0.0, 1.0)
+    free = np.clip(free, 0.0, 1.0)
+    body = np.where(tab.ok, tab.body_s, np.inf)
+    body_min = np.min(body, axis=1)
+    body_max = np.max(np.where(np.isfinite(body), body, 0.0), axis=1)
+    longest_setup = float(setup_s(site, 180.0, True))
+    scale = state.prio * state.shutter_h
+    v_point = np.where(tab.ok, scale[:, None] * tab.eff, 0.0)
+    body_min = np.where(np.isfinite(body_min), body_min, 0.0)
+    # Every visit but the night's first slews from another target (or repeats its own):
+    # its shortest setup joins its shortest time; the first visit's missing setup is paid
+    # for by ``first`` (the value of the share of a visit that setup would be).
+    # Predecessors: the other requests, the request itself when it repeats, the fixed visits.
+    ra = np.concatenate([state.ra, [v.ra_deg for v in fixed]])
+    dec = np.concatenate([state.dec, [v.dec_deg for v in fixed]])
+    sep = angular_separation_deg(ra[:, None], dec[:, None], state.ra[None, :], state.dec[None, :])
+    n = len(state.ra)
+    sep[np.arange(n), np.arange(n)] = np.where(state.remaining > 1, 0.0, np.inf)
+    cost = np.where(np.isfinite(sep), setup_s(site, np.where(np.isfinite(sep), sep, 0.0), False), np.inf)
+    least_setup = np.min(cost, axis=0) if len(cost) else np.zeros(n)
+    least_setup = np.where(np.isfinite(least_setup), least_setup, 0.0)  # a lone request: no predecessor
+    shortest = body_min + least_setup
+    first = float(np.max(np.where(shortest > 0, scale * least_setup / np.maximum(shortest, 1e-9), 0.0)))
+    b = night_bound(v_point, tab.ok, free, state.remaining.astype(float), shortest / 60.0,
+                    (0.5 * body_max + longest_setup) / 60.0, SLOT_MIN)
+    return replace(b, value=b.value + first), body_min
 
 
 def _number(visits: list[Visit], offset: int = 0) -> list[Visit]:

@@ -53,6 +53,25 @@ class NightPlan:
     value: float
     method: str
     warnings: tuple[str, ...] = field(default_factory=tuple)
+    bound_value: float = float("nan")  # upper bound on ``value`` over every plan (planner.scheduling.bound)
+    bound_method: str = ""
+
+    @property
+    def gap_fraction(self) -> float:
+        """Share of the bound the plan does not reach (nan without a bound)."""
+        if not np.isfinite(self.bound_value):
+            return float("nan")
+        if self.bound_value <= 0:
+            return 0.0
+        return max(0.0, 1.0 - self.value / self.bound_value)
+
+    @property
+    def mean_airmass(self) -> float:
+        """Shutter-weighted mean airmass of the visits (at their middles); nan with none."""
+        w = np.array([v.shutter_s for v in self.visits])
+        x = np.array([v.airmass_mid for v in self.visits])
+        good = np.isfinite(x) & (w > 0)
+        return float(np.sum(w[good] * x[good]) / np.sum(w[good])) if good.any() else float("nan")
 
     @property
     def window_minutes(self) -> float:

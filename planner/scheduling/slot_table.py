@@ -14,6 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from planner.light.photometry import sky_brightness_mag_arcsec2
+from planner.scheduling.quality import efficiency_table, sized_frames
 from planner.scheduling.visits import body_s
 from planner.sky.airmass import altitude_for_airmass
 from planner.sky.almanac import MOONRISE_ALTITUDE_DEG, TWILIGHT_ALTITUDE_DEG
@@ -40,6 +41,11 @@ class SlotTable:
     best_airmass: np.ndarray  # (R,)
     left: np.ndarray  # (R, T+1) feasible start slots from i on
     best_after: np.ndarray  # (R, T+1) lowest airmass at a good slot from i on
+    moon_alt: np.ndarray  # (T,)
+    eff: np.ndarray  # (R, T) S/N-equivalent efficiency, 1 at the request's best usable slot
+    body_s: np.ndarray  # (R, T) visit time after the slew with its middle at the slot (sized there)
+    frames: np.ndarray  # (R, T) frames of a sized request's visit centred there (else its own)
+    frame_s: np.ndarray  # (R, T)
 
 
 def next_bad_slot(ok: np.ndarray) -> np.ndarray:
@@ -49,7 +55,7 @@ def next_bad_slot(ok: np.ndarray) -> np.ndarray:
     return np.concatenate([nb, np.full((r, 1), t)], axis=1)
 
 
-def build_slot_table(site, constraints, requests, eph, jd, closed, moon_illum) -> SlotTable:
+def build_slot_table(site, constraints, requests, eph, jd, closed, moon_illum, seeing_arcsec=None) -> SlotTable:
     loc = site.location
     geo = site_geometry(loc.latitude_deg, loc.longitude_deg, loc.elevation_m)
     coords = list(dict.fromkeys((q.ra_deg, q.dec_deg) for q in requests))
@@ -101,4 +107,27 @@ def build_slot_table(site, constraints, requests, eph, jd, closed, moon_illum) -
     best = np.min(good_x, axis=1)
     best_after = np.concatenate([np.minimum.accumulate(good_x[:, ::-1], axis=1)[:, ::-1],
                                  np.full((len(requests), 1), np.inf)], axis=1)
-    return SlotTable(jd, ok, nb, airmass, sep, best, left, best_after)
+    moon_alt = grid.moon_altitude_deg
+    eff = efficiency_table(site, requests, airmass, sep, moon_alt, moon_illum, ok)
+    seeing = site.sky.typical_seeing_arcsec if seeing_arcsec is None else seeing_arcsec
+    body, frames, frame_s = _sizes(site, requests, airmass, sep, moon_alt, moon_illum, seeing)
+    return SlotTable(jd, ok, nb, airmass, sep, best, left, best_after, moon_alt, eff, body, frames, frame_s)
+
+
+def _sizes(site, requests, airmass, sep, moon_alt, moon_illum, seeing):
+    """Per slot: the body time, frames and frame time of each request's visit centred there."""
+    shape = airmass.shape
+    body = np.zeros(shape)
+    frames = np.zeros(shape, dtype=np.int64)
+    frame_s = np.zeros(shape)
+    cam, tel = site.camera, site.telescope
+    for r, q in enumerate(requests):
+        if q.sized:
+            n, f = sized_frames(site, q, airmass[r], sep[r], moon_alt, moon_illum, seeing)
+            frames[r], frame_s[r] = n, f
+            # out of reach (no frames): the visit can never be placed there
+            body[r] = np.where(n > 0, tel.acquisition_s + n * (f + cam.readout_s), np.inf)
+        else:
+            frames[r], frame_s[r] = q.exposures[0].frames, q.exposures[0].exposure_s
+            body[r] = body_s(site, q.exposures)
+    return body, frames, frame_s

@@ -52,6 +52,14 @@ class VisitRequest:
     ``phase_periods_d``/``phase_epochs_jd`` hold
     (period_d, epoch_jd) of the variables the visit measures, so the planner can
     value the phase coverage it gains.
+
+    ``snr_goal`` with ``magnitude`` (and optionally ``saturation_magnitude``, the
+    brightest star that must stay linear, and ``max_frame_s``) asks for "S/N
+    ``snr_goal`` at ``magnitude`` in the filter of its one exposure line": the
+    night planner then sizes the frames at the airmass, Moon and seeing of the
+    time it gives the visit, and ``exposures`` is only the starting guess.
+    Without ``snr_goal`` the frames are kept as given; ``magnitude`` alone lets
+    the plan report the S/N they reach where they are placed.
     """
 
     key: str  # unique within a night's requests
@@ -76,6 +84,15 @@ class VisitRequest:
     phase_bins: int = 20
     notes: tuple[str, ...] = ()
     patient: bool = False  # wait for the night's best airmass (deep frames) rather than go now
+    snr_goal: float | None = None
+    magnitude: float | None = None  # of the star the S/N is for, in the filter of the first exposure line
+    saturation_magnitude: float | None = None
+    max_frame_s: float | None = None
+
+    @property
+    def sized(self) -> bool:
+        """Frames sized by the night planner where it places the visit."""
+        return self.snr_goal is not None and self.magnitude is not None and len(self.exposures) == 1
 
 
 @dataclass(frozen=True)
@@ -102,6 +119,8 @@ class Visit:
     notes: tuple[str, ...] = field(default_factory=tuple)
     status: str = "planned"  # planned | done | partial | missed | unknown | under way (re-planning)
     status_source: str | None = None  # "logbook" | "observer" | "assumed" | None: who says so
+    best_airmass: float = float("nan")  # the least the target reaches in its usable window tonight
+    snr_planned: float | None = None  # S/N of its frames where planned (None: no magnitude known)
 
     @property
     def duration_s(self) -> float:

@@ -1,0 +1,202 @@
+"""Placement with a cost, the bound printed with every plan, and frames sized where planned.
+
+Independent references: astropy's full AltAz transform for the transit (the least
+airmass) of a target, and tests/helpers/validate.py for every plan.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import replace
+
+import numpy as np
+import pytest
+
+from planner.inputs.catalog import load_catalog
+from planner.inputs.sites import resolve_site
+from planner.inputs.targets import resolve_targets
+from planner.model.constraints import constraints_for_site
+from planner.scheduling import dispatch as dispatch_module
+from planner.scheduling.night import plan_night
+from planner.scheduling.night_sky import night_sky, requests_for_targets
+from planner.scheduling.visits import Exposure, VisitRequest
+
+from helpers.validate import validate_plan
+
+SITE = resolve_site("demo")
+NIGHT = dt.date(2027, 5, 12)
+
+
+def _plan_requests(requests, night=NIGHT, constraints=None, site=SITE, **kw):
+    c = constraints or constraints_for_site(site)
+    frame = night_sky(site, [night], c)
+    return plan_night(site, c, requests, night, float(frame.window_start_jd[0]), float(frame.window_end_jd[0]),
+                      frame.ephemeris, **kw)
+
+
+def _targets(names):
+    return resolve_targets(None, list(names), load_catalog())
+
+
+def _astropy_transit_jd(site, ra_deg, dec_deg, w0, w1):
+    """Time of the highest altitude inside [w0, w1] from astropy's AltAz, on a 1-minute grid."""
+    import astropy.units as u
+    from astropy.coordinates import AltAz, EarthLocation, SkyCoord
+    from astropy.time import Time
+
+    loc = site.location
+    where = EarthLocation.from_geodetic(loc.longitude_deg * u.deg, loc.latitude_deg * u.deg, loc.elevation_m * u.m)
+    jd = np.arange(w0, w1, 1.0 / 1440.0)
+    alt = SkyCoord(ra_deg * u.deg, dec_deg * u.deg).transform_to(
+        AltAz(obstime=Time(jd, format="jd"), location=where, pressure=0 * u.hPa)).alt.deg
+    return float(jd[int(np.argmax(alt))])
+
+
+def test_one_target_on_an_empty_night_goes_at_its_transit():
+    site = resolve_site("37.0,-3.0,2000", timezone="Europe/Madrid")
+    night = dt.date(2027, 5, 6)
+    t = _targets(["M 10"])[0]
+    requests = requests_for_targets([t], (Exposure("V", 1, 60.0),))
+    plan = _plan_requests(requests, night=night, site=site)
+    assert validate_plan(site, plan, requests) == []
+    (v,) = plan.visits
+    transit = _astropy_transit_jd(site, t.ra_deg, t.dec_deg, plan.window_start_jd, plan.window_end_jd)
+    assert plan.window_start_jd + 0.05 < transit < plan.window_end_jd - 0.05  # an interior best moment
+    mid = 0.5 * (v.science_start_jd + v.end_jd)
+    assert abs(mid - transit) * 1440 < 5.0
+    assert v.airmass_mid <= v.best_airmass * 1.005
+    assert plan.gap_fraction < 0.01
+
+
+def _eight():
+    targets = resolve_targets("all", [], load_catalog())
+    rng = np.random.default_rng(8)
+    pick = sorted(rng.choice(len(targets), 8, replace=False))
+    return [replace(targets[i], priority=float(1 + k % 3)) for k, i in enumerate(pick)]
+
+
+def test_eight_targets_sit_near_their_best_airmass(monkeypatch):
+    targets = _eight()
+    requests = requests_for_targets(targets, (Exposure("V", 2, 120.0),))
+    plan = _plan_requests(requests)
+    assert validate_plan(SITE, plan, requests) == []
+    assert len(plan.visits) == len(requests)  # the night has time to spare
+    for v in plan.visits:
+        assert v.airmass_mid <= 1.10 * v.best_airmass, v
+    # The dispatch without its look at later opportunities (never waits, ignores the relaxation):
+    monkeypatch.setattr(dispatch_module, "WAIT_GAIN", 1e9)
+    monkeypatch.setattr(dispatch_module, "LP_SHARE_MIN", 1e9)
+    eager = _plan_requests(requests)
+    assert plan.mean_airmass < eager.mean_airmass - 0.02
+    assert plan.value > eager.value
+
+
+@pytest.mark.parametrize("seed", range(10))
+def test_the_bound_holds_on_random_nights(seed):
+    rng = np.random.default_rng(1000 + seed)
+    night = dt.date(2027, 1, 1) + dt.timedelta(days=int(rng.integers(0, 365)))
+    n = int(rng.integers(3, 30))
+    ra = rng.uniform(0, 360, n)
+    dec = np.degrees(np.arcsin(rng.uniform(-1, np.sin(np.radians(30)), n)))
+    requests = []
+    for i in range(n):
+        exp = (Exposure("V", int(rng.integers(1, 4)), float(rng.choice([30.0, 120.0, 600.0]))),)
+        if rng.random() < 0.3:
+            exp += (Exposure("I", 1, 60.0),)
+        count = int(rng.integers(1, 4)) if rng.random() < 0.3 else 1
+        requests.append(VisitRequest(f"T{i}", f"T{i}", float(ra[i]), float(dec[i]), "visit", exp,
+                                     float(rng.integers(1, 4)), count=count,
+                                     min_spacing_min=30.0 if count > 1 else 0.0))
+    plan = _plan_requests(requests, night=night)
+    assert validate_plan(SITE, plan, requests) == []
+    assert np.isfinite(plan.bound_value)
+    assert plan.value <= plan.bound_value * (1 + 1e-9) + 1e-12
+
+
+def _benchmark_night():
+    """The benchmark's night: the 60 catalogue clusters with the most observable hours."""
+    from planner.sky.night_summary import run_of_nights
+
+    c = constraints_for_site(SITE, max_airmass=2.0)
+    everything = resolve_targets("all", [], load_catalog())
+    run = run_of_nights(SITE, everything, [NIGHT], c)
+    order = np.argsort(-run.visibility.observable_hours[:, 0], kind="stable")[:60]
+    targets = [replace(everything[i], priority=float(1 + k % 3)) for k, i in enumerate(sorted(order))]
+    return c, requests_for_targets(targets, (Exposure("V", 2, 300.0),))
+
+
+def test_sixty_target_night_within_five_percent_of_its_bound():
+    c, requests = _benchmark_night()
+    plan = _plan_requests(requests, constraints=c)
+    assert validate_plan(SITE, plan, requests) == []
+    assert plan.value <= plan.bound_value
+    assert plan.gap_fraction <= 0.05
+
+
+def _sized(name, **kw):
+    t = _targets([name])[0]
+    return VisitRequest("deep", t.name, t.ra_deg, t.dec_deg, "turnoff", (Exposure("V", 1, 60.0),),
+                        snr_goal=50.0, magnitude=19.5, saturation_magnitude=14.0, **kw)
+
+
+def test_a_visit_moved_to_a_worse_airmass_gets_longer_frames():
+    free = _plan_requests([_sized("NGC 6752")])
+    (best,) = free.visits
+    # the same visit made to end three hours before that, the target lower in the sky
+    early = best.start_jd - 3.0 / 24.0
+    late = _plan_requests([_sized("NGC 6752", latest_jd=early)])
+    (low,) = late.visits
+    assert low.airmass_mid > best.airmass_mid + 0.1
+    assert low.shutter_s > best.shutter_s
+    for v in (best, low):  # sized for the goal where it is planned
+        assert v.snr_planned == pytest.approx(50.0, rel=0.15) and v.snr_planned >= 50.0 * 0.99
+    assert low.end_jd <= early
+    assert validate_plan(SITE, late, [_sized("NGC 6752", latest_jd=early)]) == []
+
+
+def test_fixed_frames_keep_their_frames_and_report_snr_only_with_a_magnitude():
+    t = _targets(["NGC 6752"])[0]
+    bare = VisitRequest("a", t.name, t.ra_deg, t.dec_deg, "visit", (Exposure("V", 2, 300.0),))
+    known = replace(bare, key="b", magnitude=18.0)
+    plan = _plan_requests([bare, known])
+    by_key = {v.request_key: v for v in plan.visits}
+    assert by_key["a"].exposures == bare.exposures and by_key["b"].exposures == bare.exposures
+    assert by_key["a"].snr_planned is None
+    assert by_key["b"].snr_planned > 0
+
+
+def test_schedule_json_carries_the_new_fields():
+    from planner.reports.schedule_report import night_sheet, schedule_json
+
+    requests = requests_for_targets(_eight(), (Exposure("V", 1, 60.0),))
+    plan = _plan_requests(requests)
+    out = schedule_json(SITE, plan)
+    w = np.array([v.shutter_s for v in plan.visits])
+    x = np.array([v.airmass_mid for v in plan.visits])
+    assert out["mean_airmass"] == pytest.approx(np.sum(w * x) / np.sum(w), abs=1e-3)
+    assert set(out["bound"]) == {"value", "gap_fraction", "method"}
+    assert out["bound"]["value"] >= out["value"]
+    assert all(v["best_airmass"] <= v["airmass_start"] + 1e-3 for v in out["visits"])
+    assert all("snr_planned" in v for v in out["visits"])
+    assert "% of the most any plan" in night_sheet(SITE, plan)
+
+
+def test_a_night_with_nothing_observable_has_a_zero_bound():
+    """A request never observable tonight leaves the bound at zero and the plan empty."""
+    never = VisitRequest("n", "north", 0.0, 85.0, "visit", (Exposure("V", 1, 60.0),))
+    plan = _plan_requests([never])
+    assert plan.visits == () and plan.bound_value == 0.0 and plan.gap_fraction == 0.0
+
+
+def test_the_bound_holds_with_fixed_visits_and_a_late_start():
+    """Re-planning: visits already made stay, nothing starts before "now"; the bound is on
+    the new visits and still holds."""
+    c, requests = _benchmark_night()
+    requests = requests[:25]
+    first = _plan_requests(requests, constraints=c)
+    fixed = tuple(replace(v, status="done") for v in first.visits[:4])
+    now = fixed[-1].end_jd + 0.02
+    again = _plan_requests(requests, constraints=c, fixed=fixed, not_before_jd=now)
+    assert validate_plan(SITE, again, requests) == []
+    assert all(v.start_jd >= now - 1e-9 for v in again.visits if v not in fixed)
+    assert again.value <= again.bound_value * (1 + 1e-9)
