@@ -1,20 +1,31 @@
-"""A campaign over its nights: which clusters each night, when the deep frames go, the cadence.
+"""A campaign over its nights: which clusters each night, when the deep frames go, the cadence,
+and what the time the goals leave is used for.
 
-Each night is planned by :func:`planner.scheduling.night.plan_night` from
-requests made for that night:
+Each night is planned by :func:`planner.scheduling.night.plan_night` in two passes:
 
-* **depth goals** (S/N at a science level in a filter, ``visits`` times over
-  the campaign): frames from the exposure core (:func:`planner.exposure.exposure_for_level`
-  at the planned seeing, the Moon down, airmass :data:`EXPOSURE_AIRMASS`);
-  tip frames ask for dark time, low airmass and typical-or-better seeing when
-  the goal says so.  A goal still open gets more weight as the nights where it
-  could be met run out (``1 + visits left / dark nights left``), so goals are
-  spread over the nights that suit them rather than crammed into the first;
-* **the variable-star cadence**: per cluster with variables, ``visits_per_night``
-  visits at least ``min_spacing_min`` apart, each valued by the phase bins it
-  adds to what earlier nights covered (carried from night to night).
+1. **the goals.**  *Depth goals* (S/N at a science level in a filter, ``visits`` times
+   over the campaign; frames from :func:`planner.exposure.exposure_for_level` at the
+   planned seeing, the Moon down, airmass :data:`EXPOSURE_AIRMASS`) are shared out
+   over the nights before each night is planned
+   (:func:`~planner.scheduling.campaign_nights.assign_depth`): every visit still owed
+   goes to the night that suits it best — the lowest airmass its target reaches
+   inside the goal's limits, the darkest sky — so goals wanting dark time land on dark
+   nights and the work is spread rather than crammed into the first night.  The
+   *variable-star cadence*: per cluster with variables, ``visits_per_night`` visits
+   spread over the cluster's usable hours (the spacing is widened from
+   ``min_spacing_min`` to cover most of them), each valued by the phase bins it adds
+   to what earlier nights covered (carried from night to night);
+2. **spare time** (the campaign's ``fill``): more cadence epochs at the minimum
+   spacing and more visits of the depth goals whose limits hold tonight, placed
+   around the goals' visits, which stay where pass 1 put them.  Their request keys
+   end in :data:`FILL_SUFFIX` and their visits say so in a note, so the observer
+   knows what is required and what is extra.
 
-The forecast then puts every planned variable visit through
+Every idle stretch then gets its reason (``nothing observable``, ``goals met``,
+``closed``: :func:`~planner.scheduling.campaign_nights.gaps_with_reasons`).  A goal
+no night of the campaign can hold is an error naming the goal.
+
+The forecast then puts every planned variable visit (extra ones too) through
 :func:`planner.variables.phase_coverage` and :func:`planner.recovery.simulate_recovery`
 (light curves simulated at the planned times, noise from the exposure core through
 :func:`planner.variables.recovery.visit_noise_mag`, as ``gcplan recover``).
@@ -362,6 +373,14 @@ def _plan_one_night(campaign, k, frame, tonight, exposures, depth, goal_nights, 
                           covered_bins=bins, id_offset=len(plan.visits))
         visits = reconcile(site, more.visits, is_fill)
         value += more.value
+        if len(visits) < len(more.visits):  # a dropped spare-time visit left a hole: offer it again
+            placed = {q.key: sum(1 for v in visits if v.request_key == q.key) for q in extra}
+            again = [replace(q, count=q.count - placed[q.key]) for q in extra if q.count > placed[q.key]]
+            if again:
+                more = plan_night(site, constraints, again, night, w0, w1, eph, seeing_arcsec=seeing,
+                                  fixed=tuple(visits), covered_bins=bins, id_offset=len(visits))
+                visits = reconcile(site, more.visits, is_fill)
+                value += more.value
         _update_coverage(covered, requests, [v for v in visits if is_fill(v)])
     visits = [replace(v, id=f"{night:%m%d}-{n + 1:02d}") for n, v in enumerate(sorted(visits, key=lambda v: v.start_jd))]
     gaps = plan.gaps
