@@ -101,6 +101,7 @@ def test_campaign_text_fits_80_columns(capsys):
     code, out, _ = run(capsys, "campaign", "--campaign", DEMO)
     assert code == 0 and "forecast" in out and "Caution" in out
     assert all(len(line) <= 80 for line in out.splitlines())
+    assert "h usable; the goals take" in out and "spare" in out  # how much of the time is spare
 
 
 def test_campaign_json_contract(capsys, tmp_path):
@@ -415,6 +416,12 @@ def test_unknown_fill_is_a_one_line_error(capsys, tmp_path):
     assert str(p) in err and "fill" in err and "everything" in err and "cadence-and-depth" in err
 
 
-def test_campaign_text_says_how_much_time_is_spare(capsys):
-    code, out, _ = run(capsys, "campaign", "--campaign", DEMO)
-    assert code == 0 and "h usable; the goals take" in out and "spare" in out
+def test_one_night_is_the_night_of_the_whole_campaign(demo_plan):
+    """`schedule --campaign --date` plans the campaign up to that night with the same
+    sharing-out of the goals over all its nights, so it gives the night `campaign` gives."""
+    from planner.scheduling.campaign import plan_campaign_night
+
+    campaign, plan = demo_plan
+    night, _ = plan_campaign_night(campaign, campaign.nights[1])
+    assert [(v.id, v.request_key, round(v.start_jd, 6)) for v in night.visits] == \
+        [(v.id, v.request_key, round(v.start_jd, 6)) for v in plan.nights[1].visits]

@@ -57,7 +57,8 @@ from planner.scheduling.campaign_nights import (
 from planner.scheduling.night import plan_night
 from planner.scheduling.night_plan import NightPlan
 from planner.scheduling.night_sky import night_sky
-from planner.scheduling.visits import Exposure, VisitRequest, body_s, shutter_s
+from planner.scheduling.visits import Exposure, VisitRequest, body_s, setup_s, shutter_s
+from planner.sky.visibility import angular_separation_deg
 
 #: Airmass at which goal exposures are computed: the middle of a typical visit (from memory).
 EXPOSURE_AIRMASS = 1.2
@@ -164,15 +165,21 @@ def is_fill(visit) -> bool:
     return getattr(visit, "request_key", getattr(visit, "key", "")).endswith(FILL_SUFFIX)
 
 
-def _depth_request(campaign, i, name, exposures, count, *, fill=False):
+def _depth_request(campaign, i, name, exposures, count: int, *, fill=False):
+    """``count`` visits of a depth goal; as spare-time work (``fill``) one frame of the goal's
+    length a visit: single frames fit between the cadence visits, and each deepens the
+    stack as much as a frame of the goal's own visit."""
     g = campaign.goals[i]
     t = next(t for t in campaign.targets if t.name == name)
+    exps = exposures[(i, name)]
+    if fill:
+        exps = (replace(exps[0], frames=1),)
     return VisitRequest(
         key=f"{name}/{g.level}-{g.filter}" + (FILL_SUFFIX if fill else ""), target=name, ra_deg=t.ra_deg,
-        dec_deg=t.dec_deg, purpose=g.level, exposures=exposures[(i, name)], priority=t.priority * g.priority,
+        dec_deg=t.dec_deg, purpose=g.level, exposures=exps, priority=t.priority * g.priority,
         count=count, max_airmass=g.max_airmass, dark=g.dark, max_seeing_arcsec=g.max_seeing_arcsec, patient=True,
-        notes=(f"S/N {g.snr:g} at the {g.level} level",) + (("dark time",) if g.dark else ())
-        + ((FILL_NOTE,) if fill else ()))
+        notes=(f"S/N {g.snr:g} at the {g.level} level" if not fill else f"one more {g.level} frame",)
+        + (("dark time",) if g.dark else ()) + ((FILL_NOTE,) if fill else ()))
 
 
 def _cadence_request(campaign, name, stars, exposures, count, spacing_min, *, fill=False):
@@ -209,14 +216,15 @@ def fill_requests(campaign: Campaign, exposures: dict, k: int, goal_nights: dict
     """Spare-time work for night ``k`` (as the campaign's ``fill`` says): more cadence
     epochs of each cluster, at the campaign's minimum spacing, as many as its usable
     hours hold; more visits of every depth goal whose limits hold long enough tonight,
-    as many as its stretch holds.  The night planner takes them by value: priority ×
+    as many as its stretch holds, one frame each.  The night planner takes them by value: priority ×
     light collected for deep frames, and cadence epochs valued per minute of
     telescope time as a deep frame of the same priority."""
     out = []
     if campaign.fill in ("cadence-and-depth", "depth"):
         for (i, name), g in goal_nights.items():
             if fits(g)[k]:
-                out.append(_depth_request(campaign, i, name, exposures, int(g.run_min[k] // g.need_min), fill=True))
+                q = _depth_request(campaign, i, name, exposures, 1, fill=True)
+                out.append(replace(q, count=int(g.run_min[k] // visit_minutes(campaign.site, q.exposures))))
     c = campaign.cadence
     if c is not None and tonight is not None and campaign.fill in ("cadence-and-depth", "cadence"):
         row = {t.name: r for r, t in enumerate(campaign.targets)}
@@ -369,24 +377,29 @@ def _plan_one_night(campaign, k, frame, tonight, exposures, depth, goal_nights, 
     if extra and tonight is not None:
         bins = {q.key: covered[q.key[:-len(FILL_SUFFIX)]].copy() for q in extra
                 if q.key[:-len(FILL_SUFFIX)] in covered}
-        more = plan_night(site, constraints, extra, night, w0, w1, eph, seeing_arcsec=seeing, fixed=plan.visits,
+        # The goals' visits, held fixed, reserve the longest slew between campaign targets
+        # before their science start: whatever spare-time visit comes to precede one, its
+        # real slew (set by reconcile) fits.
+        pad = float(setup_s(site, _widest_slew_deg(campaign.targets), True)) / 86400.0
+        held = tuple(replace(v, start_jd=min(v.start_jd, v.science_start_jd - pad)) for v in plan.visits)
+        more = plan_night(site, constraints, extra, night, w0, w1, eph, seeing_arcsec=seeing, fixed=held,
                           covered_bins=bins, id_offset=len(plan.visits))
-        visits = reconcile(site, more.visits, is_fill)
+        own = {v.id: v for v in plan.visits}
+        visits = reconcile(site, [own.get(v.id, v) for v in more.visits], is_fill)
         value += more.value
-        if len(visits) < len(more.visits):  # a dropped spare-time visit left a hole: offer it again
-            placed = {q.key: sum(1 for v in visits if v.request_key == q.key) for q in extra}
-            again = [replace(q, count=q.count - placed[q.key]) for q in extra if q.count > placed[q.key]]
-            if again:
-                more = plan_night(site, constraints, again, night, w0, w1, eph, seeing_arcsec=seeing,
-                                  fixed=tuple(visits), covered_bins=bins, id_offset=len(visits))
-                visits = reconcile(site, more.visits, is_fill)
-                value += more.value
         _update_coverage(covered, requests, [v for v in visits if is_fill(v)])
     visits = [replace(v, id=f"{night:%m%d}-{n + 1:02d}") for n, v in enumerate(sorted(visits, key=lambda v: v.start_jd))]
     gaps = plan.gaps
     if tonight is not None:
         gaps = gaps_with_reasons(site, constraints, campaign.targets, eph, w0, w1, visits, plan.closed)
     return replace(plan, visits=tuple(visits), gaps=gaps, value=value), requests + extra
+
+
+def _widest_slew_deg(targets) -> float:
+    """The largest separation between two of the targets, degrees."""
+    ra = np.array([t.ra_deg for t in targets])
+    dec = np.array([t.dec_deg for t in targets])
+    return float(np.max(angular_separation_deg(ra[:, None], dec[:, None], ra[None, :], dec[None, :]), initial=0.0))
 
 
 def _update_coverage(covered, requests, visits):
