@@ -311,8 +311,7 @@ def test_demo_nights_are_used(demo_plan):
 
 def test_dark_goals_land_on_dark_nights(demo_plan):
     """Depth visits asking for dark time go where the Moon is down or at most 25 % lit
-    (the Moon's altitude from astropy), and on the darker half of the campaign's nights
-    when the Moon would be up."""
+    (the Moon's altitude from astropy), every one of them planned."""
     import astropy.units as u
     from astropy.coordinates import AltAz, EarthLocation, get_body
     from astropy.time import Time
