@@ -388,11 +388,17 @@ def _plan_one_night(campaign, k, frame, tonight, exposures, depth, goal_nights, 
         visits = reconcile(site, [own.get(v.id, v) for v in more.visits], is_fill)
         value += more.value
         _update_coverage(covered, requests, [v for v in visits if is_fill(v)])
-    visits = [replace(v, id=f"{night:%m%d}-{n + 1:02d}") for n, v in enumerate(sorted(visits, key=lambda v: v.start_jd))]
+    plan = _prefix_ids(replace(plan, visits=tuple(sorted(visits, key=lambda v: v.start_jd))), night)
+    visits = list(plan.visits)
     gaps = plan.gaps
     if tonight is not None:
         gaps = gaps_with_reasons(site, constraints, campaign.targets, eph, w0, w1, visits, plan.closed)
     return replace(plan, visits=tuple(visits), gaps=gaps, value=value), requests + extra
+
+
+def _prefix_ids(plan: NightPlan, night: dt.date) -> NightPlan:
+    """The night's visits numbered in time order, ``MMDD-nn`` (both passes' visits together)."""
+    return replace(plan, visits=tuple(replace(v, id=f"{night:%m%d}-{n + 1:02d}") for n, v in enumerate(plan.visits)))
 
 
 def _widest_slew_deg(targets) -> float:
