@@ -18,7 +18,7 @@ from planner.cli import main
 from planner.errors import InputError
 from planner.inputs.campaign_file import read_campaign_file
 from planner.inputs.resources import targets_dir
-from planner.scheduling.campaign import plan_campaign
+from planner.scheduling.campaign import is_fill, plan_campaign
 
 from helpers.validate import validate_plan
 
@@ -64,7 +64,7 @@ def test_tip_frames_dark_low_and_cadence_spaced(demo_plan):
     campaign, plan = demo_plan
     loc = campaign.site.location
     where = EarthLocation.from_geodetic(loc.longitude_deg * u.deg, loc.latitude_deg * u.deg, loc.elevation_m * u.m)
-    tips = [(p, v) for p in plan.nights for v in p.visits if v.purpose == "tip"]
+    tips = [(p, v) for p in plan.nights for v in p.visits if v.purpose == "tip" and not is_fill(v)]
     assert tips, "some tip frames are planned"
     for p, v in tips:
         assert v.airmass_start <= 1.5 + 1e-3 and v.airmass_end <= 1.5 + 1e-3
@@ -80,17 +80,16 @@ def test_tip_frames_dark_low_and_cadence_spaced(demo_plan):
                 assert len(mids) <= campaign.cadence.visits_per_night
                 if len(mids) > 1:
                     assert np.min(np.diff(sorted(mids))) * 1440 >= campaign.cadence.min_spacing_min - 1e-6
-    # each depth goal met once at most
+    # each depth goal met once at most (its extra visits are spare-time work)
     n_tip = {}
     for _, v in tips:
         n_tip[v.target] = n_tip.get(v.target, 0) + 1
     assert max(n_tip.values()) == 1
 
 
-def test_unreachable_goal_is_a_warning_and_forecast_is_there(demo_plan):
+def test_every_goal_met_and_forecast_is_there(demo_plan):
     _, plan = demo_plan
-    # NGC 104 (Dec −72°) never reaches airmass 1.5 in January's dark hours at −31°.
-    assert any("NGC 104" in w and "tip" in w for w in plan.warnings)
+    assert not any("visit(s) planned" in w for w in plan.warnings)
     clusters = {c["cluster"] for c in plan.coverage["clusters"]}
     assert clusters == {"NGC 104", "NGC 362", "NGC 1851", "NGC 2808", "NGC 3201"}
     assert 0 <= plan.recovery["recovered_fraction"] <= 1
@@ -102,6 +101,7 @@ def test_campaign_text_fits_80_columns(capsys):
     code, out, _ = run(capsys, "campaign", "--campaign", DEMO)
     assert code == 0 and "forecast" in out and "Caution" in out
     assert all(len(line) <= 80 for line in out.splitlines())
+    assert "h usable; the goals take" in out and "spare" in out  # how much of the time is spare
 
 
 def test_campaign_json_contract(capsys, tmp_path):
@@ -117,7 +117,9 @@ def test_campaign_json_contract(capsys, tmp_path):
     assert set(v) >= {"target", "ra_deg", "dec_deg", "start", "end", "purpose", "exposures", "airmass_start",
                       "airmass_end", "moon_separation_deg"}
     assert ISO_Z.match(v["start"]) and set(v["exposures"][0]) == {"filter", "frames", "exposure_s"}
-    assert "warning" in err
+    assert {"fill", "usable_hours", "required_hours", "spare_hours", "fill_hours"} <= set(data)
+    assert all(isinstance(v["fill"], bool) for n in data["nights"] for v in n["visits"])
+    assert all(set(g) == {"start", "end", "minutes", "reason"} for n in data["nights"] for g in n["gaps"])
 
 
 def test_schedule_campaign_form_text_ecsv_plot(capsys, tmp_path):
@@ -196,12 +198,20 @@ def test_missing_files_are_one_line_errors(capsys, tmp_path):
     assert code == 2 and "longer than the usable night" in err
 
 
-def test_unreachable_goal_warns_without_crashing(capsys, tmp_path):
-    p = _write(tmp_path, BASE + '[[goals]]\nlevel = "tip"\nfilter = "I"\nsnr = 100\nmax_airmass = 1.01\n'
+def test_a_goal_that_can_never_be_met_is_an_error(capsys, tmp_path):
+    # NGC 104 (Dec −72°) never climbs to airmass 1.01 from the demo site (latitude −31°):
+    # its least zenith distance is 41°.
+    p = _write(tmp_path, BASE + '[[goals]]\nlevel = "hb"\nfilter = "V"\nsnr = 50\n'
+               '[[goals]]\nlevel = "tip"\nfilter = "I"\nsnr = 100\nmax_airmass = 1.01\n'
                'targets = ["NGC 104"]\n')
     code, out, err = run(capsys, "campaign", "--campaign", p, "--json")
-    assert code == 0 and "gcplan: warning:" in err and "NGC 104" in err
-    assert json.loads(out)["warnings"]
+    assert code == 2 and out == "" and err.count("\n") == 1
+    assert str(p) in err and "[[goals]] #2" in err and "NGC 104" in err and "airmass ≤ 1.01" in err
+    # The same for the seeing: a limit better than the seeing the campaign plans for.
+    p = _write(tmp_path, BASE + 'seeing_arcsec = 1.4\n[[goals]]\nlevel = "hb"\nfilter = "V"\nsnr = 50\n'
+               'max_seeing_arcsec = 1.0\n')
+    code, out, err = run(capsys, "campaign", "--campaign", p)
+    assert code == 2 and "[[goals]] #1" in err and "max_seeing_arcsec" in err
 
 
 def test_recover_takes_visit_times_from_a_schedule(capsys, tmp_path):
@@ -260,3 +270,157 @@ def test_max_frame_s_out_of_range_is_a_file_error(tmp_path):
     with pytest.raises(InputError) as exc:
         read_campaign_file(bad)
     assert "max_frame_s" in str(exc.value) and "-5" in str(exc.value)
+
+
+# ----------------------------------------------------------------- full nights, spare time, gap reasons
+
+
+def _observable_anywhere(campaign, jd):
+    """Whether any campaign target is inside the campaign's constraints at the times ``jd``,
+    from the visibility kernels directly (apparent places of each time, not the planner's
+    one-place-a-night shortcut), the Sun below the twilight."""
+    from planner.sky.almanac import TWILIGHT_ALTITUDE_DEG
+    from planner.sky.ephemeris import build_ephemeris, site_geometry
+    from planner.sky.visibility import apparent_places, constraint_margin_deg, sky_grid
+
+    loc = campaign.site.location
+    geo = site_geometry(loc.latitude_deg, loc.longitude_deg, loc.elevation_m)
+    eph = build_ephemeris(float(jd.min()) - 0.1, float(jd.max()) + 0.1)
+    places = apparent_places([t.ra_deg for t in campaign.targets], [t.dec_deg for t in campaign.targets],
+                             float(jd.min()), float(jd.max()))
+    grid = sky_grid(eph, geo, places, jd)
+    c = campaign.constraints
+    ok = constraint_margin_deg(grid, c) >= 0
+    ok &= grid.sun_altitude_deg[None, :] <= TWILIGHT_ALTITUDE_DEG[c.twilight]
+    return ok.any(axis=0)
+
+
+def test_demo_nights_are_used(demo_plan):
+    """Every night's idle time, where targets are up, is under 15 % of its usable window,
+    and the goals' depth frames are spread over the fortnight, not all on its first night."""
+    _, plan = demo_plan
+    for p in plan.nights:
+        wanting = sum(g.minutes for g in p.gaps if g.reason == "goals met")
+        assert wanting < 0.15 * p.window_minutes, (p.night, wanting)
+        assert {g.reason for g in p.gaps} <= {"goals met", "nothing observable", "closed"}
+    deep_nights = {p.night for p in plan.nights for v in p.visits
+                   if v.purpose in ("tip", "hb", "turnoff") and not is_fill(v)}
+    assert len(deep_nights) >= 4
+    assert any(is_fill(v) for p in plan.nights[1:] for v in p.visits)
+
+
+def test_dark_goals_land_on_dark_nights(demo_plan):
+    """Depth visits asking for dark time go where the Moon is down or at most 25 % lit
+    (the Moon's altitude from astropy), every one of them planned."""
+    import astropy.units as u
+    from astropy.coordinates import AltAz, EarthLocation, get_body
+    from astropy.time import Time
+
+    campaign, plan = demo_plan
+    loc = campaign.site.location
+    where = EarthLocation.from_geodetic(loc.longitude_deg * u.deg, loc.latitude_deg * u.deg, loc.elevation_m * u.m)
+    dark_keys = {f"{name}/{g.level}-{g.filter}" for g in campaign.goals if g.dark for name in g.targets}
+    seen = 0
+    for p in plan.nights:
+        for v in p.visits:
+            if v.request_key not in dark_keys:
+                continue
+            seen += 1
+            t = Time([v.start_jd, v.end_jd], format="jd")
+            moon = get_body("moon", t, where).transform_to(AltAz(obstime=t, location=where))
+            assert p.moon_illumination <= 0.25 or np.all(moon.alt.deg < 0), (p.night, v.id)
+    assert seen >= len(dark_keys) - 1
+
+
+def test_cadence_is_spread_over_each_clusters_hours(demo_plan):
+    """A cluster's cadence visits of a night span most of the hours it is observable,
+    not the minimum spacing times the visits."""
+    campaign, plan = demo_plan
+    c = campaign.cadence
+    names = [t.name for t in campaign.targets]
+    for p in plan.nights:
+        jd = np.arange(p.window_start_jd, p.window_end_jd, 1 / 1440)
+        up = _observable_per_target(campaign, jd)
+        for name in {v.target for v in p.visits if v.purpose == "variables"}:
+            mids = sorted(0.5 * (v.science_start_jd + v.end_jd) for v in p.visits
+                          if v.target == name and v.request_key == f"{name}/variables")
+            hours = up[names.index(name)].sum() / 60.0
+            if len(mids) < 3 or hours < 3:
+                continue
+            span = (mids[-1] - mids[0]) * 24
+            assert span >= 0.6 * hours, (p.night, name, span, hours)
+            if hours * 60 > 2 * (c.visits_per_night - 1) * c.min_spacing_min:
+                assert span * 60 > 1.5 * (len(mids) - 1) * c.min_spacing_min
+
+
+def _observable_per_target(campaign, jd):
+    from planner.sky.ephemeris import build_ephemeris, site_geometry
+    from planner.sky.visibility import apparent_places, constraint_margin_deg, sky_grid
+
+    loc = campaign.site.location
+    geo = site_geometry(loc.latitude_deg, loc.longitude_deg, loc.elevation_m)
+    eph = build_ephemeris(float(jd.min()) - 0.1, float(jd.max()) + 0.1)
+    places = apparent_places([t.ra_deg for t in campaign.targets], [t.dec_deg for t in campaign.targets],
+                             float(jd.min()), float(jd.max()))
+    return constraint_margin_deg(sky_grid(eph, geo, places, jd), campaign.constraints) >= 0
+
+
+def test_gap_reasons_are_true(tmp_path):
+    """With a tight airmass limit the clusters are within it only near transit: the gaps
+    called "nothing observable" have no target within the constraints anywhere inside,
+    and those called "goals met" have one at some time."""
+    p = _write(tmp_path, BASE.replace("nights = 2", "nights = 1") + 'fill = "none"\n[constraints]\n'
+               'max_airmass = 1.15\n[[goals]]\nlevel = "hb"\nfilter = "V"\nsnr = 50\ntargets = ["NGC 1851", "NGC 3201"]\n')
+    campaign = read_campaign_file(p)
+    plan = plan_campaign(campaign, forecast=False)
+    reasons = {g.reason for n in plan.nights for g in n.gaps}
+    assert reasons == {"nothing observable", "goals met"}
+    for night in plan.nights:
+        for g in night.gaps:
+            inside = np.linspace(g.start_jd, g.end_jd, max(int(g.minutes * 4), 3))[1:-1]
+            up = _observable_anywhere(campaign, inside)
+            if g.reason == "nothing observable":
+                assert not up.any(), (night.night, g)
+            else:
+                assert up.any(), (night.night, g)
+
+
+def test_fill_none_leaves_the_spare_time_idle(capsys, tmp_path):
+    p = _write(tmp_path, BASE + 'fill = "none"\n[[goals]]\nlevel = "hb"\nfilter = "V"\nsnr = 50\n'
+               '[cadence]\nvisits_per_night = 4\n')
+    code, out, err = run(capsys, "campaign", "--campaign", p, "--json")
+    assert code == 0
+    data = json.loads(out)
+    assert data["fill"] == "none" and data["fill_hours"] == 0
+    assert not any(v["fill"] for n in data["nights"] for v in n["visits"])
+    met = [g for n in data["nights"] for g in n["gaps"] if g["reason"] == "goals met"]
+    assert met and sum(g["minutes"] for g in met) > 300
+    assert data["spare_hours"] == pytest.approx(data["usable_hours"] - data["required_hours"], abs=0.02)
+    assert 0 < data["required_hours"] < 0.25 * data["usable_hours"]
+    assert "left idle" in err and 'fill = "none"' in err
+    # The default fills the same nights with extra work, marked as such.
+    p.write_text(p.read_text().replace('fill = "none"\n', ""))
+    code, out, err = run(capsys, "campaign", "--campaign", p, "--json")
+    data = json.loads(out)
+    extra = [v for n in data["nights"] for v in n["visits"] if v["fill"]]
+    assert extra and data["fill_hours"] > 0.5 * data["spare_hours"]
+    assert {v["purpose"] for v in extra} >= {"variables", "hb"}
+    assert "extra" in err
+
+
+def test_unknown_fill_is_a_one_line_error(capsys, tmp_path):
+    p = _write(tmp_path, BASE + 'fill = "everything"\n')
+    code, out, err = run(capsys, "campaign", "--campaign", p)
+    assert code == 2 and out == "" and err.count("\n") == 1
+    assert str(p) in err and "fill" in err and "everything" in err and "cadence-and-depth" in err
+
+
+def test_one_night_is_the_night_of_the_whole_campaign(demo_plan):
+    """`schedule --campaign --date` plans the campaign up to that night with the same
+    sharing-out of the goals over all its nights, so it gives the night `campaign` gives."""
+    from planner.scheduling.campaign import plan_campaign_night
+
+    campaign, plan = demo_plan
+    night, _ = plan_campaign_night(campaign, campaign.nights[1])
+    assert [(v.id, v.request_key, round(v.start_jd, 6)) for v in night.visits] == \
+        [(v.id, v.request_key, round(v.start_jd, 6)) for v in plan.nights[1].visits]

@@ -12,7 +12,7 @@ import pytest
 from planner.cli import main
 from planner.inputs.campaign_file import read_campaign_file
 from planner.inputs.resources import targets_dir
-from planner.logbook.store import Logbook, NewEntry
+from planner.logbook.store import Logbook
 from planner.scheduling.campaign import plan_campaign, plan_through_night
 from planner.scheduling.replan import replan_night
 from planner.scheduling.visit_ids import assign_ids, same_visit_id, target_code

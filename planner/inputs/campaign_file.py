@@ -12,6 +12,9 @@ Schema (unknown keys are errors; paths are relative to the campaign file)::
     seeing_arcsec = 1.0          optional: the seeing planned for (default: the site's typical)
     max_frame_s = 600            optional: longest single frame of the depth goals (default: none
                                  but saturation; long frames collect cosmic rays and guiding drift)
+    fill = "cadence-and-depth"   optional: what the time the goals leave is used for: extra cadence
+                                 epochs and extra depth frames ("cadence-and-depth", the default),
+                                 "cadence", "depth", or "none" (left idle)
     [constraints]                optional: twilight, max_airmass, min_altitude_deg,
                                  min_moon_separation_deg (default: the site profile's)
     [[goals]]                    depth goals: level "tip" | "hb" | "turnoff"; filter; snr;
@@ -36,7 +39,7 @@ from planner.inputs.tomlcheck import Schema, Table, read_toml, show
 
 _KEYS = {
     "": ("name", "invented", "site", "targets", "variables", "first_night", "last_night", "nights",
-         "seeing_arcsec", "max_frame_s", "constraints", "goals", "cadence"),
+         "seeing_arcsec", "max_frame_s", "fill", "constraints", "goals", "cadence"),
     "constraints": ("twilight", "max_airmass", "min_altitude_deg", "min_moon_separation_deg"),
     "goal": ("level", "filter", "snr", "targets", "visits", "max_airmass", "dark", "max_seeing_arcsec",
              "priority"),
@@ -86,7 +89,7 @@ def read_campaign_file(path: str | Path):
     from planner.inputs.sites import resolve_site
     from planner.inputs.targets import resolve_targets
     from planner.inputs.variable_files import read_variables
-    from planner.model.campaign import Campaign
+    from planner.model.campaign import FILL_MODES, Campaign
 
     source = str(path)
     raw = read_toml(path, source, CampaignError, "campaign")
@@ -109,12 +112,13 @@ def read_campaign_file(path: str | Path):
     nights = _nights(top)
     seeing = top.number("seeing_arcsec", 0.1, 10, required=False)
     max_frame = top.number("max_frame_s", 1.0, 7200.0, required=False)
+    fill = top.string("fill", default=FILL_MODES[0], choices=FILL_MODES)
     constraints = _constraints(top, site)
     goals = _goals(top, source, site, targets)
     cadence = _cadence(raw, source, site, variables)
     return Campaign(name=name, source=source, site=site, targets=tuple(targets), variables=tuple(variables),
                     nights=nights, constraints=constraints, goals=tuple(goals), cadence=cadence,
-                    seeing_arcsec=seeing, invented=bool(invented), max_frame_s=max_frame)
+                    seeing_arcsec=seeing, invented=bool(invented), max_frame_s=max_frame, fill=fill)
 
 
 def _nights(top: Table) -> tuple[dt.date, ...]:

@@ -36,7 +36,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from planner.errors import InputError
-from planner.model.bands import BANDS, C_CM_S, DEFAULT_R_V, EXTINCTION_LAW, H_ERG_S, Band
+from planner.model.bands import BANDS, C_CM_S, DEFAULT_R_V, H_ERG_S, Band
 
 
 class UnknownFilterError(InputError):

@@ -12,6 +12,10 @@ from dataclasses import dataclass
 from planner.model.constraints import Constraints
 from planner.model.site import SiteProfile
 
+#: What a campaign does with the time its goals leave: more cadence epochs and
+#: depth frames (the default), only one of them, or nothing (left idle).
+FILL_MODES = ("cadence-and-depth", "cadence", "depth", "none")
+
 
 @dataclass(frozen=True)
 class DepthGoal:
@@ -51,3 +55,4 @@ class Campaign:
     seeing_arcsec: float | None = None
     invented: bool = False
     max_frame_s: float | None = None  # longest single frame of the depth goals (cosmic rays, guiding)
+    fill: str = FILL_MODES[0]  # one of FILL_MODES: the work that takes the time the goals leave

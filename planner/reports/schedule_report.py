@@ -8,6 +8,7 @@ import textwrap
 import numpy as np
 
 from planner.cautions import PLAN_CAUTION
+from planner.scheduling.campaign import FILL_SUFFIX
 from planner.reports.night_report import constraints_json, rounded, site_json, utc_offset_label
 from planner.sky.nights import iso_utc, local_hhmm, utc_hhmm
 
@@ -37,6 +38,7 @@ def visit_json(v) -> dict:
         "snr_planned": None if v.snr_planned is None else round(float(v.snr_planned), 1),
         "status": v.status,
         "status_source": v.status_source,
+        "fill": v.request_key.endswith(FILL_SUFFIX),  # spare-time work of a campaign, not its goals
         "notes": list(v.notes),
     }
 
@@ -92,7 +94,6 @@ def write_plan_ecsv(site, plan, path, option: str = "--out") -> None:
     from astropy.table import Table
 
     from planner.errors import OutputError
-    from planner.scheduling.replan import STATUS_SOURCE_WORDS
     from planner.scheduling.visits import exposures_text
 
     v = plan.visits
@@ -115,6 +116,11 @@ def write_plan_ecsv(site, plan, path, option: str = "--out") -> None:
 
 
 # ----------------------------------------------------------------- the night sheet
+
+#: How the night sheet names each gap reason (a campaign's gaps carry the last two).
+GAP_WORDS = {"closed": "closed (weather)", "idle": "idle: nothing observable fits",
+             "nothing observable": "idle: no target within the limits",
+             "goals met": "idle: targets up, nothing more wanted"}
 
 
 def night_sheet(site, plan) -> str:
@@ -151,7 +157,7 @@ def night_sheet(site, plan) -> str:
     events = [(v.start_jd, 0, v) for v in plan.visits] + [(g.start_jd, 1, g) for g in plan.gaps]
     for _, kind, item in sorted(events, key=lambda e: (e[0], e[1])):
         if kind == 1:
-            what = "closed (weather)" if item.reason == "closed" else "idle: nothing observable fits"
+            what = GAP_WORDS.get(item.reason, f"idle: {item.reason}")
             lines.append(f"  {'':<7} {local_hhmm(item.start_jd, zone):>5} {utc_hhmm(item.start_jd):>5} "
                          f"{local_hhmm(item.end_jd, zone):>5} — {what}, {item.minutes:.0f} min")
             continue

@@ -1,20 +1,31 @@
-"""A campaign over its nights: which clusters each night, when the deep frames go, the cadence.
+"""A campaign over its nights: which clusters each night, when the deep frames go, the cadence,
+and what the time the goals leave is used for.
 
-Each night is planned by :func:`planner.scheduling.night.plan_night` from
-requests made for that night:
+Each night is planned by :func:`planner.scheduling.night.plan_night` in two passes:
 
-* **depth goals** (S/N at a science level in a filter, ``visits`` times over
-  the campaign): frames from the exposure core (:func:`planner.exposure.exposure_for_level`
-  at the planned seeing, the Moon down, airmass :data:`EXPOSURE_AIRMASS`);
-  tip frames ask for dark time, low airmass and typical-or-better seeing when
-  the goal says so.  A goal still open gets more weight as the nights where it
-  could be met run out (``1 + visits left / dark nights left``), so goals are
-  spread over the nights that suit them rather than crammed into the first;
-* **the variable-star cadence**: per cluster with variables, ``visits_per_night``
-  visits at least ``min_spacing_min`` apart, each valued by the phase bins it
-  adds to what earlier nights covered (carried from night to night).
+1. **the goals.**  *Depth goals* (S/N at a science level in a filter, ``visits`` times
+   over the campaign; frames from :func:`planner.exposure.exposure_for_level` at the
+   planned seeing, the Moon down, airmass :data:`EXPOSURE_AIRMASS`) are shared out
+   over the nights before each night is planned
+   (:func:`~planner.scheduling.campaign_nights.assign_depth`): every visit still owed
+   goes to the night that suits it best — the lowest airmass its target reaches
+   inside the goal's limits, the darkest sky — so goals wanting dark time land on dark
+   nights and the work is spread rather than crammed into the first night.  The
+   *variable-star cadence*: per cluster with variables, ``visits_per_night`` visits
+   spread over the cluster's usable hours (the spacing is widened from
+   ``min_spacing_min`` to cover most of them), each valued by the phase bins it adds
+   to what earlier nights covered (carried from night to night);
+2. **spare time** (the campaign's ``fill``): more cadence epochs at the minimum
+   spacing and more visits of the depth goals whose limits hold tonight, placed
+   around the goals' visits, which stay where pass 1 put them.  Their request keys
+   end in :data:`FILL_SUFFIX` and their visits say so in a note, so the observer
+   knows what is required and what is extra.
 
-The forecast then puts every planned variable visit through
+Every idle stretch then gets its reason (``nothing observable``, ``goals met``,
+``closed``: :func:`~planner.scheduling.campaign_nights.gaps_with_reasons`).  A goal
+no night of the campaign can hold is an error naming the goal.
+
+The forecast then puts every planned variable visit (extra ones too) through
 :func:`planner.variables.phase_coverage` and :func:`planner.recovery.simulate_recovery`
 (light curves simulated at the planned times, noise from the exposure core through
 :func:`planner.variables.recovery.visit_noise_mag`, as ``gcplan recover``).
@@ -23,22 +34,42 @@ The forecast then puts every planned variable visit through
 from __future__ import annotations
 
 import datetime as dt
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
 from planner.errors import CampaignError, InputError
 from planner.model.campaign import Campaign
 from planner.model.names import normalize_name
-from planner.scheduling.night_sky import night_sky
+from planner.scheduling.campaign_nights import (
+    DARK_ILLUMINATION,
+    STEP_MIN,
+    assign_depth,
+    cadence_spacing,
+    fits,
+    gaps_with_reasons,
+    goal_runs,
+    longest_run,
+    reconcile,
+    targets_tonight,
+    visit_minutes,
+)
 from planner.scheduling.night import plan_night
 from planner.scheduling.night_plan import NightPlan
-from planner.scheduling.visits import Exposure, VisitRequest, body_s
+from planner.scheduling.night_sky import night_sky
+from planner.scheduling.visits import Exposure, VisitRequest, body_s, setup_s, shutter_s
+from planner.sky.visibility import angular_separation_deg
 
 #: Airmass at which goal exposures are computed: the middle of a typical visit (from memory).
 EXPOSURE_AIRMASS = 1.2
 #: Seed of the recovery forecast's simulation (the forecast must be reproducible).
 FORECAST_SEED = 1
+#: Request keys of spare-time work end so (the goals' own keys are ``TARGET/LEVEL-FILTER``
+#: and ``TARGET/variables``); its visits carry :data:`FILL_NOTE`.
+FILL_SUFFIX = "/fill"
+FILL_NOTE = "extra (beyond the goals)"
+#: A campaign whose goals take less than this share of its usable time is told so (our choice).
+LOW_DEMAND = 0.25
 
 
 @dataclass(frozen=True)
@@ -49,6 +80,14 @@ class CampaignPlan:
     coverage: dict
     recovery: dict
     warnings: tuple[str, ...] = field(default_factory=tuple)
+    usable_hours: float = 0.0  # the nights' usable windows
+    required_hours: float = 0.0  # the goals' visits, overheads included
+    fill_hours: float = 0.0  # spare-time work
+
+    @property
+    def spare_hours(self) -> float:
+        """Usable hours the goals leave (before spare-time work)."""
+        return self.usable_hours - self.required_hours
 
 
 def _cluster_of(variable, by_norm):
@@ -110,38 +149,91 @@ def goal_exposures(campaign: Campaign, seeing_arcsec: float | None = None) -> di
     return out
 
 
-def night_requests(campaign: Campaign, exposures: dict, done: dict, urgency: dict):
-    """The requests of one night: open depth goals and the variable cadence."""
-    by_name = {t.name: t for t in campaign.targets}
-    out = []
-    for i, g in enumerate(campaign.goals):
-        for name in g.targets:
-            left = g.visits - done.get((i, name), 0)
-            if left <= 0:
-                continue
-            t = by_name[name]
-            out.append(VisitRequest(
-                key=f"{name}/{g.level}-{g.filter}", target=name, ra_deg=t.ra_deg, dec_deg=t.dec_deg,
-                purpose=g.level, exposures=exposures[(i, name)], priority=t.priority * g.priority * urgency.get(
-                    (i, name), 1.0), count=1, max_airmass=g.max_airmass, dark=g.dark,
-                max_seeing_arcsec=g.max_seeing_arcsec, patient=True,
-                notes=(f"S/N {g.snr:g} at the {g.level} level",) + (("dark time",) if g.dark else ())))
+def _cadence_groups(campaign: Campaign) -> dict:
+    """Each campaign target with variables, and its stars."""
+    by_norm = {normalize_name(t.name): t for t in campaign.targets}
+    groups: dict[str, list] = {}
+    for v in campaign.variables:
+        t = _cluster_of(v, by_norm)
+        if t is not None:
+            groups.setdefault(t.name, []).append(v)
+    return groups
+
+
+def is_fill(visit) -> bool:
+    """A visit (or request) of spare-time work rather than of the campaign's goals."""
+    return getattr(visit, "request_key", getattr(visit, "key", "")).endswith(FILL_SUFFIX)
+
+
+def _depth_request(campaign, i, name, exposures, count: int, *, fill=False):
+    """``count`` visits of a depth goal; as spare-time work (``fill``) one frame of the goal's
+    length a visit: single frames fit between the cadence visits, and each deepens the
+    stack as much as a frame of the goal's own visit."""
+    g = campaign.goals[i]
+    t = next(t for t in campaign.targets if t.name == name)
+    exps = exposures[(i, name)]
+    if fill:
+        exps = (replace(exps[0], frames=1),)
+    return VisitRequest(
+        key=f"{name}/{g.level}-{g.filter}" + (FILL_SUFFIX if fill else ""), target=name, ra_deg=t.ra_deg,
+        dec_deg=t.dec_deg, purpose=g.level, exposures=exps, priority=t.priority * g.priority,
+        count=count, max_airmass=g.max_airmass, dark=g.dark, max_seeing_arcsec=g.max_seeing_arcsec, patient=True,
+        notes=(f"S/N {g.snr:g} at the {g.level} level" if not fill else f"one more {g.level} frame",)
+        + (("dark time",) if g.dark else ()) + ((FILL_NOTE,) if fill else ()))
+
+
+def _cadence_request(campaign, name, stars, exposures, count, spacing_min, *, fill=False):
+    c = campaign.cadence
+    t = next(t for t in campaign.targets if t.name == name)
+    prio = t.priority * c.priority
+    if fill:  # valued per minute of telescope time like a deep frame of the same priority
+        exps = exposures[("variables", name)]
+        prio *= body_s(campaign.site, exps) / max(shutter_s(exps), 1e-3)
+    return VisitRequest(
+        key=f"{name}/variables" + (FILL_SUFFIX if fill else ""), target=name, ra_deg=t.ra_deg, dec_deg=t.dec_deg,
+        purpose="variables", exposures=exposures[("variables", name)], priority=prio, count=count,
+        min_spacing_min=spacing_min, phase_periods_d=tuple(v.period_d for v in stars),
+        phase_epochs_jd=tuple(v.epoch_hjd for v in stars), phase_bins=c.phase_bins,
+        notes=(f"{len(stars)} RR Lyrae",) + ((FILL_NOTE,) if fill else ()))
+
+
+def night_requests(campaign: Campaign, exposures: dict, depth_tonight: dict, tonight=None) -> list:
+    """The requests of the campaign's goals for one night: the depth visits given to it
+    (``depth_tonight``: (goal, target) → visits) and the cadence, spread over each
+    cluster's usable hours of ``tonight`` (a :class:`~planner.scheduling.campaign_nights.Tonight`)."""
+    out = [_depth_request(campaign, i, name, exposures, n) for (i, name), n in sorted(depth_tonight.items())]
     c = campaign.cadence
     if c is not None:
-        by_norm = {normalize_name(t.name): t for t in campaign.targets}
-        groups: dict[str, list] = {}
-        for v in campaign.variables:
-            t = _cluster_of(v, by_norm)
-            if t is not None:
-                groups.setdefault(t.name, []).append(v)
-        for name, stars in groups.items():
-            t = by_name[name]
-            out.append(VisitRequest(
-                key=f"{name}/variables", target=name, ra_deg=t.ra_deg, dec_deg=t.dec_deg, purpose="variables",
-                exposures=exposures[("variables", name)], priority=t.priority * c.priority,
-                count=c.visits_per_night, min_spacing_min=c.min_spacing_min,
-                phase_periods_d=tuple(v.period_d for v in stars), phase_epochs_jd=tuple(v.epoch_hjd for v in stars),
-                phase_bins=c.phase_bins, notes=(f"{len(stars)} RR Lyrae",)))
+        row = {t.name: k for k, t in enumerate(campaign.targets)}
+        for name, stars in _cadence_groups(campaign).items():
+            need = visit_minutes(campaign.site, exposures[("variables", name)])
+            spacing = cadence_spacing(tonight, row[name], c.visits_per_night, need, c.min_spacing_min)
+            out.append(_cadence_request(campaign, name, stars, exposures, c.visits_per_night, spacing))
+    return out
+
+
+def fill_requests(campaign: Campaign, exposures: dict, k: int, goal_nights: dict, tonight) -> list:
+    """Spare-time work for night ``k`` (as the campaign's ``fill`` says): more cadence
+    epochs of each cluster, at the campaign's minimum spacing, as many as its usable
+    hours hold; more visits of every depth goal whose limits hold long enough tonight,
+    as many as its stretch holds, one frame each.  The night planner takes them by value: priority ×
+    light collected for deep frames, and cadence epochs valued per minute of
+    telescope time as a deep frame of the same priority."""
+    out = []
+    if campaign.fill in ("cadence-and-depth", "depth"):
+        for (i, name), g in goal_nights.items():
+            if fits(g)[k]:
+                q = _depth_request(campaign, i, name, exposures, 1, fill=True)
+                out.append(replace(q, count=int(g.run_min[k] // visit_minutes(campaign.site, q.exposures))))
+    c = campaign.cadence
+    if c is not None and tonight is not None and campaign.fill in ("cadence-and-depth", "cadence"):
+        row = {t.name: r for r, t in enumerate(campaign.targets)}
+        for name, stars in _cadence_groups(campaign).items():
+            _, length = longest_run(tonight.ok[row[name]])
+            step = max(c.min_spacing_min, visit_minutes(campaign.site, exposures[("variables", name)]))
+            count = int(length * STEP_MIN // step)
+            if count > 0:
+                out.append(_cadence_request(campaign, name, stars, exposures, count, c.min_spacing_min, fill=True))
     return out
 
 
@@ -158,6 +250,28 @@ def check_fits_the_night(campaign: Campaign, exposures: dict, sky) -> None:
             raise CampaignError(f"{what} take {need / 3600:.1f} h, longer than the longest usable night of the "
                                 f"campaign ({longest / 3600:.1f} h): lower the S/N goal or split it over visits",
                                 campaign.source)
+
+
+def check_goals_can_fit(campaign: Campaign, goal_nights: dict, seeing: float, seeing_is_the_files: bool) -> None:
+    """A depth goal that no night of the campaign can hold is an error: its target is
+    never inside the goal's limits (the campaign's constraints, its airmass, dark time)
+    for a whole visit, or the campaign's planned seeing is worse than its limit.
+    (A seeing given on the command line only leaves the goal out, with a warning.)"""
+    for (i, name), g in goal_nights.items():
+        goal = campaign.goals[i]
+        what = f"[[goals]] #{i + 1} ({goal.level} S/N {goal.snr:g} in {goal.filter}) for {name}"
+        if goal.max_seeing_arcsec is not None and seeing > goal.max_seeing_arcsec and seeing_is_the_files:
+            raise CampaignError(f"{what}: max_seeing_arcsec {goal.max_seeing_arcsec:g} is below the seeing the "
+                                f"campaign plans for ({seeing:g}″): it can never be met", campaign.source)
+        if not fits(g).any():
+            limits = ["the campaign's constraints"]
+            if goal.max_airmass is not None:
+                limits.append(f"airmass ≤ {goal.max_airmass:g}")
+            if goal.dark:
+                limits.append(f"dark time (the Moon down or ≤ {DARK_ILLUMINATION:.0%} lit)")
+            raise CampaignError(f"{what}: never observable for a whole visit ({g.need_min:.0f} min) on any night "
+                                f"of the campaign within {' and '.join(limits)} (longest stretch "
+                                f"{float(np.max(g.run_min)):.0f} min)", campaign.source)
 
 
 def night_index(campaign: Campaign, night: dt.date) -> int:
@@ -177,85 +291,147 @@ def plan_campaign_night(campaign: Campaign, night: dt.date, seeing_arcsec: float
 
 def plan_through_night(campaign: Campaign, night: dt.date, seeing_arcsec: float | None = None):
     """The campaign planned from its first night up to ``night`` (earlier nights' progress
-    counts).  Returns that night's plan, its requests, and the phase bins covered before it."""
-    from dataclasses import replace
-
+    counts; the nights after it still share out the goals, so the night is the one the whole
+    campaign's plan gives).  Returns that night's plan, its requests, and the phase bins
+    covered before it."""
     k = night_index(campaign, night)
-    # The whole campaign's nights (the goals' urgency counts the nights left), stopping after ``night``:
-    # the night is planned exactly as ``plan_campaign`` plans it.
-    state: dict = {"stop_after": k}
-    plan = plan_campaign(campaign, seeing_arcsec=seeing_arcsec, forecast=False, _state=state)
+    state: dict = {}
+    plan = plan_campaign(campaign, seeing_arcsec=seeing_arcsec, forecast=False, _through=k, _state=state)
     return plan.nights[k], list(plan.requests[k]), state["covered_before_last"]
 
 
 def plan_campaign(campaign: Campaign, *, seeing_arcsec: float | None = None, forecast: bool = True,
-                  _state: dict | None = None) -> CampaignPlan:
-    """Plan every night of the campaign, then forecast the coverage and period recovery."""
-    site, constraints = campaign.site, campaign.constraints
+                  _through: int | None = None, _state: dict | None = None) -> CampaignPlan:
+    """Plan every night of the campaign (or its nights up to ``_through``), then forecast
+    the coverage and period recovery."""
+    site = campaign.site
     seeing = seeing_arcsec or campaign.seeing_arcsec or site.sky.typical_seeing_arcsec
-    frame = night_sky(site, campaign.nights, constraints)  # the Sun and Moon once for the campaign
+    frame = night_sky(site, campaign.nights, campaign.constraints)  # the Sun and Moon once for the campaign
     exposures = goal_exposures(campaign, seeing)
     check_fits_the_night(campaign, exposures, frame)
+    tonights = [targets_tonight(site, campaign.constraints, campaign.targets, frame.ephemeris, a, b)
+                for a, b in zip(frame.window_start_jd, frame.window_end_jd)]
+    lit = np.asarray(frame.moon_illumination, dtype=float)
+    row = {t.name: r for r, t in enumerate(campaign.targets)}
+    goal_nights = {(i, name): goal_runs(tonights, lit, row[name], g, visit_minutes(site, exposures[(i, name)]))
+                   for i, g in enumerate(campaign.goals) for name in g.targets}
+    check_goals_can_fit(campaign, goal_nights, seeing, seeing_arcsec is None)
+    window_min = np.nan_to_num((frame.window_end_jd - frame.window_start_jd) * 1440.0, nan=0.0)
+    by_name = {t.name: t for t in campaign.targets}
     done: dict = {}
     covered: dict[str, np.ndarray] = {}
     plans, reqs = [], []
-    # Dark nights left (Moon ≤ 25 % lit or below the horizon much of the night): the
-    # goals' urgency counts them down.  Illumination at the middle of each night.
-    lit = np.asarray(frame.moon_illumination, dtype=float)
-    n = len(campaign.nights)
-    for k, night in enumerate(campaign.nights):
-        urgency = {}
-        for i, g in enumerate(campaign.goals):
-            nights_left = np.sum(lit[k:] <= 0.25) if g.dark else n - k
-            for name in g.targets:
-                left = g.visits - done.get((i, name), 0)
-                urgency[(i, name)] = 1.0 + left / max(float(nights_left), 1.0)
-        requests = night_requests(campaign, exposures, done, urgency)
+    last = len(campaign.nights) - 1 if _through is None else _through
+    for k in range(last + 1):
+        owed = {(i, name): (g.visits - done.get((i, name), 0), by_name[name].priority * g.priority)
+                for i, g in enumerate(campaign.goals) for name in g.targets if g.visits > done.get((i, name), 0)}
+        depth = assign_depth(owed, goal_nights, lit, window_min, k)
         if _state is not None:
-            _state["covered_before_last"] = {key: cov.copy() for key, cov in covered.items()}
-        plan = plan_night(site, constraints, requests, night, float(frame.window_start_jd[k]),
-                          float(frame.window_end_jd[k]), frame.ephemeris, seeing_arcsec=seeing,
-                          covered_bins=covered)
-        plan = _prefix_ids(plan, night)
+            _state["covered_before_last"] = {key + end: cov.copy() for key, cov in covered.items()
+                                             for end in ("", FILL_SUFFIX)}
+        plan, requests = _plan_one_night(campaign, k, frame, tonights[k], exposures, depth, goal_nights, covered,
+                                         seeing)
         for v in plan.visits:
             for i, g in enumerate(campaign.goals):
                 if v.request_key == f"{v.target}/{g.level}-{g.filter}":
                     done[(i, v.target)] = done.get((i, v.target), 0) + 1
-        _update_coverage(covered, requests, plan)
         plans.append(plan)
         reqs.append(tuple(requests))
-        if _state is not None and k == _state.get("stop_after"):
-            break
-    warnings = []
+    usable = sum(p.window_minutes for p in plans) / 60.0
+    required = sum(v.duration_s for p in plans for v in p.visits if not is_fill(v)) / 3600.0
+    extra = sum(v.duration_s for p in plans for v in p.visits if is_fill(v)) / 3600.0
+    warnings = _shortfalls(campaign, done) if _through is None else []
+    if usable > 0 and required < LOW_DEMAND * usable:
+        rest = {"none": 'left idle (fill = "none")', "cadence": "filled with extra cadence epochs",
+                "depth": "filled with extra depth frames"}.get(campaign.fill, "filled with extra epochs and depth")
+        warnings.append(f"the goals take {required:.1f} h of {usable:.0f} h usable; the rest is {rest}")
+    coverage, recovery = ({}, {})
+    if forecast and campaign.variables and campaign.cadence is not None:
+        coverage, recovery = forecast_variables(campaign, plans, exposures)
+    return CampaignPlan(campaign, tuple(plans), tuple(reqs), coverage, recovery, tuple(warnings),
+                        usable, required, extra)
+
+
+def _shortfalls(campaign: Campaign, done: dict) -> list[str]:
+    out = []
     for i, g in enumerate(campaign.goals):
         for name in g.targets:
             got = done.get((i, name), 0)
             if got < g.visits:
-                warnings.append(f"goal {g.level} S/N {g.snr:g} in {g.filter} for {name}: {got} of {g.visits} "
-                                f"visit(s) planned — unreachable in these nights under its constraints")
-    coverage, recovery = ({}, {})
-    if forecast and campaign.variables and campaign.cadence is not None:
-        coverage, recovery = forecast_variables(campaign, plans, exposures)
-    return CampaignPlan(campaign, tuple(plans), tuple(reqs), coverage, recovery, tuple(warnings))
+                out.append(f"goal {g.level} S/N {g.snr:g} in {g.filter} for {name}: {got} of {g.visits} "
+                           f"visit(s) planned — no room left for it in these nights under its constraints")
+    return out
+
+
+def _plan_one_night(campaign, k, frame, tonight, exposures, depth, goal_nights, covered, seeing):
+    """Night ``k``: the goals' visits first, then (unless ``fill = "none"``) spare-time work
+    in what they leave, the goals' visits staying where they are; the gaps' reasons last."""
+    site, constraints = campaign.site, campaign.constraints
+    night, eph = campaign.nights[k], frame.ephemeris
+    w0, w1 = float(frame.window_start_jd[k]), float(frame.window_end_jd[k])
+    requests = night_requests(campaign, exposures, depth, tonight)
+    plan = plan_night(site, constraints, requests, night, w0, w1, eph, seeing_arcsec=seeing, covered_bins=covered)
+    _update_coverage(covered, requests, plan.visits)
+    visits, value = list(plan.visits), plan.value
+    extra = fill_requests(campaign, exposures, k, goal_nights, tonight) if campaign.fill != "none" else []
+    if extra and tonight is not None:
+        visits, more_value = add_spare_work(campaign, night, w0, w1, eph, plan.visits, extra, covered, seeing)
+        value += more_value
+        _update_coverage(covered, requests, [v for v in visits if is_fill(v)])
+    plan = _prefix_ids(replace(plan, visits=tuple(sorted(visits, key=lambda v: v.start_jd))), night)
+    visits = list(plan.visits)
+    gaps = plan.gaps
+    if tonight is not None:
+        gaps = gaps_with_reasons(site, constraints, campaign.targets, eph, w0, w1, visits, plan.closed)
+    return replace(plan, visits=tuple(visits), gaps=gaps, value=value), requests + extra
+
+
+def add_spare_work(campaign, night, w0, w1, eph, goal_visits, extra, covered, seeing, *, closed=(),
+                   not_before_jd=None) -> tuple[list, float]:
+    """The night's visits with spare-time work (``extra`` requests) placed around the goals'
+    visits, which stay where they are; and the value the spare work adds.
+
+    Shared by the campaign's nights and by a re-plan, so both put the goals first.
+    """
+    site, constraints = campaign.site, campaign.constraints
+    bins = {q.key: covered[q.key[:-len(FILL_SUFFIX)]].copy() for q in extra
+            if q.key[:-len(FILL_SUFFIX)] in covered}
+    # The goals' visits, held fixed, reserve the longest slew between campaign targets
+    # before their science start: whatever spare-time visit comes to precede one, its
+    # real slew (set by reconcile) fits.
+    pad = float(setup_s(site, _widest_slew_deg(campaign.targets), True)) / 86400.0
+    held = tuple(replace(v, start_jd=min(v.start_jd, v.science_start_jd - pad)) for v in goal_visits)
+    more = plan_night(site, constraints, extra, night, w0, w1, eph, seeing_arcsec=seeing, fixed=held,
+                      covered_bins=bins, id_offset=len(goal_visits), closed=closed, not_before_jd=not_before_jd)
+    own = {v.id: v for v in goal_visits}
+    return reconcile(site, [own.get(v.id, v) for v in more.visits], is_fill), more.value
 
 
 def _prefix_ids(plan: NightPlan, night: dt.date) -> NightPlan:
     """Ids that say what each visit is (:mod:`planner.scheduling.visit_ids`)."""
-    from dataclasses import replace
 
     from planner.scheduling.visit_ids import assign_ids
 
     return replace(plan, visits=tuple(assign_ids(plan.visits, night)))
 
 
-def _update_coverage(covered, requests, plan):
+def _widest_slew_deg(targets) -> float:
+    """The largest separation between two of the targets, degrees."""
+    ra = np.array([t.ra_deg for t in targets])
+    dec = np.array([t.dec_deg for t in targets])
+    return float(np.max(angular_separation_deg(ra[:, None], dec[:, None], ra[None, :], dec[None, :]), initial=0.0))
+
+
+def _update_coverage(covered, requests, visits):
+    """Phase bins the visits cover, by the cadence request of their cluster (spare-time
+    epochs count for it too)."""
     for q in requests:
-        if not q.phase_periods_d:
+        if not q.phase_periods_d or is_fill(q):
             continue
         p, e = np.array(q.phase_periods_d), np.array(q.phase_epochs_jd)
         cov = covered.setdefault(q.key, np.zeros((len(p), q.phase_bins), bool))
-        for v in plan.visits:
-            if v.request_key == q.key:
+        for v in visits:
+            if v.purpose == "variables" and v.target == q.target:
                 mid = 0.5 * (v.science_start_jd + v.end_jd)
                 b = np.floor(np.mod((mid - e) / p, 1.0) * q.phase_bins).astype(int) % q.phase_bins
                 cov[np.arange(len(p)), b] = True
@@ -292,8 +468,8 @@ def forecast_variables(campaign: Campaign, plans, exposures) -> tuple[dict, dict
                               if _cluster_of(v, by_norm) is not None):
         stars = [v for v in campaign.variables if _cluster_of(v, by_norm) is not None
                  and _cluster_of(v, by_norm).name == name]
-        jd = np.array([0.5 * (v.science_start_jd + v.end_jd) for p in plans for v in p.visits
-                       if v.request_key == f"{name}/variables"])
+        jd = np.array(sorted(0.5 * (v.science_start_jd + v.end_jd) for p in plans for v in p.visits
+                             if v.purpose == "variables" and v.target == name))
         ids = [s.id for s in stars]
         types = [s.type for s in stars]
         entry = {"cluster": name, "stars": len(stars), "visits": int(jd.size)}

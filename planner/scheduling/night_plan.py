@@ -19,7 +19,8 @@ from planner.scheduling.visits import Visit
 class Gap:
     start_jd: float
     end_jd: float
-    reason: str  # "idle" (nothing observable fits) or "closed"
+    reason: str  # "closed" (weather), else idle: "idle" (a one-night plan), or a campaign's
+    # "nothing observable" (no target within the constraints) or "goals met" (nothing more wanted)
 
     @property
     def minutes(self) -> float:
@@ -81,7 +82,7 @@ class NightPlan:
 
     @property
     def idle_minutes(self) -> float:
-        return float(sum(g.minutes for g in self.gaps if g.reason == "idle"))
+        return float(sum(g.minutes for g in self.gaps if g.reason != "closed"))
 
     @property
     def closed_minutes(self) -> float:

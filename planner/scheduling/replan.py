@@ -83,7 +83,7 @@ class ReplanResult:
         lines = [head, "before now: " + ("; ".join(counts) if counts else "no visit"),
                  f"planned from now: {len(s['new_visits'])}"]
         if s["unknown"]:
-            lines.append(f"unknown: no frames of them in the logbook and not given with --done; "
+            lines.append("unknown: no frames of them in the logbook and not given with --done; "
                          "they keep their place (--done ID, or --assume-done, counts them done)")
         return lines
 
@@ -98,7 +98,7 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     ``time_jd``), target names compared by ``key``; ``closed`` and ``logged_closed``:
     closed periods given by the observer and read from the logbook.
     """
-    from planner.scheduling.campaign import goal_exposures, plan_through_night
+    from planner.scheduling.campaign import add_spare_work, goal_exposures, is_fill, plan_through_night
 
     planned_seeing = campaign.seeing_arcsec or campaign.site.sky.typical_seeing_arcsec
     original, requests, covered = plan_through_night(campaign, night)
@@ -132,12 +132,21 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
         requests = [replace(q, exposures=_new_exposures(q, exposures, campaign)) for q in requests]
     fixed = tuple(v for v in past if v.status != "missed")
     start = max([now_jd] + [v.end_jd for v in fixed])
-    plan = plan_night(campaign.site, campaign.constraints, requests, night, original.window_start_jd,
-                      original.window_end_jd, _ephemeris(campaign, night), closed=closed, seeing_arcsec=seeing,
-                      fixed=fixed, not_before_jd=start, covered_bins=covered, id_offset=len(past))
+    # The goals (and the frames partial visits owe) first, spare-time work around them after,
+    # as the campaign plans a night.
+    goals = [q for q in requests if not is_fill(q)]
+    spare = [q for q in requests if is_fill(q)]
+    w0, w1, eph = original.window_start_jd, original.window_end_jd, _ephemeris(campaign, night)
+    plan = plan_night(campaign.site, campaign.constraints, goals, night, w0, w1, eph, closed=closed,
+                      seeing_arcsec=seeing, fixed=fixed, not_before_jd=start, covered_bins=covered,
+                      id_offset=len(past))
+    if spare:
+        visits, value = add_spare_work(campaign, night, w0, w1, eph, plan.visits, spare, covered, seeing,
+                                       closed=closed, not_before_jd=start)
+        plan = replace(plan, visits=tuple(sorted(visits, key=lambda v: v.start_jd)), value=plan.value + value)
     used = set(used_ids) | {v.id for v in original.visits}
-    kept = {id(v) for v in fixed}
-    new = assign_ids([v for v in plan.visits if id(v) not in kept], night, used)
+    kept = {v.id for v in fixed}
+    new = assign_ids([v for v in plan.visits if v.id not in kept], night, used)
     visits = tuple(sorted(list(fixed) + new + missed, key=lambda v: v.start_jd))
     return ReplanResult(replace(plan, visits=visits, warnings=plan.warnings + notes), original, now_jd,
                         tuple(reasons))

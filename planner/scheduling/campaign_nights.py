@@ -1,0 +1,273 @@
+"""Which campaign work goes on which night, what fills the spare time, and why a gap is idle.
+
+The campaign planner (:mod:`planner.scheduling.campaign`) uses these pieces:
+
+* :func:`targets_tonight` — every campaign target on a one-minute grid of a
+  night's usable window under the campaign's constraints (one
+  :func:`~planner.sky.visibility.sky_at` call), with the Moon's altitude;
+* :func:`goal_runs` — for a depth goal and a target, the longest stretch of
+  each night inside the goal's own limits (airmass, dark time), its best
+  airmass and how much of it has the Moon up;
+* :func:`assign_depth` — the depth visits still owed, spread over the nights
+  left: each visit goes to the night that suits it best (lowest airmass,
+  darkest sky) among those with room, the goals with fewest suitable nights
+  first, the nights already given work weighing less;
+* :func:`cadence_spacing` — the spacing that spreads a night's cadence visits
+  over the cluster's usable hours instead of packing them at the minimum;
+* :func:`reconcile` — after spare-time work is put between the goals' visits,
+  each visit's slew is recomputed from the visit now before it;
+* :func:`gaps_with_reasons` — the idle time of a night, each stretch with its
+  reason: ``nothing observable`` (no campaign target within the constraints),
+  ``goals met`` (targets are up, nothing more is wanted) or ``closed``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from planner.scheduling.night_plan import Gap
+from planner.scheduling.visits import body_s, setup_s
+from planner.sky.almanac import MOONRISE_ALTITUDE_DEG, TWILIGHT_ALTITUDE_DEG
+from planner.sky.ephemeris import site_geometry
+from planner.sky.visibility import angular_separation_deg, apparent_places, constraint_margin_deg, sky_at, time_track
+
+#: Grid step of the campaign's look at each night, minutes (the night planner's slot).
+STEP_MIN = 1.0
+#: Moon illumination up to which a night counts as dark while the Moon is up
+#: (the campaign file's ``dark``; the night planner's ``max_moon_illumination``).
+DARK_ILLUMINATION = 0.25
+#: Cadence visits of a night span this share of the cluster's usable hours: the
+#: rest is slack for the other visits of the night (our choice).
+CADENCE_SPREAD = 0.8
+#: Gap reasons (besides the night planner's ``closed``).
+NOTHING_OBSERVABLE = "nothing observable"
+GOALS_MET = "goals met"
+
+
+@dataclass(frozen=True)
+class Tonight:
+    """Campaign targets × one-minute times of one night's usable window."""
+
+    jd: np.ndarray  # (T,)
+    ok: np.ndarray  # (N, T) within the campaign's constraints, the Sun below the twilight
+    airmass: np.ndarray  # (N, T), inf below the horizon
+    moon_down: np.ndarray  # (T,)
+
+
+def observable(site, constraints, ra_deg, dec_deg, eph, jd) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """``ok`` (targets × times: inside every constraint, the Sun below the twilight),
+    airmass and whether the Moon is down, at the times ``jd``."""
+    loc = site.location
+    geo = site_geometry(loc.latitude_deg, loc.longitude_deg, loc.elevation_m)
+    places = apparent_places(list(ra_deg), list(dec_deg), float(jd[0]), float(jd[-1]))
+    ra, dec = places.at([0.5 * (jd[0] + jd[-1])])  # fixed for the night, as the night planner
+    grid = sky_at(time_track(eph, geo, jd), geo.latitude_deg, ra, dec)
+    ok = constraint_margin_deg(grid, constraints) >= 0.0
+    ok &= (grid.sun_altitude_deg <= TWILIGHT_ALTITUDE_DEG[constraints.twilight] + 1e-6)[None, :]
+    return ok, np.nan_to_num(grid.airmass, nan=np.inf), grid.moon_altitude_deg < MOONRISE_ALTITUDE_DEG
+
+
+def targets_tonight(site, constraints, targets, eph, w0: float, w1: float) -> Tonight | None:
+    """The campaign's targets over the usable window [w0, w1] (None: no such window)."""
+    if not (np.isfinite(w0) and w1 > w0):
+        return None
+    n = int(np.floor((w1 - w0) * 1440.0 / STEP_MIN + 1e-9))
+    jd = w0 + STEP_MIN / 1440.0 * np.arange(n + 1)
+    ok, airmass, moon_down = observable(site, constraints, [t.ra_deg for t in targets],
+                                        [t.dec_deg for t in targets], eph, jd)
+    return Tonight(jd, ok, airmass, moon_down)
+
+
+def longest_run(mask: np.ndarray) -> tuple[int, int]:
+    """First index and length of the longest run of True in ``mask`` ((0, 0): none)."""
+    m = np.concatenate([[False], np.asarray(mask, bool), [False]])
+    edges = np.flatnonzero(np.diff(m.astype(int)))
+    if edges.size == 0:
+        return 0, 0
+    starts, ends = edges[::2], edges[1::2]
+    k = int(np.argmax(ends - starts))
+    return int(starts[k]), int(ends[k] - starts[k])
+
+
+def visit_minutes(site, exposures) -> float:
+    """A visit's time with the longest slew, a settle and a filter change (minutes)."""
+    return (body_s(site, exposures) + float(setup_s(site, 180.0, True))) / 60.0
+
+
+def goal_mask(tonight: Tonight, row: int, goal, illumination: float) -> np.ndarray:
+    """Where the target of ``row`` is inside the goal's own limits tonight."""
+    mask = tonight.ok[row].copy()
+    if goal.max_airmass is not None:
+        mask &= tonight.airmass[row] <= goal.max_airmass
+    if goal.dark and illumination > DARK_ILLUMINATION:
+        mask &= tonight.moon_down
+    return mask
+
+
+@dataclass(frozen=True)
+class GoalNights:
+    """One depth goal × target over the campaign's nights."""
+
+    run_min: np.ndarray  # (nights,) the longest stretch inside the goal's limits
+    best_airmass: np.ndarray  # (nights,) inf: never inside them
+    moon_up: np.ndarray  # (nights,) share of that stretch with the Moon up
+    need_min: float  # one visit, with the longest slew
+
+
+def goal_runs(tonights, illumination, row: int, goal, need_min: float) -> GoalNights:
+    n = len(tonights)
+    run, best, up = np.zeros(n), np.full(n, np.inf), np.zeros(n)
+    for k, tn in enumerate(tonights):
+        if tn is None:
+            continue
+        mask = goal_mask(tn, row, goal, float(illumination[k]))
+        i, length = longest_run(mask)
+        if length == 0:
+            continue
+        run[k] = length * STEP_MIN
+        best[k] = float(np.min(tn.airmass[row, i:i + length]))
+        up[k] = float(np.mean(~tn.moon_down[i:i + length]))
+    return GoalNights(run, best, up, need_min)
+
+
+def fits(g: GoalNights) -> np.ndarray:
+    """Nights on which one visit of the goal fits inside its limits (two slots to spare,
+    as the night planner needs)."""
+    return g.run_min >= g.need_min + 2 * STEP_MIN
+
+
+def night_quality(g: GoalNights, illumination) -> np.ndarray:
+    """How well each night suits the goal: the best airmass reached, relative to the
+    campaign's best, squared (about the loss in S/N per unit time of a sky-limited
+    frame — the exposure core's scaling, our approximation), times a sky term that
+    halves the value under a full Moon up all the while."""
+    ok = fits(g)
+    if not ok.any():
+        return np.zeros_like(g.run_min)
+    x_best = float(np.min(g.best_airmass[ok]))
+    sky = 1.0 - 0.5 * np.asarray(illumination, float) * g.moon_up
+    return np.where(ok, (x_best / np.where(ok, g.best_airmass, 1.0)) ** 2 * sky, 0.0)
+
+
+def assign_depth(owed: dict, nights: dict, illumination, window_min, first: int) -> dict:
+    """How many visits of each goal × target go on night ``first``.
+
+    ``owed`` maps (goal, target) to (visits still owed, priority); ``nights`` maps it
+    to its :class:`GoalNights`.  Every owed visit is given a night from ``first`` on:
+    the goals with fewest suitable nights choose first (then by priority), each
+    visit takes the night of highest quality × the share of the night still free ÷
+    (1 + visits of the same goal already there), among nights where the goal's
+    stretch still has room.  Only tonight's share is returned; the rest is decided
+    again on later nights with what was really done.
+    """
+    n = len(window_min)
+    load = np.zeros(n)  # minutes given out per night
+    tonight: dict = {}
+    order = sorted(owed, key=lambda key: (int(np.sum(fits(nights[key])[first:])), -owed[key][1], str(key)))
+    for key in order:
+        left, _ = owed[key]
+        g = nights[key]
+        q = night_quality(g, illumination)
+        q[:first] = 0.0
+        same = np.zeros(n)
+        for _ in range(left):
+            room = (same + 1) * g.need_min <= g.run_min
+            free = np.clip(1.0 - load / np.maximum(window_min, 1.0), 0.0, 1.0)
+            score = np.where(room & (q > 0), q * free / (1.0 + same), -1.0)
+            j = int(np.argmax(score))
+            if score[j] < 0:
+                break
+            same[j] += 1
+            load[j] += g.need_min
+        if same[first]:
+            tonight[key] = int(same[first])
+    return tonight
+
+
+def cadence_spacing(tonight: Tonight | None, row: int, visits: int, visit_min: float, min_spacing: float) -> float:
+    """Minimum spacing (minutes) that spreads ``visits`` over the cluster's longest
+    usable stretch tonight, and never less than the campaign's own minimum."""
+    if tonight is None or visits < 2:
+        return min_spacing
+    _, length = longest_run(tonight.ok[row])
+    usable = length * STEP_MIN - visit_min
+    return max(min_spacing, CADENCE_SPREAD * usable / (visits - 1))
+
+
+def reconcile(site, visits, is_fill) -> list:
+    """Visits in time order with each slew from the visit now before it.
+
+    Spare-time work is placed between the goals' visits, which were planned with
+    slews from other neighbours; the science start of each visit stays and its slew
+    starts earlier or later.  Where a longer slew would overlap the visit before,
+    the spare-time visit of the two is dropped (the goals' visits never are)."""
+    out = []
+    for v in sorted(visits, key=lambda v: v.start_jd):
+        while out:
+            prev = out[-1]
+            slew = float(angular_separation_deg(prev.ra_deg, prev.dec_deg, v.ra_deg, v.dec_deg))
+            change = prev.exposures[-1].filter != v.exposures[0].filter
+            start = v.science_start_jd - float(setup_s(site, slew, change)) / 86400.0
+            if start >= prev.end_jd - 1e-9:
+                v = replace(v, start_jd=start, slew_deg=slew if slew > 1e-3 else 0.0)
+                break
+            if is_fill(prev):
+                out.pop()
+                continue
+            v = None  # a spare-time visit that no longer fits
+            break
+        if v is not None:
+            out.append(v)
+    return out
+
+
+def free_time(w0: float, w1: float, visits, closed) -> list[tuple[float, float, bool]]:
+    """The usable window's time outside the visits, as (start, end, closed) pieces."""
+    free, t = [], w0
+    for v in sorted(visits, key=lambda v: v.start_jd):
+        if v.start_jd > t:
+            free.append((t, min(v.start_jd, w1)))
+        t = max(t, min(v.end_jd, w1))
+    if t < w1:
+        free.append((t, w1))
+    out = []
+    for a, b in free:
+        cuts = sorted({a, b} | {x for c in closed for x in c if a < x < b})
+        for s, e in zip(cuts, cuts[1:]):
+            mid = 0.5 * (s + e)
+            out.append((s, e, any(c0 <= mid <= c1 for c0, c1 in closed)))
+    return out
+
+
+def gaps_with_reasons(site, constraints, targets, eph, w0, w1, visits, closed) -> tuple[Gap, ...]:
+    """The night's gaps of a minute or more, each with its true reason.
+
+    An idle stretch is ``nothing observable`` where no campaign target is inside the
+    constraints at any time in it (checked at every minute and at its ends), else
+    ``goals met``; weather closures are ``closed``.  A stretch is cut where this changes.
+    """
+    pieces = [(s, e, shut) for s, e, shut in free_time(w0, w1, visits, closed) if (e - s) * 1440.0 >= 1.0]
+    grids = [np.linspace(s, e, max(int(np.ceil((e - s) * 1440.0 / STEP_MIN)), 1) + 1) for s, e, _ in pieces]
+    if grids and targets:  # one sky computation for every idle minute of the night
+        flat = observable(site, constraints, [t.ra_deg for t in targets], [t.dec_deg for t in targets], eph,
+                          np.concatenate(grids))[0].any(axis=0)
+        ups = np.split(flat, np.cumsum([len(g) for g in grids])[:-1])
+    else:
+        ups = [np.zeros(len(g), bool) for g in grids]
+    gaps = []
+    for (s, e, shut), jd, up in zip(pieces, grids, ups):
+        if shut:
+            gaps.append(Gap(float(s), float(e), "closed"))
+            continue
+        up_piece = up[:-1] | up[1:]  # a minute with a target up at either end is not "nothing observable"
+        runs = []
+        for k in range(len(jd) - 1):
+            reason = GOALS_MET if up_piece[k] else NOTHING_OBSERVABLE
+            if runs and runs[-1][2] == reason:
+                runs[-1][1] = jd[k + 1]
+            else:
+                runs.append([jd[k], jd[k + 1], reason])
+        gaps.extend(Gap(float(a), float(b), reason) for a, b, reason in runs if (b - a) * 1440.0 >= 1.0)
+    return tuple(gaps)
