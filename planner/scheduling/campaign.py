@@ -165,6 +165,37 @@ def is_fill(visit) -> bool:
     return getattr(visit, "request_key", getattr(visit, "key", "")).endswith(FILL_SUFFIX)
 
 
+def _depth_sizing(campaign, i, name) -> dict:
+    """What lets the night planner size a depth visit's frames where it places it: the
+    goal's S/N at the level's magnitude, its brightest stars kept linear, the longest frame."""
+    from planner.light.photometry import science_level
+
+    g = campaign.goals[i]
+    t = next(t for t in campaign.targets if t.name == name)
+    level = science_level(t, g.level, campaign.site.filters[g.filter].band)
+    return {"snr_goal": g.snr, "magnitude": level.magnitude, "saturation_magnitude": level.brightest_mag,
+            "max_frame_s": campaign.max_frame_s}
+
+
+def _cadence_sizing(campaign, name, stars) -> dict:
+    """As :func:`_depth_sizing` for a cluster's variable-star visits: the faintest star's mean
+    magnitude sets the frame, the brightest at maximum the saturation limit (as
+    :func:`goal_exposures`); with a fixed ``exposure_s`` only the magnitude, for the S/N report."""
+    from planner.light.photometry import science_level
+
+    c = campaign.cadence
+    mags = [v.mean_mag for v in stars if v.mean_mag is not None]
+    if mags:
+        faint, bright = max(mags), min(mags) - 0.5
+    else:
+        t = next(t for t in campaign.targets if t.name == name)
+        level = science_level(t, "hb", campaign.site.filters[c.filter].band)
+        faint, bright = level.magnitude, level.brightest_mag
+    if c.exposure_s is not None:
+        return {"magnitude": faint}
+    return {"snr_goal": c.snr, "magnitude": faint, "saturation_magnitude": bright}
+
+
 def _depth_request(campaign, i, name, exposures, count: int, *, fill=False):
     """``count`` visits of a depth goal; as spare-time work (``fill``) one frame of the goal's
     length a visit: single frames fit between the cadence visits, and each deepens the
@@ -179,7 +210,11 @@ def _depth_request(campaign, i, name, exposures, count: int, *, fill=False):
         dec_deg=t.dec_deg, purpose=g.level, exposures=exps, priority=t.priority * g.priority,
         count=count, max_airmass=g.max_airmass, dark=g.dark, max_seeing_arcsec=g.max_seeing_arcsec, patient=True,
         notes=(f"S/N {g.snr:g} at the {g.level} level" if not fill else f"one more {g.level} frame",)
-        + (("dark time",) if g.dark else ()) + ((FILL_NOTE,) if fill else ()))
+        + (("dark time",) if g.dark else ()) + ((FILL_NOTE,) if fill else ()),
+        # A goal's visit is sized where it is planned; a spare-time frame keeps the goal's
+        # frame length (its S/N is still reported where it lands).
+        **(_depth_sizing(campaign, i, name) if not fill else
+           {"magnitude": _depth_sizing(campaign, i, name)["magnitude"]}))
 
 
 def _cadence_request(campaign, name, stars, exposures, count, spacing_min, *, fill=False):
@@ -194,7 +229,8 @@ def _cadence_request(campaign, name, stars, exposures, count, spacing_min, *, fi
         purpose="variables", exposures=exposures[("variables", name)], priority=prio, count=count,
         min_spacing_min=spacing_min, phase_periods_d=tuple(v.period_d for v in stars),
         phase_epochs_jd=tuple(v.epoch_hjd for v in stars), phase_bins=c.phase_bins,
-        notes=(f"{len(stars)} RR Lyrae",) + ((FILL_NOTE,) if fill else ()))
+        notes=(f"{len(stars)} RR Lyrae",) + ((FILL_NOTE,) if fill else ()),
+        **_cadence_sizing(campaign, name, stars))
 
 
 def night_requests(campaign: Campaign, exposures: dict, depth_tonight: dict, tonight=None) -> list:

@@ -192,7 +192,9 @@ def _owed_requests(partial, requests, evidence):
         owed = tuple(Exposure(o.filter, o.frames, o.exposure_s) for o in evidence[v.id].owed)
         if q is None or not owed:
             continue
+        # The owed frames are exactly those still missing: not sized again where they land.
         out.append(replace(q, key=f"{q.key}{OWED}{v.id}", exposures=owed, count=1, min_spacing_min=0.0,
+                           snr_goal=None,
                            notes=(f"the frames {v.id} still owes",) + tuple(q.notes)))
     return out
 
