@@ -118,8 +118,8 @@ def write_plan_ecsv(site, plan, path, option: str = "--out") -> None:
 # ----------------------------------------------------------------- the night sheet
 
 #: How the night sheet names each gap reason (a campaign's gaps carry the last two).
-GAP_WORDS = {"closed": "closed (weather)", "idle": "idle: nothing observable fits",
-             "nothing observable": "idle: no target within the limits",
+GAP_WORDS = {"closed": "closed (weather)",
+             "nothing observable": "idle: nothing wanted holds the limits here",
              "goals met": "idle: targets up, nothing more wanted"}
 
 

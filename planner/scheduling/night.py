@@ -154,9 +154,28 @@ def plan_night(
                       else f"only {n} of {q.count} fit")
             unplanned.append(Unplanned(q.key, q.target, q.purpose, q.count, n, reason))
     value = float(sum(state.value_of.get(id(v), 0.0) for v in planned_new))
-    gaps = _gaps(window_start_jd, window_end_jd, visits, closed)
+    gaps = _with_reasons(_gaps(window_start_jd, window_end_jd, visits, closed), tab, state.remaining > 0)
     return NightPlan(night, constraints, window_start_jd, window_end_jd, tuple(visits), gaps, tuple(unplanned),
                      closed, seeing, moon_illum, value, METHOD, tuple(warnings), bound.value, bound.method)
+
+
+def _with_reasons(gaps, tab, wanted) -> tuple[Gap, ...]:
+    """Each idle gap's true reason: ``goals met`` when a request's target is within its
+    constraints in the gap but nothing more is wanted of any such target; otherwise
+    ``nothing observable`` (no target up, or the ones still wanted do not hold for a whole
+    visit there).  Closed gaps keep their reason."""
+    out = []
+    n = tab.ok.shape[1]
+    for g in gaps:
+        if g.reason != "idle":
+            out.append(g)
+            continue
+        i0 = int(np.clip(np.floor((g.start_jd - tab.jd[0]) * 1440.0 / SLOT_MIN), 0, n))
+        i1 = int(np.clip(np.ceil((g.end_jd - tab.jd[0]) * 1440.0 / SLOT_MIN), i0, n))
+        up = tab.ok[:, i0:i1].any(axis=1)
+        met = bool(up.any()) and not bool((up & wanted).any())
+        out.append(replace(g, reason="goals met" if met else "nothing observable"))
+    return tuple(out)
 
 
 def _bound(site, state: DispatchState, fixed, start_jd: float):

@@ -19,8 +19,8 @@ from planner.scheduling.visits import Visit
 class Gap:
     start_jd: float
     end_jd: float
-    reason: str  # "closed" (weather), else idle: "idle" (a one-night plan), or a campaign's
-    # "nothing observable" (no target within the constraints) or "goals met" (nothing more wanted)
+    reason: str  # "closed" (weather), "nothing observable" (nothing still wanted holds its
+    # constraints there) or "goals met" (targets up, nothing more wanted of them)
 
     @property
     def minutes(self) -> float:
