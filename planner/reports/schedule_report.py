@@ -63,6 +63,7 @@ def schedule_json(site, plan) -> dict:
         "value": round(plan.value, 4),
         "mean_airmass": rounded(plan.mean_airmass, 3),
         "bound": bound_json(plan),
+        "spare_value": round(plan.spare_value, 4),
         "method": plan.method,
         "warnings": list(plan.warnings),
         "caution": PLAN_CAUTION,
@@ -82,9 +83,11 @@ def bound_line(plan) -> str | None:
     if not np.isfinite(plan.bound_value) or plan.bound_value <= 0:
         return None
     x = f", mean airmass {plan.mean_airmass:.2f}" if np.isfinite(plan.mean_airmass) else ""
-    return (f"plan reaches {100 * (1 - plan.gap_fraction):.1f} % of the most any plan of these visits "
+    what = "the goals' visits reach" if plan.spare_value > 0 else "plan reaches"
+    spare = f"; spare-time work adds {plan.spare_value:.3g} more" if plan.spare_value > 0 else ""
+    return (f"{what} {100 * (1 - plan.gap_fraction):.1f} % of the most any plan of these visits "
             f"could ({plan.value:.3g} of {plan.bound_value:.3g} priority × shutter hours at each target's "
-            f"best sky; LP bound){x}")
+            f"best sky; LP bound{spare}){x}")
 
 
 # ----------------------------------------------------------------- ECSV

@@ -408,18 +408,17 @@ def _plan_one_night(campaign, k, frame, tonight, exposures, depth, goal_nights, 
     requests = night_requests(campaign, exposures, depth, tonight)
     plan = plan_night(site, constraints, requests, night, w0, w1, eph, seeing_arcsec=seeing, covered_bins=covered)
     _update_coverage(covered, requests, plan.visits)
-    visits, value = list(plan.visits), plan.value
+    visits, spare_value = list(plan.visits), 0.0
     extra = fill_requests(campaign, exposures, k, goal_nights, tonight) if campaign.fill != "none" else []
     if extra and tonight is not None:
-        visits, more_value = add_spare_work(campaign, night, w0, w1, eph, plan.visits, extra, covered, seeing)
-        value += more_value
+        visits, spare_value = add_spare_work(campaign, night, w0, w1, eph, plan.visits, extra, covered, seeing)
         _update_coverage(covered, requests, [v for v in visits if is_fill(v)])
     plan = _prefix_ids(replace(plan, visits=tuple(sorted(visits, key=lambda v: v.start_jd))), night)
     visits = list(plan.visits)
     gaps = plan.gaps
     if tonight is not None:
         gaps = gaps_with_reasons(site, constraints, campaign.targets, eph, w0, w1, visits, plan.closed)
-    return replace(plan, visits=tuple(visits), gaps=gaps, value=value), requests + extra
+    return replace(plan, visits=tuple(visits), gaps=gaps, spare_value=spare_value), requests + extra
 
 
 def add_spare_work(campaign, night, w0, w1, eph, goal_visits, extra, covered, seeing, *, closed=(),

@@ -56,6 +56,9 @@ class NightPlan:
     warnings: tuple[str, ...] = field(default_factory=tuple)
     bound_value: float = float("nan")  # upper bound on ``value`` over every plan (planner.scheduling.bound)
     bound_method: str = ""
+    # Value of a campaign's spare-time work placed around the goals' visits after the
+    # goals were planned (second pass): not in ``value``, which the bound is for.
+    spare_value: float = 0.0
 
     @property
     def gap_fraction(self) -> float:
