@@ -424,3 +424,46 @@ def test_one_night_is_the_night_of_the_whole_campaign(demo_plan):
     night, _ = plan_campaign_night(campaign, campaign.nights[1])
     assert [(v.id, v.request_key, round(v.start_jd, 6)) for v in night.visits] == \
         [(v.id, v.request_key, round(v.start_jd, 6)) for v in plan.nights[1].visits]
+
+
+def test_goal_field_radius_adds_the_clusters_light_where_planned(tmp_path):
+    """A depth goal with ``field_radius_arcmin`` counts the cluster's unresolved light at that
+    radius (King 1962 profile from Harris 2010's structure, planner.light.cluster_light) as
+    sky: its frames are longer than without, both in the goal table and where the night
+    planner sizes the visit; nearer the centre (brighter cluster light) longer still."""
+    from planner.scheduling.campaign import goal_exposures, plan_campaign_night
+
+    campaign = read_campaign_file(DEMO)
+    i = next(k for k, g in enumerate(campaign.goals) if g.level == "turnoff")
+    name = campaign.goals[i].targets[0]
+
+    def with_radius(r):
+        goals = list(campaign.goals)
+        goals[i] = dataclasses.replace(goals[i], field_radius_arcmin=r)
+        return dataclasses.replace(campaign, goals=tuple(goals))
+
+    def light(c):
+        return sum(e.frames * e.exposure_s for e in goal_exposures(c)[(i, name)])
+
+    none, far, near = light(campaign), light(with_radius(3.0)), light(with_radius(1.0))
+    assert none < far < near
+    text = DEMO.read_text().replace("[[goals]]\nlevel = \"turnoff\"", "[[goals]]\nlevel = \"turnoff\"\n"
+                                    "field_radius_arcmin = 1.0", 1)
+    assert text != DEMO.read_text()  # the file form reads the key too
+    for f in DEMO.parent.iterdir():
+        if f.is_file():
+            (tmp_path / f.name).write_bytes(f.read_bytes())
+    (tmp_path / "campaign.toml").write_text(text)
+    assert read_campaign_file(tmp_path / "campaign.toml").goals[i].field_radius_arcmin == 1.0
+    night = campaign.nights[0]
+    plain, _ = plan_campaign_night(campaign, night)
+    lit, _ = plan_campaign_night(with_radius(1.0), night)
+    key = f"{name}/turnoff-{campaign.goals[i].filter}"
+
+    def shutter(plan):
+        return [sum(e.frames * e.exposure_s for e in v.exposures) for v in plan.visits if v.request_key == key]
+
+    assert shutter(plain) and shutter(lit)  # the goal is planned on the first night in both
+    assert min(shutter(lit)) > max(shutter(plain))
+    snr = [v.snr_planned for v in lit.visits if v.request_key == key]
+    assert all(s >= campaign.goals[i].snr * 0.99 for s in snr)

@@ -20,7 +20,9 @@ Schema (unknown keys are errors; paths are relative to the campaign file)::
     [[goals]]                    depth goals: level "tip" | "hb" | "turnoff"; filter; snr;
                                  targets (names, default all); visits (times over the
                                  campaign, = 1); max_airmass; dark (= false: Moon down or
-                                 ≤ 25 % lit); max_seeing_arcsec; priority (a weight, = 1)
+                                 ≤ 25 % lit); max_seeing_arcsec; priority (a weight, = 1);
+                                 field_radius_arcmin (the stars' distance from the
+                                 cluster centre: its unresolved light joins the sky)
     [cadence]                    optional variable-star cadence: filter = "V"; snr (on the cluster's
                                  HB, = 30) or exposure_s; visits_per_night; phase_bins = 20;
                                  min_spacing_min = 30; priority (a weight, = 1)
@@ -42,7 +44,7 @@ _KEYS = {
          "seeing_arcsec", "max_frame_s", "fill", "constraints", "goals", "cadence"),
     "constraints": ("twilight", "max_airmass", "min_altitude_deg", "min_moon_separation_deg"),
     "goal": ("level", "filter", "snr", "targets", "visits", "max_airmass", "dark", "max_seeing_arcsec",
-             "priority"),
+             "priority", "field_radius_arcmin"),
     "cadence": ("filter", "snr", "exposure_s", "visits_per_night", "phase_bins", "min_spacing_min",
                 "priority"),
 }
@@ -209,7 +211,8 @@ def _goal(gt: Table, site, targets):
         level=level, filter=filt, snr=gt.number("snr", 1.0, 10000.0), targets=chosen,
         visits=int(visits), max_airmass=gt.number("max_airmass", 1.0, 40.0, required=False),
         dark=bool(dark), max_seeing_arcsec=gt.number("max_seeing_arcsec", 0.1, 10.0, required=False),
-        priority=gt.number("priority", 0.0, 1000.0, lo_open=True, default=1.0))
+        priority=gt.number("priority", 0.0, 1000.0, lo_open=True, default=1.0),
+        field_radius_arcmin=gt.number("field_radius_arcmin", 0.0, 600.0, required=False))
 
 
 def _cadence(raw: dict, source: str, site, variables):

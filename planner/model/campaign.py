@@ -27,6 +27,9 @@ class DepthGoal:
     max_airmass: float | None = None
     dark: bool = False
     max_seeing_arcsec: float | None = None
+    # Where the goal's stars lie, from the cluster's centre: the cluster's unresolved light
+    # there is added to the sky (planner.light.cluster_light); None: not counted.
+    field_radius_arcmin: float | None = None
     priority: float = 1.0  # a weight on the target's own priority
 
 

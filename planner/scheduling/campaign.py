@@ -115,7 +115,8 @@ def goal_exposures(campaign: Campaign, seeing_arcsec: float | None = None) -> di
             try:
                 level = science_level(t, g.level, band)
                 p = exposure_for_level(site, g.filter, level, g.snr, airmass=EXPOSURE_AIRMASS,
-                                       seeing_fwhm_arcsec=seeing, max_frame_s=campaign.max_frame_s)
+                                       seeing_fwhm_arcsec=seeing, max_frame_s=campaign.max_frame_s,
+                                       cluster_sb_mag_arcsec2=goal_cluster_light(campaign, i, name))
             except CampaignError:
                 raise
             except InputError as exc:  # from the exposure core: no way to meet the goal
@@ -165,6 +166,21 @@ def is_fill(visit) -> bool:
     return getattr(visit, "request_key", getattr(visit, "key", "")).endswith(FILL_SUFFIX)
 
 
+def goal_cluster_light(campaign, i, name) -> float | None:
+    """The cluster's surface brightness (mag/arcsec², in the goal's band) at the goal's
+    ``field_radius_arcmin`` (None without one, or beyond the tidal radius)."""
+    import math
+
+    from planner.light.cluster_light import cluster_surface_brightness
+
+    g = campaign.goals[i]
+    if g.field_radius_arcmin is None:
+        return None
+    t = next(t for t in campaign.targets if t.name == name)
+    mu, _ = cluster_surface_brightness(t, campaign.site.filters[g.filter].band, g.field_radius_arcmin)
+    return mu if math.isfinite(mu) else None
+
+
 def _depth_sizing(campaign, i, name) -> dict:
     """What lets the night planner size a depth visit's frames where it places it: the
     goal's S/N at the level's magnitude, its brightest stars kept linear, the longest frame."""
@@ -174,7 +190,7 @@ def _depth_sizing(campaign, i, name) -> dict:
     t = next(t for t in campaign.targets if t.name == name)
     level = science_level(t, g.level, campaign.site.filters[g.filter].band)
     return {"snr_goal": g.snr, "magnitude": level.magnitude, "saturation_magnitude": level.brightest_mag,
-            "max_frame_s": campaign.max_frame_s}
+            "max_frame_s": campaign.max_frame_s, "cluster_sb_mag_arcsec2": goal_cluster_light(campaign, i, name)}
 
 
 def _cadence_sizing(campaign, name, stars) -> dict:
@@ -214,7 +230,8 @@ def _depth_request(campaign, i, name, exposures, count: int, *, fill=False):
         # A goal's visit is sized where it is planned; a spare-time frame keeps the goal's
         # frame length (its S/N is still reported where it lands).
         **(_depth_sizing(campaign, i, name) if not fill else
-           {"magnitude": _depth_sizing(campaign, i, name)["magnitude"]}))
+           {k: v for k, v in _depth_sizing(campaign, i, name).items()
+            if k in ("magnitude", "cluster_sb_mag_arcsec2")}))
 
 
 def _cadence_request(campaign, name, stars, exposures, count, spacing_min, *, fill=False):

@@ -84,7 +84,8 @@ def sized_frames(site, q, airmass, moon_sep, moon_alt, moon_illum, seeing_arcsec
     g = exposure_grid(site, e.filter, q.magnitude, q.snr_goal, airmass=x,
                       seeing_fwhm_arcsec=planned_seeing(seeing_arcsec, x), moon_illumination=moon_illum,
                       moon_separation_deg=np.clip(moon_sep, 0.0, 180.0), moon_altitude_deg=moon_alt,
-                      saturation_magnitude=q.saturation_magnitude, max_frame_s=q.max_frame_s)
+                      saturation_magnitude=q.saturation_magnitude, max_frame_s=q.max_frame_s,
+                      cluster_sb_mag_arcsec2=q.cluster_sb_mag_arcsec2)
     return np.asarray(g.frames), np.asarray(g.frame_s, dtype=float)
 
 
@@ -98,5 +99,5 @@ def snr_planned(site, q, exposures, airmass, moon_sep, moon_alt, moon_illum, see
     one = snr_of_exposure(site, e.filter, q.magnitude, e.exposure_s, airmass=x,
                           seeing_fwhm_arcsec=float(planned_seeing(seeing_arcsec, x)),
                           moon_illumination=moon_illum, moon_separation_deg=float(np.clip(moon_sep, 0, 180)),
-                          moon_altitude_deg=float(moon_alt))
+                          moon_altitude_deg=float(moon_alt), cluster_sb_mag_arcsec2=q.cluster_sb_mag_arcsec2)
     return float(np.sqrt(e.frames) * one)

@@ -88,6 +88,7 @@ class VisitRequest:
     magnitude: float | None = None  # of the star the S/N is for, in the filter of the first exposure line
     saturation_magnitude: float | None = None
     max_frame_s: float | None = None
+    cluster_sb_mag_arcsec2: float | None = None  # the cluster's own light at the stars, added to the sky
 
     @property
     def sized(self) -> bool:
