@@ -208,3 +208,23 @@ def test_done_naming_no_visit_is_a_warning(setup):
     result = replan_night(campaign, NIGHT, now, done=(original.visits[0].id, "N9999-var1"))
     assert any("'N9999-var1' names no visit" in w for w in result.plan.warnings)
     assert not any(original.visits[0].id in w for w in result.plan.warnings)
+
+
+def test_a_replan_keeps_the_night_used_and_its_gaps_true(setup):
+    """Re-planned from mid-night (seeing changed), the rest of the night is as full as the
+    campaign's own plan of it: goals first, spare-time work around them, and the gaps are
+    those of the night as it now stands (not the goals' pass alone), each with a reason."""
+    campaign, original, _ = setup
+    now = original.visits[len(original.visits) // 2].start_jd + 1e-4
+
+    def idle_after(plan):
+        return sum(max(0.0, g.end_jd - max(g.start_jd, now)) * 1440.0 for g in plan.gaps if g.reason != "closed")
+
+    result = replan_night(campaign, NIGHT, now, seeing_arcsec=1.2)
+    assert result.reasons
+    assert idle_after(result.plan) <= idle_after(original) + 20.0
+    assert {g.reason for g in result.plan.gaps} <= {"goals met", "nothing observable", "closed"}
+    busy = sorted((v.start_jd, v.end_jd) for v in result.plan.visits if v.status != "missed")
+    for g in result.plan.gaps:  # a gap is time no kept visit takes
+        assert not any(a < g.end_jd - 1e-9 and b > g.start_jd + 1e-9 for a, b in busy)
+    assert not validate_plan(campaign.site, result.plan)

@@ -37,6 +37,7 @@ from dataclasses import dataclass, replace
 
 from planner.model.evidence import match_visits
 from planner.model.names import normalize_name
+from planner.scheduling.campaign_nights import CADENCE_SPREAD
 from planner.scheduling.night import plan_night
 from planner.scheduling.night_plan import NightPlan
 from planner.scheduling.visit_ids import assign_ids, same_visit_id
@@ -99,6 +100,7 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     closed periods given by the observer and read from the logbook.
     """
     from planner.scheduling.campaign import add_spare_work, goal_exposures, is_fill, plan_through_night
+    from planner.scheduling.campaign_nights import gaps_with_reasons
 
     planned_seeing = campaign.seeing_arcsec or campaign.site.sky.typical_seeing_arcsec
     original, requests, covered = plan_through_night(campaign, night)
@@ -134,7 +136,7 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     start = max([now_jd] + [v.end_jd for v in fixed])
     # The goals (and the frames partial visits owe) first, spare-time work around them after,
     # as the campaign plans a night.
-    goals = [q for q in requests if not is_fill(q)]
+    goals = [_respaced(q, fixed, start, original.window_end_jd, campaign) for q in requests if not is_fill(q)]
     spare = [q for q in requests if is_fill(q)]
     w0, w1, eph = original.window_start_jd, original.window_end_jd, _ephemeris(campaign, night)
     plan = plan_night(campaign.site, campaign.constraints, goals, night, w0, w1, eph, closed=closed,
@@ -148,7 +150,10 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     kept = {v.id for v in fixed}
     new = assign_ids([v for v in plan.visits if v.id not in kept], night, used)
     visits = tuple(sorted(list(fixed) + new + missed, key=lambda v: v.start_jd))
-    return ReplanResult(replace(plan, visits=visits, warnings=plan.warnings + notes), original, now_jd,
+    # The gaps of the night as it now stands (both passes' visits), each with its reason.
+    gaps = gaps_with_reasons(campaign.site, campaign.constraints, campaign.targets, eph, w0, w1,
+                             [v for v in visits if v.status != "missed"], closed)
+    return ReplanResult(replace(plan, visits=visits, gaps=gaps, warnings=plan.warnings + notes), original, now_jd,
                         tuple(reasons))
 
 
@@ -181,6 +186,21 @@ def _past_statuses(original, now_jd, closed, logged_closed, done, logged, key, a
             status, source = "unknown", None
         out.append(replace(v, status=status, status_source=source))
     return out, evidence
+
+
+def _respaced(q, fixed, start_jd, end_jd, campaign):
+    """A cadence request with its spacing fitted to what is left of the night: the campaign
+    spread a night's visits over the cluster's hours, and after a closure or late in the
+    night the visits still wanted keep that spread over the time that remains (never
+    closer than the campaign's minimum spacing)."""
+    c = campaign.cadence
+    if c is None or q.min_spacing_min <= 0:
+        return q
+    left = q.count - sum(1 for v in fixed if v.request_key == q.key)
+    if left <= 1:
+        return q
+    fit = CADENCE_SPREAD * (end_jd - start_jd) * 1440.0 / (left - 1)
+    return replace(q, min_spacing_min=max(c.min_spacing_min, min(q.min_spacing_min, fit)))
 
 
 def _owed_requests(partial, requests, evidence):
