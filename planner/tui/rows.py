@@ -126,6 +126,7 @@ def current_and_next(plan, now_jd: float) -> tuple[int | None, int | None]:
 
 def plan_rows(plan, zone: str, now_jd: float) -> list[Row]:
     """Visits and gaps in time order; the visit under way and the next one marked."""
+    from planner.reports.schedule_report import GAP_WORDS
     from planner.scheduling.visits import exposures_text
 
     current, nxt = current_and_next(plan, now_jd)
@@ -136,7 +137,7 @@ def plan_rows(plan, zone: str, now_jd: float) -> list[Row]:
         times = f"{local_hhmm(item.start_jd, zone):>5} {utc_hhmm(item.start_jd):>5} {local_hhmm(item.end_jd, zone):>5}"
         if what == 1:
             kind = "closed" if item.reason == "closed" else "idle"
-            say = "closed (weather)" if kind == "closed" else "idle: nothing observable fits"
+            say = GAP_WORDS.get(item.reason, f"idle: {item.reason}")  # as the night sheet says it
             rows.append(Row(f"  {times} ┄ {say}, {item.minutes:.0f} min", kind))
             continue
         v = item
