@@ -36,7 +36,7 @@ def add_site_arguments(parser: argparse.ArgumentParser, required: bool = True) -
     parser.add_argument(
         "--timezone",
         metavar="ZONE",
-        help="IANA time zone for a LAT,LON site (default UTC), e.g. America/Santiago",
+        help="IANA time zone for a LAT,LON site, e.g. America/Santiago (default: the whole-hour zone nearest the site's mean solar time)",
     )
 
 

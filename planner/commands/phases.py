@@ -16,7 +16,7 @@ def register(sub) -> None:
         "sampled, and a warning for periods whose phase barely drifts from night to night.",
     )
     p.add_argument("--variables", required=True, metavar="FILE",
-                   help="variables table (ECSV/CSV): id, period_d, epoch_hjd and ra_deg, dec_deg or cluster")
+                   help="variables table (ECSV/CSV): id, period_d, epoch_hjd (or epoch_bjd_tdb) and ra_deg, dec_deg or cluster")
     p.add_argument("--times", required=True, metavar="FILE",
                    help="observation times (ECSV/CSV): a time_utc (ISO 8601) or jd_utc column")
     p.add_argument("--bins", type=int, default=20, metavar="N", help="phase bins (default 20)")

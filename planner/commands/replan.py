@@ -20,7 +20,7 @@ def register(sub) -> None:
         help="plan the rest of a night again after weather, seeing or progress changed",
         description="Plan the rest of a campaign night again from --now: visits before then stay as "
         "they were; a visit is done when the logbook beside the campaign file holds its frames (same "
-        "cluster and filter, exposure within 10 %%, inside the visit's time) or --done names it; with "
+        "cluster and filter, exposure within 10 %, inside the visit's time) or --done names it; with "
         "some of its frames it is partial and the rest are planned again; with nothing known it is "
         "unknown (--assume-done counts those done). Closed periods (weather) get no visit; a new seeing "
         "recomputes the exposures. With nothing changed, the plan stays the same.",
