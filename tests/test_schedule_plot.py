@@ -46,3 +46,23 @@ def test_visit_numbers_are_clear_of_the_target_labels(night):
         box = t.get_window_extent(renderer)
         assert not any(box.overlaps(b) for b in labels), f"visit {t.get_text()} covers a target label"
         assert frame.x0 <= box.x0 and box.x1 <= frame.x1 and frame.y0 <= box.y0 and box.y1 <= frame.y1
+
+
+def test_spare_time_visits_are_thin_and_unnumbered_on_a_campaign_night():
+    """On a full campaign night the goals' visits keep their numbers; spare-time work (the
+    ``fill`` visits) is drawn as thin bars without numbers, and the title counts it."""
+    from planner.inputs.campaign_file import read_campaign_file
+    from planner.inputs.resources import targets_dir
+    from planner.scheduling.campaign import is_fill, plan_campaign_night
+
+    campaign = read_campaign_file(targets_dir() / "demo" / "campaign.toml")
+    plan, _ = plan_campaign_night(campaign, campaign.nights[0])
+    spare = [v for v in plan.visits if is_fill(v)]
+    assert spare and len(spare) < len(plan.visits)
+    ax = schedule_chart(campaign.site, plan).axes[0]
+    numbered = {t.get_gid()[len("number:"):] for t in _texts(ax, "number")}
+    assert numbered == {v.id for v in plan.visits if not is_fill(v)}
+    bars = {ln.get_gid()[len("visit:"):]: ln for ln in ax.lines if (ln.get_gid() or "").startswith("visit:")}
+    assert set(bars) == {v.id for v in plan.visits}
+    assert all(bars[v.id].get_linewidth() < 4 for v in spare)
+    assert f"({len(spare)} extra" in ax.get_title(loc="left")

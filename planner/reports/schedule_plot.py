@@ -16,6 +16,7 @@ import numpy as np
 
 from planner.reports.altitude_chart import night_chart
 from planner.reports.figure_common import A4_LANDSCAPE_IN, TARGET_COLOURS, jd_to_mdate, save_figure
+from planner.scheduling.campaign import FILL_SUFFIX
 
 
 def schedule_chart(site, plan, fig=None):
@@ -40,22 +41,31 @@ def schedule_chart(site, plan, fig=None):
     order = np.argsort(np.nan_to_num(run.visibility.window_start_jd[:, 0], nan=np.inf), kind="stable")
     rank = {int(k): r for r, k in enumerate(order)}
     numbers = []
+    extra = 0
     for v in plan.visits:
         k = names.index(v.target)
         seg = np.linspace(v.start_jd, v.end_jd, 8)
         y = np.interp(seg, jd, alt[k])
+        target_colour = TARGET_COLOURS[rank[k] % len(TARGET_COLOURS)]
+        if v.request_key.endswith(FILL_SUFFIX):
+            # Spare-time work: a thin bar, no number, so the goals' visits stay readable on a
+            # full campaign night (the night sheet lists every visit with its id).
+            extra += 1
+            ax.plot(jd_to_mdate(seg), y, color="#111111", linewidth=2.5, solid_capstyle="butt", zorder=7,
+                    alpha=0.55, gid=f"visit:{v.id}")
+            continue
         colour = "#9a9a9a" if v.status == "missed" else "#111111"
         ax.plot(jd_to_mdate(seg), y, color=colour, linewidth=7.5, solid_capstyle="butt", zorder=7,
                 gid=f"visit:{v.id}")
-        ax.plot(jd_to_mdate(seg), y, color=TARGET_COLOURS[rank[k] % len(TARGET_COLOURS)], linewidth=4.5,
-                solid_capstyle="butt", zorder=8)
+        ax.plot(jd_to_mdate(seg), y, color=target_colour, linewidth=4.5, solid_capstyle="butt", zorder=8)
         numbers.append((v.id, jd_to_mdate(0.5 * (v.start_jd + v.end_jd)), float(np.max(y))))
     _number_visits(ax, numbers)
     for g in plan.gaps:
         colour = "#c92a2a" if g.reason == "closed" else "#f08c00"
         ax.axvspan(*jd_to_mdate([g.start_jd, g.end_jd]), ymin=0.0, ymax=0.025, facecolor=colour,
                    edgecolor="none", zorder=9, gid=f"gap:{g.reason}")
-    ax.set_title(f"{len(plan.visits)} visits planned · efficiency {plan.efficiency * 100:.1f} % · "
+    spare = f" ({extra} extra, thin bars, unnumbered)" if extra else ""
+    ax.set_title(f"{len(plan.visits)} visits planned{spare} · efficiency {plan.efficiency * 100:.1f} % · "
                  f"idle {plan.idle_minutes:.0f} min (orange) · closed {plan.closed_minutes:.0f} min (red)",
                  fontsize=9, loc="left")
     return fig
