@@ -192,8 +192,8 @@ def read_frame_header(path: str | Path, keywords: Mapping[str, str] | None = Non
     except (TypeError, ValueError):
         raise FrameProblem(f"{names['EXPTIME']} {raw_exp!r} is not a number of seconds") from None
     if not (np.isfinite(exposure) and 0 <= exposure <= MAX_FRAME_S):
-        raise FrameProblem(f"{names['EXPTIME']} {raw_exp!r} is not an exposure time: it must be "
-                           f"0..{MAX_FRAME_S:g} seconds")
+        raise FrameProblem(f"{names['EXPTIME']} {raw_exp!r} must be ≥ 0 and at most {MAX_FRAME_S:g} seconds "
+                           "(a day)")
     target = str(need("OBJECT")).strip()
     filt = values.get("FILTER")
     filt = str(filt).strip() or None if filt is not None else None
