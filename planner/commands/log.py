@@ -139,14 +139,14 @@ def run_ingest(args) -> int:
         site = site_for(args, book, required=True)
         catalog = load_catalog()
         if not args.watch:
-            report = ingest_folder(book, args.folder, site, catalog)
+            report = ingest_folder(book, args.folder, site, catalog, parse_time(None))
         else:
             if not Path(args.folder).is_dir():
                 from planner.logbook.store import LogbookError
 
                 raise LogbookError(f"frame folder {args.folder!r} does not exist or is not a folder")
-            if args.interval <= 0:
-                raise DateError(f"--interval must be > 0 seconds (got {args.interval:g})")
+            if not 0 < args.interval <= 86400:  # nan would spin, inf never scan again
+                raise DateError(f"--interval must be a number of seconds, 0 < S ≤ 86400 (got {args.interval:g})")
             warned: dict[str, str] = {}
 
             def on_pass(r):
@@ -160,7 +160,8 @@ def run_ingest(args) -> int:
 
             if not args.json:
                 print(f"watching {args.folder} every {args.interval:g} s; Ctrl-C to stop", flush=True)
-            report = watch_folder(book, args.folder, site, catalog, args.interval, on_pass)
+            report = watch_folder(book, args.folder, site, catalog, args.interval, on_pass,
+                                  now_jd=lambda: parse_time(None))
     if args.json:
         common.print_json({"added": len(report.added), "added_ids": list(report.added),
                            "already": report.already,

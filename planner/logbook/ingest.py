@@ -31,8 +31,8 @@ from typing import Callable, Mapping
 
 import numpy as np
 
-from planner.logbook.store import Logbook, NewEntry, night_of_jd
-from planner.sky.nights import datetime_to_jd
+from planner.logbook.store import EntryRefused, Logbook, NewEntry, night_of_jd
+from planner.sky.nights import FIRST_YEAR, LAST_YEAR, datetime_to_jd
 
 #: File names taken as frames (case ignored).
 FRAME_SUFFIXES = (".fits", ".fit", ".fts", ".fits.gz", ".fit.gz", ".fits.fz")
@@ -40,6 +40,16 @@ FRAME_SUFFIXES = (".fits", ".fit", ".fts", ".fits.gz", ".fit.gz", ".fits.fz")
 STANDARD_KEYWORDS = ("DATE-OBS", "TIME-OBS", "EXPTIME", "OBJECT", "FILTER", "AIRMASS", "RA", "DEC")
 #: An airmass in a header outside this range is not believed (and is recomputed).
 _AIRMASS_RANGE = (1.0 - 1e-3, 40.0)  # 38 at the horizon (Kasten & Young 1989)
+#: The longest single frame believed, seconds: a day (common practice, no source: no
+#: exposure outlasts a night).  A longer EXPTIME is a broken header, and the frame is skipped.
+MAX_FRAME_S = 86400.0
+#: A frame dated more than this after the ingest's "now" has a clock that is wrong (days).
+FUTURE_SLACK_D = 1.0
+#: Frames closer in time than this share one Sun/Moon table when their airmass is computed (days).
+#: Measured here: a table costs about 0.04 s plus 0.0016 s per day it spans, so two runs of
+#: frames further apart than about 25 days are cheaper with a table each; a pass then costs at
+#: most that per frame, whatever dates it meets.
+_EPHEMERIS_GROUP_GAP_D = 20.0
 _SEXAGESIMAL = re.compile(r"^\s*([+-]?)\s*(\d+(?:\.\d*)?)[\s:hd°]+(\d+(?:\.\d*)?)(?:[\s:m′']+(\d+(?:\.\d*)?))?[s″\"]?\s*$")
 
 
@@ -85,6 +95,10 @@ def parse_date_obs(value, time_obs=None) -> float:
         raise FrameProblem(f"DATE-OBS {value!r} is not an ISO 8601 date-time such as 2027-05-12T23:41:05.2") from None
     if moment.tzinfo is not None:
         moment = moment.astimezone(dt.timezone.utc).replace(tzinfo=None)
+    if not FIRST_YEAR <= moment.year <= LAST_YEAR:
+        # Year 0001, 9999 (an unset or broken camera clock): no night, no Sun or Moon to compute.
+        raise FrameProblem(f"DATE-OBS {value!r} is outside {FIRST_YEAR}–{LAST_YEAR}, the years gcplan's "
+                           "ephemeris covers (is the camera clock set?)")
     return datetime_to_jd(moment)
 
 
@@ -172,11 +186,14 @@ def read_frame_header(path: str | Path, keywords: Mapping[str, str] | None = Non
     time_jd = parse_date_obs(need("DATE-OBS"), values.get("TIME-OBS"))
     raw_exp = need("EXPTIME")
     try:
+        if isinstance(raw_exp, bool):  # a logical card (EXPTIME = T) is no number of seconds
+            raise TypeError
         exposure = float(raw_exp)
     except (TypeError, ValueError):
         raise FrameProblem(f"{names['EXPTIME']} {raw_exp!r} is not a number of seconds") from None
-    if not (np.isfinite(exposure) and exposure >= 0):
-        raise FrameProblem(f"{names['EXPTIME']} {raw_exp!r} must be ≥ 0 seconds")
+    if not (np.isfinite(exposure) and 0 <= exposure <= MAX_FRAME_S):
+        raise FrameProblem(f"{names['EXPTIME']} {raw_exp!r} must be ≥ 0 and at most {MAX_FRAME_S:g} seconds "
+                           "(a day)")
     target = str(need("OBJECT")).strip()
     filt = values.get("FILTER")
     filt = str(filt).strip() or None if filt is not None else None
@@ -223,16 +240,30 @@ def airmass_at(site, ra_deg, dec_deg, jd_utc) -> np.ndarray:
         return np.array([])
     loc = site.location
     geo = site_geometry(loc.latitude_deg, loc.longitude_deg, loc.elevation_m)
-    lo, hi = float(jd.min()), float(jd.max())
-    eph = build_ephemeris(lo - 0.1, hi + 0.1)
-    # Unique positions: a night's frames are a few clusters many times over.
-    pos, index = np.unique(np.column_stack([ra, dec]), axis=0, return_inverse=True)
-    places = apparent_places(pos[:, 0], pos[:, 1], lo, hi)
-    ra_app, dec_app = places.at(jd)  # (positions, frames)
-    cols = np.arange(jd.size)
-    index = np.asarray(index).reshape(-1)
-    sky = sky_at(time_track(eph, geo, jd), loc.latitude_deg, ra_app[index, cols], dec_app[index, cols])
-    return np.asarray(sky.airmass, dtype=float)
+    out = np.full(jd.size, np.nan)
+    # One Sun/Moon table per run of frames close in time, never one spanning years:
+    # a frame with a wrong clock costs what a good one does.
+    for group in time_groups(jd, _EPHEMERIS_GROUP_GAP_D):
+        g_jd = jd[group]
+        lo, hi = float(g_jd.min()), float(g_jd.max())
+        eph = build_ephemeris(lo - 0.1, hi + 0.1)
+        # Unique positions: a night's frames are a few clusters many times over.
+        pos, index = np.unique(np.column_stack([ra[group], dec[group]]), axis=0, return_inverse=True)
+        places = apparent_places(pos[:, 0], pos[:, 1], lo, hi)
+        ra_app, dec_app = places.at(g_jd)  # (positions, frames)
+        cols = np.arange(g_jd.size)
+        index = np.asarray(index).reshape(-1)
+        sky = sky_at(time_track(eph, geo, g_jd), loc.latitude_deg, ra_app[index, cols], dec_app[index, cols])
+        out[group] = np.asarray(sky.airmass, dtype=float)
+    return out
+
+
+def time_groups(jd, gap_d: float) -> list[np.ndarray]:
+    """Indices of ``jd`` in runs whose consecutive (sorted) times are less than ``gap_d`` apart."""
+    jd = np.asarray(jd, dtype=float)
+    order = np.argsort(jd, kind="stable")
+    breaks = np.flatnonzero(np.diff(jd[order]) >= gap_d) + 1
+    return [g for g in np.split(order, breaks) if g.size]
 
 
 # --- a pass over a folder ----------------------------------------------------
@@ -245,13 +276,20 @@ def frame_files(folder: str | Path) -> list[Path]:
                   and not p.name.startswith("."))
 
 
-def ingest_folder(logbook: Logbook, folder: str | Path, site, catalog=None) -> IngestReport:
+def ingest_folder(logbook: Logbook, folder: str | Path, site, catalog=None,
+                  now_jd: float | None = None) -> IngestReport:
     """One pass over ``folder``: every new, complete frame becomes an entry (each its own transaction).
 
     ``site`` gives the keyword mapping, the airmass computation and the night
     a frame belongs to; it may be None (standard keywords, header airmass
     only, nights in UTC).  ``catalog`` supplies positions for frames whose
-    header has no RA/DEC.
+    header has no RA/DEC.  ``now_jd`` (the command passes the clock's; None:
+    no such check) is when the pass runs: a frame dated more than a day later
+    is stored without a computed airmass, with a warning.
+
+    Each frame stands alone: one that cannot be read, or whose header holds
+    an impossible value, is skipped with its reason (naming the keyword) and
+    never stops the others.
     """
     root = Path(folder)
     if not root.is_dir():
@@ -277,12 +315,17 @@ def ingest_folder(logbook: Logbook, folder: str | Path, site, catalog=None) -> I
         except OSError as exc:  # vanished or unreadable between listing and reading
             skipped.append((str(path), f"cannot read ({exc.strerror or exc})"))
             continue
+        except (ValueError, TypeError, ArithmeticError, LookupError) as exc:
+            # A header no check above foresaw: this frame is skipped, the others go on.
+            skipped.append((str(path), f"header cannot be used ({type(exc).__name__}: {exc})"))
+            continue
         if path.stat().st_size != stat.st_size:  # grew while we read it: next pass
             skipped.append((str(path), "file changed while being read: still being written"))
             continue
         frames.append((header, stat, fingerprint))
 
-    airmass, source, notes = _airmasses(frames, site, catalog)
+    future = [now_jd is not None and h.time_jd > now_jd + FUTURE_SLACK_D for h, _, _ in frames]
+    airmass, source, notes = _airmasses(frames, site, catalog, future)
     added: list[int] = []
     zone = site.location.timezone if site is not None else "UTC"
     for (h, stat, fingerprint), x, src in zip(frames, airmass, source):
@@ -291,8 +334,12 @@ def ingest_folder(logbook: Logbook, folder: str | Path, site, catalog=None) -> I
             airmass=x, airmass_source=src, file=h.file, file_size=stat.st_size,
             file_mtime_ns=stat.st_mtime_ns, fingerprint=fingerprint, ra_deg=h.ra_deg, dec_deg=h.dec_deg,
             source="fits")
-        new_id = logbook.add_entry(entry, night=str(night_of_jd(h.time_jd, zone)),
-                                   key=catalog.key if catalog is not None else None)
+        try:
+            new_id = logbook.add_entry(entry, night=str(night_of_jd(h.time_jd, zone)),
+                                       key=catalog.key if catalog is not None else None)
+        except EntryRefused as exc:  # this entry only; a logbook that cannot be written still stops the pass
+            skipped.append((h.file, f"the logbook refused it ({exc.detail})"))
+            continue
         if new_id is None:
             already += 1
         else:
@@ -300,13 +347,18 @@ def ingest_folder(logbook: Logbook, folder: str | Path, site, catalog=None) -> I
     return IngestReport(tuple(added), tuple(skipped), already, tuple(notes))
 
 
-def _airmasses(frames, site, catalog):
-    """Header airmass where given, else computed at mid-exposure from RA/DEC or the catalog position."""
+def _airmasses(frames, site, catalog, future=None):
+    """Header airmass where given, else computed at mid-exposure from RA/DEC or the catalog position
+    (not for a frame flagged in ``future``: its clock is wrong, so is any altitude from it)."""
     airmass: list[float | None] = [h.airmass for h, _, _ in frames]
     source: list[str | None] = ["header" if x is not None else None for x in airmass]
     notes: list[str] = []
     todo, ra, dec, jd = [], [], [], []
     for k, (h, _, _) in enumerate(frames):
+        if future is not None and future[k]:
+            notes.append(f"{h.file}: DATE-OBS {_iso(h.time_jd)} is in the future (is the camera clock set?): "
+                         "stored without a computed airmass")
+            continue
         if airmass[k] is not None:
             continue
         r, d = h.ra_deg, h.dec_deg
@@ -323,7 +375,11 @@ def _airmasses(frames, site, catalog):
         dec.append(d)
         jd.append(h.time_jd + h.exposure_s / 2.0 / 86400.0)
     if todo:
-        computed = airmass_at(site, ra, dec, jd)
+        try:
+            computed = airmass_at(site, ra, dec, jd)
+        except (ValueError, ArithmeticError) as exc:  # never lose the frames over their airmass
+            computed = ()
+            notes.append(f"airmass of {len(todo)} frame(s) not computed ({type(exc).__name__}: {exc})")
         for k, x in zip(todo, computed):
             if np.isfinite(x):
                 airmass[k], source[k] = float(x), "computed"
@@ -333,10 +389,19 @@ def _airmasses(frames, site, catalog):
     return airmass, source, notes
 
 
+def _iso(jd: float) -> str:
+    from planner.sky.nights import iso_utc
+
+    return iso_utc(jd)
+
+
 def watch_folder(logbook: Logbook, folder: str | Path, site, catalog=None, interval_s: float = 5.0,
                  on_pass: Callable[[IngestReport], None] | None = None,
-                 should_stop: Callable[[], bool] | None = None, max_passes: int | None = None) -> IngestReport:
+                 should_stop: Callable[[], bool] | None = None, max_passes: int | None = None,
+                 now_jd: Callable[[], float] | None = None) -> IngestReport:
     """Pass after pass every ``interval_s`` seconds until ``should_stop()`` or ``max_passes``.
+
+    ``now_jd``, if given, is the clock (JD UTC) each pass reads for its future-frame check.
 
     Ctrl-C (KeyboardInterrupt) between or during passes ends the watch cleanly:
     every entry committed so far stays, the one in flight is rolled back by
@@ -350,7 +415,7 @@ def watch_folder(logbook: Logbook, folder: str | Path, site, catalog=None, inter
             # Read the stop flag before the pass, so the last pass starts after the
             # stop: a frame that arrived just before it is not left out.
             stopping = bool(should_stop and should_stop())
-            report = ingest_folder(logbook, folder, site, catalog)
+            report = ingest_folder(logbook, folder, site, catalog, now_jd() if now_jd else None)
             added.extend(report.added)
             skipped = report.skipped
             passes += 1

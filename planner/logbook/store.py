@@ -59,6 +59,10 @@ class LogbookError(InputError):
     """A logbook file that cannot be opened or written, or a bad log entry."""
 
 
+class EntryRefused(LogbookError):
+    """One record the logbook's constraints refuse (the file itself is fine)."""
+
+
 @dataclass(frozen=True)
 class LogEntry:
     """One row of the log: a frame (or a group of ``frames`` identical frames)."""
@@ -269,7 +273,7 @@ class Logbook:
                     self._db.execute("ROLLBACK")
                 raise
         except sqlite3.IntegrityError as exc:
-            raise LogbookError(f"the logbook refused the {what} ({exc})", self.path) from None
+            raise EntryRefused(f"the logbook refused the {what} ({exc})", self.path) from None
         except sqlite3.Error as exc:
             raise _fail(self.path, exc) from None
 
