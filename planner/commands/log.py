@@ -139,7 +139,9 @@ def run_ingest(args) -> int:
         site = site_for(args, book, required=True)
         catalog = load_catalog()
         if not args.watch:
-            report = ingest_folder(book, args.folder, site, catalog, parse_time(None))
+            # No future-date check from the command line: rehearsals ingest frames dated ahead of the
+            # computer's clock (the demo's invented night), and their airmass is wanted.
+            report = ingest_folder(book, args.folder, site, catalog)
         else:
             if not Path(args.folder).is_dir():
                 from planner.logbook.store import LogbookError
@@ -160,8 +162,7 @@ def run_ingest(args) -> int:
 
             if not args.json:
                 print(f"watching {args.folder} every {args.interval:g} s; Ctrl-C to stop", flush=True)
-            report = watch_folder(book, args.folder, site, catalog, args.interval, on_pass,
-                                  now_jd=lambda: parse_time(None))
+            report = watch_folder(book, args.folder, site, catalog, args.interval, on_pass)
     if args.json:
         common.print_json({"added": len(report.added), "added_ids": list(report.added),
                            "already": report.already,
