@@ -74,17 +74,27 @@ def semester_nights(label: str, settings) -> tuple[dt.date, dt.date]:
     the next semester starts."""
     m = _SEMESTER.fullmatch(label.strip())
     if not m:
-        raise SemesterError(f"--semester must be a year and A or B, like 2027A (got {label!r})")
+        raise SemesterError(f"must be a year and A or B, like 2027A (got {label!r})")
     year, half = int(m[1]), m[2].upper()
     a, b = settings.semester_a_start_month, settings.semester_b_start_month
     if not 1900 <= year <= 2200:
-        raise SemesterError(f"--semester year must be 1900..2200 (got {label!r})")
+        raise SemesterError(f"year must be 1900..2200 (got {label!r})")
     a_start = dt.date(year, a, 1)
     b_start = dt.date(year if b > a else year + 1, b, 1)
     if half == "A":
         return a_start, b_start - dt.timedelta(days=1)
     next_a = dt.date(b_start.year + 1 if a <= b else b_start.year, a, 1)
     return b_start, next_a - dt.timedelta(days=1)
+
+
+def semester_label(night: dt.date, settings) -> str:
+    """The semester (``"2027A"``) a night falls in."""
+    for year in (night.year - 1, night.year):
+        for half in "AB":
+            first, last = semester_nights(f"{year}{half}", settings)
+            if first <= night <= last:
+                return f"{year}{half}"
+    raise AssertionError("every night falls in a semester")  # the two halves tile the years
 
 
 def moon_class(illumination) -> np.ndarray:
@@ -111,7 +121,7 @@ class RequestRow:
     airmass: float
     moon: str  # "dark" (asks for dark time) or "any"
     hours_by_moon: dict  # class -> hours of this row
-    note: str = ""
+    conditions: dict = field(default_factory=dict)  # what the frames were sized at (exposure core keywords)
 
     @property
     def hours(self) -> float:
@@ -304,6 +314,7 @@ def _work(campaign, t, stars, airmass, seeing, illumination) -> tuple[list, list
         except InputError as exc:
             notes.append(f"{g.level} S/N {g.snr:g} in {g.filter}: {exc.detail}")
             continue
+        notes += [f"{g.level} in {g.filter}: {w}" for w in p.warnings if "saturates" in w]
         out.append(_Work(g.level, g.filter, g.snr, level.magnitude, int(p.frames), float(p.frame_s), g.dark, cond))
     c = campaign.cadence
     if c is not None and stars:
@@ -418,7 +429,7 @@ def _row(campaign, t, w: _Work, visits: int, slew: float, airmass: float, share:
     split = {c: (hours if c == "dark" else 0.0) for c in MOON_CLASSES} if w.dark else \
         {c: hours * share[c] for c in MOON_CLASSES}
     return RequestRow(t.name, w.purpose, w.filter, w.snr_goal, w.magnitude, w.frames, w.frame_s, visits, visit,
-                      shutter, visits * visit - shutter, airmass, "dark" if w.dark else "any", split)
+                      shutter, visits * visit - shutter, airmass, "dark" if w.dark else "any", split, w.conditions)
 
 
 def _cadence_nights(forecast, campaign, run, k, stars, w: _Work, order) -> tuple[tuple, int, str]:

@@ -20,6 +20,10 @@ RECOVERY_NIGHTS = (3, 5, 7, 10, 14)
 RECOVERY_GOAL = 0.9
 #: The forecast's seed: a request must be reproducible.
 FORECAST_SEED = 1
+#: Noise realisations per star: at least this many light curves a cluster, so that a cluster
+#: with one or two variables gets a fraction, not a coin toss (our choice).
+MIN_LIGHT_CURVES = 40
+MAX_REALISATIONS = 20
 #: Jitter of each visit around its slot's centre, days (as ``gcplan recover``'s default).
 JITTER_D = 10.0 / 1440.0
 
@@ -54,16 +58,24 @@ def recovery_against_nights(campaign, run, k: int, stars, work, order) -> list[t
     mean = np.array([s.mean_mag if s.mean_mag is not None else fallback for s in stars])
     snr = np.asarray(snr_of_exposure(campaign.site, work.filter, mean, work.frame_s, **work.conditions), dtype=float)
     sigma = visit_noise_mag(snr * np.sqrt(work.frames))
-    sample = StarSample(tuple(s.id for s in stars), period, amp, types, np.array([s.epoch_hjd for s in stars]))
+    r = int(min(MAX_REALISATIONS, -(-MIN_LIGHT_CURVES // len(stars))))  # each star r times, its own noise
+    sample = StarSample(tuple(f"{s.id}#{j}" for s in stars for j in range(r)), np.repeat(period, r),
+                        np.repeat(amp, r), tuple(t for t in types for _ in range(r)),
+                        np.repeat([s.epoch_hjd for s in stars], r))
+    mean, sigma = np.repeat(mean, r), np.repeat(sigma, r)
+    # The visits of the longest run once (the light-time correction is the costly part); a shorter
+    # run's visits are its first nights' — the same seed draws the same jitter for them.
+    counts = [n for n in RECOVERY_NIGHTS if n <= len(order)]
+    if not counts:
+        return []
+    jd = visit_times_in_windows(windows[order[:counts[-1]]], per_night, np.random.default_rng(FORECAST_SEED),
+                                JITTER_D)
+    times = np.repeat(ephemeris_dates(Time(jd, format="jd", scale="utc"), stars), r, axis=0)
     out = []
-    for n in RECOVERY_NIGHTS:
-        if n > len(order):
-            break
-        rng = np.random.default_rng(FORECAST_SEED)
-        jd = visit_times_in_windows(windows[order[:n]], per_night, rng, JITTER_D)
-        if jd.size < 4:
+    for n in counts:
+        used = n * per_night
+        if used < 4:
             continue
-        times = ephemeris_dates(Time(jd, format="jd", scale="utc"), stars)
-        result, _ = simulate_recovery(times, sample, mean, sigma, rng)
+        result, _ = simulate_recovery(times[:, :used], sample, mean, sigma, np.random.default_rng(FORECAST_SEED))
         out.append((n, float(result.recovered_fraction), float(result.alias_fraction)))
     return out
