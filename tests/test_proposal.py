@@ -227,6 +227,19 @@ def test_a_target_never_up_is_listed_with_its_reason(tmp_path, capsys):
     assert "never observable" in (out_dir / "proposal.md").read_text(encoding="utf-8")
 
 
+def test_a_range_too_short_for_the_forecast_asks_for_the_nights_it_has(capsys):
+    code, out, err = run(capsys, "proposal", "--campaign", DEMO_CAMPAIGN, "--start", "2027-01-02",
+                         "--end", "2027-01-03", "--json")
+    assert code == 0, err
+    data = json.loads(out)
+    cadence = [(t, r) for t in data["targets"] for r in t["rows"] if r["work"] == "variables"]
+    assert cadence
+    for t, r in cadence:
+        assert t["recovery"] == [] and 1 <= t["nights_needed"] <= 2
+        assert r["visits"] == 12 * t["nights_needed"]  # the demo cadence: 12 visits a night
+        assert any("no recovery forecast" in n for n in t["notes"])
+
+
 @pytest.mark.parametrize("argv, words", [
     (["--semester", "2027C"], "--semester"),
     (["--semester", "27A"], "--semester"),

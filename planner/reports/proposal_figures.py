@@ -32,7 +32,7 @@ def _page(title: str, subtitle: str = ""):
     from matplotlib.figure import Figure
 
     fig = Figure(figsize=A4_LANDSCAPE_IN)
-    fig.text(0.06, 0.965, textwrap.shorten(title, 110, placeholder="…"), fontsize=13, fontweight="bold", va="top")
+    fig.text(0.06, 0.965, textwrap.shorten(title, 110, placeholder="…"), fontsize=12, fontweight="bold", va="top")
     if subtitle:
         fig.text(0.06, 0.925, "\n".join(textwrap.wrap(subtitle, 150)), fontsize=9, va="top", color="#343a40",
                  linespacing=1.3)
@@ -48,7 +48,15 @@ def _colour(p, name: str) -> str:
 def table_lines(p) -> list[str]:
     """The request as fixed-width text: targets, time per filter and level, recovery, totals,
     assumptions, sources."""
-    from planner.reports.proposal_tables import assumptions, recovery_table, request_table, target_table, totals_lines
+    from planner.reports.proposal_tables import (
+        assumptions,
+        moon_lines,
+        recovery_table,
+        request_table,
+        serving_lines,
+        target_table,
+        totals_lines,
+    )
 
     def block(head, rows, widths):
         fmt = lambda r: "  ".join(f"{str(x)[:w]:<{w}s}" for x, w in zip(r, widths))  # noqa: E731
@@ -65,6 +73,9 @@ def table_lines(p) -> list[str]:
     if rows:
         out += ["", "FORECAST RR LYRAE PERIOD RECOVERY AGAINST NIGHTS"] + block(head, rows, (10,) + (18,) * 5)
     out += ["", "TOTALS"] + totals_lines(p)
+    out += ["", "NIGHTS THAT SERVE EACH TARGET, BY MOON CLASS"] + [w for x in serving_lines(p)
+                                                                  for w in textwrap.wrap(x, 150)]
+    out += ["", "MOON CONSTRAINTS"] + moon_lines(p)
     notes = [f"{t.name}: {n}" for t in p.targets for n in t.notes]
     if notes:
         out += ["", "NOTES"] + [w for n in notes for w in textwrap.wrap(n, 150)]

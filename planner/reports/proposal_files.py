@@ -12,9 +12,9 @@ from pathlib import Path
 FOLDER_NAMES = {"pdf": "proposal.pdf", "markdown": "proposal.md", "csv": "proposal.csv", "latex": "proposal.tex"}
 
 
-def write_proposal(proposal, paths: dict, folder: Path | None = None) -> list[Path]:
+def write_proposal(proposal, paths: dict, folder: Path | None = None, *, pngs: bool = True) -> list[Path]:
     """Write the files of ``paths`` (keys ``pdf``, ``markdown``, ``csv``, ``latex``) and, with
-    ``folder``, every file not given elsewhere into it, with a PNG per figure."""
+    ``folder``, every file not given elsewhere into it, with a PNG per figure (unless not ``pngs``)."""
     from planner.reports.proposal_figures import figures, save_pngs, write_pdf
     from planner.reports.proposal_tables import proposal_csv, proposal_latex, proposal_markdown
 
@@ -31,6 +31,6 @@ def write_proposal(proposal, paths: dict, folder: Path | None = None) -> list[Pa
     figs = figures(proposal) if ("pdf" in paths or folder is not None) else None
     if "pdf" in paths:
         written.append(write_pdf(proposal, paths["pdf"], figs))
-    if folder is not None:
+    if folder is not None and pngs:
         written += save_pngs(proposal, folder, figs)
     return written

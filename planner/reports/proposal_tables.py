@@ -58,6 +58,8 @@ def assumptions(p) -> list[str]:
         f"Cadence nights: the fewest of the forecast's that recover {RECOVERY_GOAL:.0%} of the periods "
         "(simulated light curves, Lomb–Scargle); a single site's daily gaps leave one-day aliases "
         "(1/P ± 1 d⁻¹), counted apart.",
+        "Over nights: the nights a target's visits are spread over (the cadence's, or the depth frames' at "
+        "the window's hours a night); full nights are the hours over the mean usable night.",
         "S/N at the RGB tip and the HB: the best any of the target's frames reach there (in each frame's "
         "band), among frames that keep those stars linear.",
         f"Nights: hours over the mean usable night of the range ({p.mean_night_hours:.1f} h). "
@@ -66,8 +68,8 @@ def assumptions(p) -> list[str]:
 
 
 def target_table(p) -> tuple[list[str], list[list[str]]]:
-    head = ["Target", "Best months", "Nights d/g/b", "Dark h", "Grey h", "Window", "Airmass",
-            "S/N tip", "S/N HB", "Nights", "Hours"]
+    head = ["Target", "Best months", "Nights d/g/b", "Dark h av.", "Grey h av.", "Window", "Airmass",
+            "S/N tip", "S/N HB", "Over nights", "Hours"]
     rows = []
     for t in p.targets:
         if t.reason:
@@ -114,10 +116,23 @@ def recovery_table(p) -> tuple[list[str], list[list[str]]]:
     return head, rows
 
 
+def serving_lines(p) -> list[str]:
+    """Per target and Moon class, the runs of nights that serve it."""
+    out = []
+    for t in p.targets:
+        parts = [f"{c} {_ranges(t.serving_ranges[c])}" for c in ("dark", "grey", "bright")]
+        out.append(f"{t.name} (needs {t.need_hours_per_night:.1f} h a night): " + "; ".join(parts))
+    return out
+
+
+def moon_lines(p) -> list[str]:
+    return [f"{t.name}: {t.moon_constraint}" for t in p.targets]
+
+
 def totals_lines(p) -> list[str]:
     hm = p.hours_by_moon
     return [
-        f"Total: {p.total_hours:.1f} h = {p.total_nights:.1f} nights (dark {hm['dark']:.1f} h, grey "
+        f"Total: {p.total_hours:.1f} h = {p.total_nights:.1f} full nights (dark {hm['dark']:.1f} h, grey "
         f"{hm['grey']:.1f} h, bright {hm['bright']:.1f} h), before weather.",
         f"With a weather loss of {p.weather_loss_fraction:.0%} ({p.weather_loss_source}): "
         f"{p.total_hours_with_weather:.1f} h = {p.total_nights_with_weather:.1f} nights.",
@@ -212,6 +227,7 @@ def proposal_json(p) -> dict:
         "total_hours": round(p.total_hours, 4),
         "total_nights": round(p.total_nights, 3),
         "hours_by_moon": {k: round(v, 4) for k, v in hm.items()},
+        "nights_by_moon": {k: round(v / p.mean_night_hours, 3) for k, v in hm.items()},
         "mean_night_hours": round(p.mean_night_hours, 3),
         "weather_loss_fraction": p.weather_loss_fraction,
         "weather_loss_source": p.weather_loss_source,
@@ -249,6 +265,8 @@ def proposal_markdown(p) -> str:
         lines += ["", "## Forecast period recovery against nights", ""]
         lines += _md_table(head, rows)
     lines += ["", "## Totals", ""] + [f"- {x}" for x in totals_lines(p)]
+    lines += ["", "## Nights that serve each target, by Moon class", ""] + [f"- {x}" for x in serving_lines(p)]
+    lines += ["", "## Moon constraints", ""] + [f"- {x}" for x in moon_lines(p)]
     notes = [f"{t.name}: {n}" for t in p.targets for n in t.notes]
     if notes:
         lines += ["", "## Notes", ""] + [f"- {n}" for n in notes]
@@ -293,7 +311,7 @@ def proposal_csv(p) -> str:
 _TEX = {"\\": r"\textbackslash{}", "&": r"\&", "%": r"\%", "$": r"\$", "#": r"\#", "_": r"\_", "{": r"\{",
         "}": r"\}", "~": r"\textasciitilde{}", "^": r"\textasciicircum{}", "≥": r"$\geq$", "≤": r"$\leq$",
         "×": r"$\times$", "°": r"$^\circ$", "−": "$-$", "–": "--", "—": "---", "β": r"$\beta$",
-        "″": r"$''$", "⁻¹": r"$^{-1}$", "ć": r"\'c", "ü": r'\"u'}
+        "″": r"$''$", "<": "$<$", ">": "$>$", "⁻¹": r"$^{-1}$", "ć": r"\'c", "ü": r'\"u'}
 
 
 def tex(text) -> str:
@@ -321,5 +339,6 @@ def proposal_latex(p) -> str:
     if rows:
         lines += _tex_table(head, rows, caption="Forecast RR Lyrae period recovery against nights")
     lines += [tex(x) + "\n" for x in totals_lines(p)]
+    lines += [r"\paragraph{Moon.} " + "; ".join(tex(x) for x in moon_lines(p)) + ".", ""]
     lines += [r"\paragraph{Sources.} " + "; ".join(tex(s) for s in p.sources) + ".", ""]
     return "\n".join(lines)

@@ -399,7 +399,9 @@ def _target_request(campaign, run, classes, k, t, seeing, slew, forecast) -> Tar
     share = {c: float(np.sum(use & (classes == c))) / float(np.sum(use)) for c in MOON_CLASSES}
     night_hours = float(np.mean(hours[use]))
     rows, recovery, cadence_nights = [], (), 0
-    order = np.flatnonzero(serving & (np.arange(hours.size) >= a))  # serving nights from the window on
+    # The nights the cadence would use: the window's serving nights, then those after it, then those before.
+    idx = np.flatnonzero(serving)
+    order = np.concatenate([idx[(idx >= a) & (idx <= b)], idx[idx > b], idx[idx < a][::-1]])
     for w in work:
         if w.purpose == "variables":
             recovery, cadence_nights, note = _cadence_nights(forecast, campaign, run, k, stars, w, order)
@@ -437,9 +439,10 @@ def _cadence_nights(forecast, campaign, run, k, stars, w: _Work, order) -> tuple
     from planner.scheduling.proposal_forecast import RECOVERY_GOAL, RECOVERY_NIGHTS
 
     result = forecast(campaign, run, k, stars, w, order)
-    if not result:
-        return (), 0, (f"too few serving nights for a recovery forecast ({len(order)}); "
-                       f"the cadence is asked for {RECOVERY_NIGHTS[0]} nights")
+    if not result:  # the cadence gets what the range holds, and says so
+        return (), len(order), (f"only {len(order)} night(s) of the range serve it: the "
+                                f"cadence is asked for those, with no recovery forecast (the shortest is "
+                                f"for {RECOVERY_NIGHTS[0]} nights)")
     reached = [n for n, frac, _ in result if frac >= RECOVERY_GOAL]
     if reached:
         return tuple(result), reached[0], ""
