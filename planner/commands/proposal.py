@@ -88,7 +88,12 @@ def run(args) -> int:
         common.print_json(data)
     else:
         print(proposal_text(proposal))
-    written = write_outputs(proposal, data, outputs)
+    try:
+        written = write_outputs(proposal, data, outputs)
+    except OSError as exc:  # a full disk, a folder without write permission: one line, not a traceback
+        from planner.errors import OutputError
+
+        raise OutputError(f"cannot write {exc.filename or 'the output'}: {exc.strerror or exc}") from None
     if written and not args.json:
         print("\nwritten: " + ", ".join(str(p) for p in written))
     common.warn_all(proposal.warnings)

@@ -201,7 +201,7 @@ def make_proposal(campaign, nights: list[dt.date], label: str, *, seeing_arcsec:
     """The time request of ``campaign`` over ``nights`` (a semester, or any range)."""
     from planner.scheduling.proposal_forecast import recovery_against_nights
     from planner.scheduling.proposal_sources import proposal_sources
-    from planner.sky.night_summary import run_of_nights
+    from planner.sky.night_summary import run_of_nights, seasons
 
     site = campaign.site
     run = run_of_nights(site, list(campaign.targets), nights, campaign.constraints)
@@ -213,8 +213,8 @@ def make_proposal(campaign, nights: list[dt.date], label: str, *, seeing_arcsec:
     seeing = seeing_arcsec or campaign.seeing_arcsec or site.sky.typical_seeing_arcsec
     slew = _typical_slew_deg(campaign.targets)
     out, notes = [], list(run.warnings)
-    for k, t in enumerate(campaign.targets):
-        out.append(_target_request(campaign, run, classes, k, t, seeing, slew, recovery_against_nights))
+    for k, (t, season) in enumerate(zip(campaign.targets, seasons(run))):
+        out.append(_target_request(campaign, run, classes, k, t, season, seeing, slew, recovery_against_nights))
     if all(t.reason for t in out):
         raise SemesterError(f"targets: none of {', '.join(t.name for t in out)} is observable for its goals in "
                             f"{label} at {site.name} ({out[0].reason})", campaign.source)
@@ -287,6 +287,7 @@ class _Work:
     frame_s: float
     dark: bool
     conditions: dict
+    visits: int = 1  # of a depth goal over the campaign (the cadence's come from its nights)
 
 
 def _conditions(airmass, seeing, dark: bool, illumination: float) -> dict:
@@ -315,7 +316,8 @@ def _work(campaign, t, stars, airmass, seeing, illumination) -> tuple[list, list
             notes.append(f"{g.level} S/N {g.snr:g} in {g.filter}: {exc.detail}")
             continue
         notes += [f"{g.level} in {g.filter}: {w}" for w in p.warnings if "saturates" in w]
-        out.append(_Work(g.level, g.filter, g.snr, level.magnitude, int(p.frames), float(p.frame_s), g.dark, cond))
+        out.append(_Work(g.level, g.filter, g.snr, level.magnitude, int(p.frames), float(p.frame_s), g.dark, cond,
+                         g.visits))
     c = campaign.cadence
     if c is not None and stars:
         cond = _conditions(airmass, seeing, False, illumination)
@@ -358,13 +360,10 @@ def _stars_of(campaign, t) -> list:
     return [v for v in campaign.variables if v.cluster and normalize_name(v.cluster) == key]
 
 
-def _target_request(campaign, run, classes, k, t, seeing, slew, forecast) -> TargetRequest:
-    from planner.sky.night_summary import seasons
-
+def _target_request(campaign, run, classes, k, t, season, seeing, slew, forecast) -> TargetRequest:
     vis, nights = run.visibility, run.nights
     hours = vis.observable_hours[k]
     stars = _stars_of(campaign, t)
-    season = seasons(run)[k]
     up = hours > 0
     first_airmass = float(np.median(vis.min_airmass[k][up])) if up.any() else 1.2
     work, notes = _work(campaign, t, stars, first_airmass, seeing, 0.0)
@@ -409,8 +408,7 @@ def _target_request(campaign, run, classes, k, t, seeing, slew, forecast) -> Tar
                 notes.append(note)
             visits = cadence_nights * campaign.cadence.visits_per_night
         else:
-            visits = next(g.visits for g in campaign.goals if t.name in g.targets and g.level == w.purpose
-                          and g.filter == w.filter)
+            visits = w.visits
         rows.append(_row(campaign, t, w, visits, slew, airmass, share))
     for r in rows:
         if r.moon == "dark" and share["dark"] == 0:
