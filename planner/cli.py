@@ -26,6 +26,7 @@ COMMAND_MODULES = (
     "planner.commands.log",
     "planner.commands.schedule",
     "planner.commands.campaign",
+    "planner.commands.proposal",
     "planner.commands.replan",
     "planner.commands.app",
 )

@@ -137,7 +137,8 @@ def test_demo_writes_its_folder(tmp_path, capsys):
     code, out, _ = run(capsys, "demo", "--out", str(out_dir), "--date", "2027-01-05")
     assert code == 0
     for name in ("night.txt", "night.json", "night.png", "semester.txt", "semester.png",
-                 "exposures.txt", "phases.txt", "README.txt"):
+                 "exposures.txt", "phases.txt", "README.txt", "proposal/proposal.pdf", "proposal/proposal.md",
+                 "proposal/proposal.csv", "proposal/proposal.tex", "proposal/proposal.json"):
         assert (out_dir / name).stat().st_size > 0, name
     assert "INVENTED" in (out_dir / "README.txt").read_text()
     # the exposures say which PSF, extinction law and HB level they use (README conventions)

@@ -287,5 +287,27 @@ def step_schedule(site, targets, night, out):
     ]
 
 
+def step_proposal(site, targets, night, out):
+    """The demo campaign's time request for the semester holding its nights."""
+    from planner.inputs.campaign_file import read_campaign_file
+    from planner.inputs.resources import targets_dir
+    from planner.reports.proposal_files import write_proposal
+    from planner.reports.proposal_tables import proposal_json
+    from planner.scheduling.proposal import make_proposal, semester_label, semester_nights
+
+    campaign = read_campaign_file(targets_dir() / "demo" / "campaign.toml")
+    label = semester_label(campaign.nights[0], campaign.site.proposal)
+    first, last = semester_nights(label, campaign.site.proposal)
+    proposal = make_proposal(campaign, common.date_range(first, last), label)
+    folder = out / "proposal"
+    write_proposal(proposal, {}, folder, pngs=False)  # the figures are in the PDF; PNGs would add seconds
+    common.write_json(folder / "proposal.json", proposal_json(proposal))
+    return [
+        ("proposal/proposal.pdf", f"the demo campaign's time request for {label}: tables and figures"),
+        ("proposal/proposal.md, .csv, .tex", "its tables, ready to paste, with the sources"),
+        ("proposal/proposal.json", "the same, as gcplan proposal --json"),
+    ]
+
+
 #: The demo's steps in order; each returns the files it wrote with a line on each.
-STEPS = [step_night, step_semester, step_exposures, step_phases, step_log, step_schedule]
+STEPS = [step_night, step_semester, step_exposures, step_phases, step_log, step_schedule, step_proposal]

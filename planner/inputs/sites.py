@@ -46,6 +46,12 @@ keys are errors.  ::
                   for psf = "moffat" only; [sky.dark_mag_arcsec2] (zenith,
                   moonless, 10..25 mag/arcsec²) and [sky.extinction_mag_per_airmass]
                   (0..2 mag/airmass), each a value for every filter NAME and no other
+    [proposal]    (optional) what a time request (``gcplan proposal``) assumes here:
+                  semester_a_start_month 1..12 = 4 and semester_b_start_month 1..12 = 10,
+                  different (the common convention: A April-September, B October-March;
+                  each semester runs to the day before the other starts);
+                  weather_loss_fraction 0..0.95 = none, the share of the nights lost to
+                  weather (none: the proposal uses a typical value and says so)
     top level     notes = "..." = "": free text (operators' rules, cautions)
 """
 
@@ -80,6 +86,7 @@ from planner.model.site import (
     Filter,
     Limits,
     Location,
+    ProposalSettings,
     SiteProfile,
     Sky,
     Telescope,
@@ -92,7 +99,7 @@ BANDS = tuple(_BAND_TABLE)
 
 # Keys each table accepts ("" is the top level), in schema order.
 _KEYS: dict[str, tuple[str, ...]] = {
-    "": ("site", "limits", "telescope", "camera", "filters", "sky", "notes"),
+    "": ("site", "limits", "telescope", "camera", "filters", "sky", "proposal", "notes"),
     "site": ("name", "latitude_deg", "longitude_deg", "elevation_m", "timezone"),
     "limits": ("min_altitude_deg", "max_airmass", "sun_avoidance_deg",
                "min_moon_separation_deg", "twilight", "horizon", "max_altitude_deg"),
@@ -103,6 +110,7 @@ _KEYS: dict[str, tuple[str, ...]] = {
                "detector_pixels", "fits_keywords"),
     "filter": ("band", "throughput", "bandwidth_angstrom", "zero_point_mag"),
     "sky": ("typical_seeing_arcsec", "psf", "moffat_beta", "dark_mag_arcsec2", "extinction_mag_per_airmass"),
+    "proposal": ("semester_a_start_month", "semester_b_start_month", "weather_loss_fraction"),
 }
 _SCHEMA = Schema(_KEYS, SiteProfileError)
 DEFAULT_MIN_ALTITUDE_DEG = 20.0  # a common telescope limit (airmass 2.9), from memory
@@ -256,6 +264,21 @@ def _per_filter(sky: Table, key: str, filters: Mapping[str, Filter], lo: float, 
     return MappingProxyType({name: float(t.table[name]) for name in filters})
 
 
+def _proposal(t: Table) -> ProposalSettings:
+    months = []
+    for key, default in (("semester_a_start_month", ProposalSettings.semester_a_start_month),
+                         ("semester_b_start_month", ProposalSettings.semester_b_start_month)):
+        month = t.number(key, 1, 12, default=default)
+        if month != int(month):
+            t.fail(f"{key} must be a whole month 1..12 (got {show(month)})")
+        months.append(int(month))
+    if months[0] == months[1]:
+        t.fail(f"semester_b_start_month must differ from semester_a_start_month (got {months[1]} for both)")
+    # Above 0.95 a request would grow more than twentyfold: surely a percentage typed as a fraction.
+    loss = t.number("weather_loss_fraction", 0, 0.95, required=False)
+    return ProposalSettings(months[0], months[1], loss)
+
+
 def parse_site_profile(data: Mapping, source: str) -> SiteProfile:
     """Validate ``data`` (a TOML document, as from tomllib) and build the profile.
 
@@ -285,7 +308,7 @@ def parse_site_profile(data: Mapping, source: str) -> SiteProfile:
         dark_mag_arcsec2=_per_filter(sky, "dark_mag_arcsec2", filters, 10, 25),
         extinction_mag_per_airmass=_per_filter(sky, "extinction_mag_per_airmass", filters, 0, 2),
         psf=psf, moffat_beta=sky.number("moffat_beta", 1, 20, lo_open=True, default=DEFAULT_MOFFAT_BETA),
-    ), source, (notes or "").strip())
+    ), source, (notes or "").strip(), _proposal(top.sub("proposal", "proposal", False)))
 
 
 def load_site_profile(path: str | Path, source: str | None = None) -> SiteProfile:

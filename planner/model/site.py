@@ -95,6 +95,21 @@ class Sky:
     moffat_beta: float = DEFAULT_MOFFAT_BETA  # Moffat β, > 1
 
 
+#: Semesters by the common convention: A from April, B from October (no source needed).
+DEFAULT_SEMESTER_A_START_MONTH = 4
+DEFAULT_SEMESTER_B_START_MONTH = 10
+
+
+@dataclass(frozen=True)
+class ProposalSettings:
+    """What a time request at this site assumes: when its semesters start, and the share
+    of the time the weather takes (None: not given; the proposal then uses a typical value)."""
+
+    semester_a_start_month: int = DEFAULT_SEMESTER_A_START_MONTH  # A runs to the month before B's
+    semester_b_start_month: int = DEFAULT_SEMESTER_B_START_MONTH  # B runs to the month before A's
+    weather_loss_fraction: float | None = None
+
+
 @dataclass(frozen=True)
 class SiteProfile:
     location: Location
@@ -105,6 +120,7 @@ class SiteProfile:
     sky: Sky
     source: str = "<memory>"  # the file (or option) it was read from, for messages
     notes: str = ""
+    proposal: ProposalSettings = ProposalSettings()  # the optional [proposal] table
 
     @property
     def name(self) -> str:
