@@ -5,10 +5,8 @@ from __future__ import annotations
 import dataclasses
 import math
 
-import numpy as np
-
 from planner.commands import common
-from planner.light.photometry import LEVEL_NAMES, LEVELS, LevelError
+from planner.model.levels import LEVEL_NAMES, LEVELS, LevelError
 from planner.model.bands import EXTINCTION_LAW
 
 PLOT_SUFFIXES = (".png", ".pdf", ".svg")
@@ -160,6 +158,8 @@ def run(args) -> int:
 
 
 def write_plot(path, plan, site, args):
+    import numpy as np
+
     from planner.light.exposure import snr_of_exposure
     from planner.reports.exposure_plot import save_snr_plot
 
