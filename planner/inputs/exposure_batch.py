@@ -23,6 +23,7 @@ column                meaning (an empty cell: the same default as the option)
 ``shortest_period_d`` phase-smearing check (``--shortest-period``)
 ====================  =========================================================
 
+CSV lines starting with ``#`` and blank lines are skipped (as in target lists).
 Any other column is an error (a misspelt column would otherwise be ignored in
 silence).  Errors name the file, the row (1 = the first data row) and the column.
 """
@@ -103,7 +104,7 @@ def _typed(names: list[str], cells: list[str], row: int, source: str) -> dict:
 def _csv_rows(path: Path, source: str) -> tuple[list[str], list[list[str]]]:
     try:
         with open(path, encoding="utf-8-sig", newline="") as f:
-            lines = [r for r in csv.reader(f) if r and any(c.strip() for c in r)]
+            lines = [r for r in csv.reader(f) if r and any(c.strip() for c in r) and not r[0].lstrip().startswith("#")]
     except (OSError, UnicodeDecodeError, csv.Error) as exc:
         raise BatchFileError(f"cannot read as CSV: {exc}", source) from None
     if not lines:
