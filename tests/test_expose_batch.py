@@ -116,6 +116,7 @@ def test_options_fill_empty_cells_and_ecsv_in_and_out(tmp_path, capsys):
     ("mag,filter\n17,V\n", "row 1: no snr"),
     ("target,level,filter,snr\nNGC 0000,hb,V,50\n", "row 1: unknown cluster"),
     ("mag,filter,snr\n17,V,50\n26,V,10000\n", "row 2: S/N 10000 on V = 26.00 is out of reach"),
+    ("mag,filter,snr,shortest_period_d\n17,V,50,\n17,V,50,0\n", "row 2: shortest period (d) must be a positive"),
     ("mag,filtre,snr\n17,V,50\n", "column 'filtre' is not one the batch reads"),
     ("mag,filter,snr\n17,V\n", "row 1 has 2 cells for 3 columns"),
 ])

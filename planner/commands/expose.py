@@ -288,13 +288,9 @@ def _checked_row_inputs(q, site, catalog):
             raise LevelError(f"no {option} (give a {option} column or --{option})")
     if not (math.isfinite(q.snr) and q.snr > 0):
         raise LevelError(f"S/N goal must be a positive number (got {q.snr:g})")
-    if q.r_v is not None and q.target is None:
-        raise LevelError("r_v needs a target (the cluster it belongs to)")
     setup, level, target, period, cluster_extra, conditions = _row_inputs(q, site, catalog)
     seeing = setup.typical_seeing_arcsec if q.seeing is None else q.seeing
     check_conditions(q.airmass, seeing, q.moon_illumination, q.moon_separation, q.moon_altitude)
-    if period is not None and not (math.isfinite(period) and period > 0):
-        raise LevelError(f"shortest period (d) must be a positive number (got {period:g})")
     return setup, level, target, period, cluster_extra, conditions
 
 
