@@ -239,7 +239,9 @@ def run_batch(args) -> int:
     if args.json:
         common.print_json(records)
     else:
-        print(batch_text(records, rows))
+        from planner.reports.expose_table import batch_text
+
+        print(batch_text(records, [row["row"] for row in rows]))
         if out_path is not None:
             print(f"\nwritten: {out_path}")
     return 0
@@ -326,17 +328,3 @@ def _filter_records(site, filter_name, prepared):
             t_sat[i] = float(value)
     return [_finish(plan, setups[i], levels[i], periods[i], extras[i], tips[i], t_sat[i])
             for i, plan in enumerate(plans)]
-
-
-def batch_text(records: list[dict], rows: list[dict]) -> str:
-    """One line per row: what, filter, S/N, the frames and the total, warnings counted."""
-    head = f"{'row':>4}  {'what':<36} {'filter':<6} {'S/N':>6}  {'frames':>14}  {'total':>9}  warnings"
-    lines = [head]
-    for row, r in zip(rows, records):
-        what = (f"{r['target']}, {r['level_name']}" if r["target"] else f"{r['band']} = {r['magnitude']:.2f}")
-        frames = f"{r['frames']} x {r['frame_s']:g} s"
-        lines.append(f"{row['row']:>4}  {what[:36]:<36} {r['filter']:<6} {r['snr_goal']:>6g}  {frames:>14}  "
-                     f"{r['exposure_s']:>7.4g} s  {len(r['warnings'])}")
-    lines.append("")
-    lines.append("Twilight is not modelled (astronomical night). Full details per row: --json or --out FILE.")
-    return "\n".join(lines)

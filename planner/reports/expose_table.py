@@ -1,4 +1,4 @@
-"""``gcplan expose --batch``'s table: one row per exposure question, as CSV or ECSV.
+"""``gcplan expose --batch``'s table: one row per exposure question, as CSV or ECSV, and its text.
 
 Each row holds the fields ``expose --json`` gives for one question, flattened:
 the nested ``inputs`` become ``inputs.airmass``, ``inputs.read_noise_e``, …, and
@@ -75,3 +75,18 @@ def write_expose_table(path: Path, records: list[dict]) -> Path:
     lines += [" ".join(_ecsv_cell(_text(row.get(n))) for n in names) for row in rows]
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
     return path
+
+
+def batch_text(records: list[dict], row_numbers: list[int]) -> str:
+    """One line per row (80 columns): what (cluster and level: tip, hb, turnoff; or the magnitude
+    given), filter, S/N, the frames, the total, how many notes."""
+    lines = [f"{'row':>3}  {'what':<26} {'filter':<6} {'S/N':>6}  {'frames':>14}  {'total':>9}  notes"]
+    for number, r in zip(row_numbers, records):
+        what = f"{r['target']}, {r['level']}" if r["level"] != "user" else f"{r['band']} = {r['magnitude']:.2f}"
+        frames = f"{r['frames']} x {r['frame_s']:g} s"
+        lines.append(f"{number:>3}  {what[:26]:<26} {r['filter'][:6]:<6} {r['snr_goal']:>6g}  {frames:>14}  "
+                     f"{r['exposure_s']:>7.4g} s  {len(r['warnings']):>5}")
+    lines.append("")
+    lines.append("Twilight is not modelled (astronomical night). Each row's notes and details:")
+    lines.append("--json, or --out FILE.ecsv|.csv.")
+    return "\n".join(lines)
