@@ -6,21 +6,33 @@ dates beyond the bundled tables (astropy-iers-data) must still work.  astropy
 then warns many times per call (leap seconds "dubious year", polar motion
 "defaulting to the 50-yr mean"); gcplan silences those and says it once in
 its own words (see :func:`planner.ephemeris.iers_warning`).
+
+Importing astropy's IERS module costs half a second (it brings astropy.table
+and astropy.time), and many commands (``expose``, ``--help``) never touch
+astropy.  So the policy is applied at once when that module is already
+loaded, and otherwise the moment it loads: a finder on ``sys.meta_path`` that
+finds nothing itself but, for that one module, sets the policy right after
+the module has run — before any code can use it.
 """
 
 from __future__ import annotations
 
+import sys
 import warnings
+
+_IERS_MODULE = "astropy.utils.iers.iers"
 
 
 def configure_runtime() -> None:
     """Set astropy's IERS policy (no downloads, degrade past the table) and quiet its repeats."""
-    from astropy.utils import iers
-
-    iers.conf.auto_download = False
-    iers.conf.auto_max_age = None
-    iers.conf.iers_degraded_accuracy = "warn"
-    quiet_astropy_time_warnings()
+    # The two filters that need no astropy class: set now.
+    warnings.filterwarnings("ignore", message=".*polar motion.*")
+    warnings.filterwarnings("ignore", message=".*dubious year.*")
+    module = sys.modules.get(_IERS_MODULE)
+    if module is not None:
+        _apply_iers_policy(module)
+    elif not any(isinstance(f, _IersPolicyOnImport) for f in sys.meta_path):
+        sys.meta_path.insert(0, _IersPolicyOnImport())
 
 
 def quiet_astropy_time_warnings() -> None:
@@ -30,3 +42,38 @@ def quiet_astropy_time_warnings() -> None:
     warnings.filterwarnings("ignore", category=iers.IERSWarning)
     warnings.filterwarnings("ignore", message=".*polar motion.*", category=AstropyWarning)
     warnings.filterwarnings("ignore", message=".*dubious year.*")
+
+
+def _apply_iers_policy(module) -> None:
+    module.conf.auto_download = False
+    module.conf.auto_max_age = None
+    module.conf.iers_degraded_accuracy = "warn"
+    warnings.filterwarnings("ignore", category=module.IERSWarning)
+
+
+class _IersPolicyOnImport:
+    """A ``sys.meta_path`` finder for astropy's IERS module only: the normal spec,
+    its loader's ``exec_module`` followed by :func:`_apply_iers_policy`."""
+
+    def find_spec(self, fullname, path=None, target=None):
+        if fullname != _IERS_MODULE:
+            return None
+        from importlib.machinery import PathFinder
+
+        if self in sys.meta_path:
+            sys.meta_path.remove(self)  # once is enough
+        spec = PathFinder.find_spec(fullname, path, target)
+        loader = getattr(spec, "loader", None)
+        if loader is None or not hasattr(loader, "exec_module"):
+            return spec
+        run_module = loader.exec_module
+
+        def exec_module(module):
+            run_module(module)
+            _apply_iers_policy(module)
+
+        loader.exec_module = exec_module  # this spec's own loader object
+        return spec
+
+    def invalidate_caches(self) -> None:
+        pass

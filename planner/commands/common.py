@@ -12,11 +12,10 @@ import argparse
 import datetime as dt
 import json
 import math
+import re
 import sys
 from pathlib import Path
 from typing import Any
-
-import numpy as np
 
 from planner.errors import CampaignError, DateError, InputError, OutputError
 
@@ -179,20 +178,69 @@ def to_jsonable(obj: Any) -> Any:
         return {str(k): to_jsonable(v) for k, v in obj.items()}
     if t in (list, tuple):
         return [to_jsonable(v) for v in obj]
-    if isinstance(obj, np.ndarray):
+    np = sys.modules.get("numpy")  # no numpy loaded: no numpy values to convert
+    if np is not None and isinstance(obj, np.ndarray):
         return [to_jsonable(v) for v in obj.tolist()]
-    if isinstance(obj, (np.floating, float)):
+    if isinstance(obj, float) or (np is not None and isinstance(obj, np.floating)):
         value = float(obj)
         return value if math.isfinite(value) else None
-    if isinstance(obj, np.integer):
+    if np is not None and isinstance(obj, np.integer):
         return int(obj)
-    if isinstance(obj, np.bool_):
+    if np is not None and isinstance(obj, np.bool_):
         return bool(obj)
     if isinstance(obj, (dt.date, dt.datetime)):
         return obj.isoformat()
     if isinstance(obj, dict):
         return {str(k): to_jsonable(v) for k, v in obj.items()}
     return obj
+
+
+def _json_default(obj: Any) -> Any:
+    """What :func:`json.dumps` cannot write itself, as :func:`to_jsonable` would write it
+    (NaN and infinities are left to :func:`_nulls_for_nonfinite`)."""
+    np = sys.modules.get("numpy")
+    if np is not None:
+        if isinstance(obj, np.ndarray):
+            return obj.tolist()
+        if isinstance(obj, np.floating):
+            return float(obj)
+        if isinstance(obj, np.integer):
+            return int(obj)
+        if isinstance(obj, np.bool_):
+            return bool(obj)
+    if isinstance(obj, (dt.date, dt.datetime)):
+        return obj.isoformat()
+    raise TypeError(f"{type(obj).__name__} is not JSON serialisable")
+
+
+# A JSON string (skipped as it is) or a non-finite number json.dumps wrote as a bare word.
+_STRING_OR_NONFINITE = re.compile(r'("(?:[^"\\]|\\.)*")|-?Infinity|NaN')
+
+
+def _nulls_for_nonfinite(text: str) -> str:
+    """``NaN``/``Infinity`` words outside strings made ``null`` (what :func:`to_jsonable` gives)."""
+    if "NaN" not in text and "Infinity" not in text:
+        return text
+    return _STRING_OR_NONFINITE.sub(lambda m: m.group(1) or "null", text)
+
+
+def _dumps(obj: Any, indent: int | None) -> str:
+    """json.dumps straight from the core's results (C speed for compact output), with the
+    same text as through :func:`to_jsonable`: numpy values by ``default``, non-finite
+    numbers as null afterwards.  Keys json would write differently from ``str(key)``
+    (numpy integers, booleans, None) take the slow road through :func:`to_jsonable`."""
+    separators = (",", ":") if indent is None else (",", ": ")
+    try:
+        text = json.dumps(obj, indent=indent, ensure_ascii=False, allow_nan=True, default=_json_default,
+                          separators=separators, check_circular=False)
+    except TypeError:  # a key json.dumps refuses (a numpy integer, a date)
+        text = None
+    if text is None or '"true"' in text or '"false"' in text or '"null"' in text:
+        # json writes True/None keys as "true"/"null" where str() gives "True"/"None";
+        # such text (rare) is made the careful way
+        return json.dumps(to_jsonable(obj), indent=indent, ensure_ascii=False, allow_nan=False,
+                          separators=separators)
+    return _nulls_for_nonfinite(text)
 
 
 #: Above this size JSON is written without indentation: the indenting encoder is
@@ -204,12 +252,11 @@ _INDENT_LIMIT_CHARS = 200_000
 def json_text(obj: Any, compact_above: int | None = None) -> str:
     """JSON of core results (see :func:`to_jsonable`), indented for reading; compact
     when the text is longer than ``compact_above`` characters."""
-    data = to_jsonable(obj)
     if compact_above is not None:
-        text = json.dumps(data, ensure_ascii=False, allow_nan=False, separators=(",", ":"))
+        text = _dumps(obj, None)
         if len(text) > compact_above:
             return text
-    return json.dumps(data, indent=2, ensure_ascii=False, allow_nan=False)
+    return _dumps(obj, 2)
 
 
 def print_json(obj: Any) -> None:

@@ -6,7 +6,7 @@ from planner.commands import common
 
 
 def register(sub) -> None:
-    from planner.variables.phases import DEFAULT_MAX_DRIFT_PER_DAY
+    from planner.model.variable import DEFAULT_MAX_DRIFT_PER_DAY
 
     p = sub.add_parser(
         "phases",

@@ -6,8 +6,6 @@ import datetime as dt
 from dataclasses import dataclass
 from pathlib import Path
 
-import numpy as np
-
 from planner.commands import common
 
 # A cluster horizontal branch at about 12 kpc with little reddening: M_V ≈ 0.6
@@ -20,7 +18,7 @@ DEFAULT_EXPOSURE_S = 120.0
 def register(sub) -> None:
     # The error per visit added in quadrature to the exposure core's photon noise
     # (crowding, flat field) defaults to the core's floor, which the campaign forecast uses too.
-    from planner.variables.recovery import NOISE_FLOOR_MAG, RECOVERY_TOLERANCE
+    from planner.model.variable import NOISE_FLOOR_MAG, RECOVERY_TOLERANCE
 
     p = sub.add_parser(
         "recover",
@@ -132,6 +130,8 @@ def _hb_mag(site, filter_name: str, entry) -> float:
 
 def population_from_file(path: str, n_stars: int | None, site, filter_name: str, default_mag: float | None):
     """(StarSample, per-star mean magnitude, variables) for the variables of a table."""
+    import numpy as np
+
     from planner.inputs.variable_files import read_variables
     from planner.variables.recovery import OOSTERHOFF_I, StarSample, bailey_amplitude_mag
 
@@ -177,6 +177,8 @@ class VisitTimes:
 
 def times_from_plan(path: str, cluster: str | None, site) -> VisitTimes:
     """The variable-star visits of a plan file (of ``cluster``, if given)."""
+    import numpy as np
+
     from planner.inputs.plan_files import variable_visit_times
     from planner.inputs.variable_files import VariablesOptionError
     from planner.logbook.store import night_of_jd
@@ -216,6 +218,8 @@ class Population:
 def synthetic_stars(name: str, n_stars: int, mean_mag: float | None, site, filter_name: str, entry,
                     jd: np.ndarray, rng) -> Population:
     """A synthetic Oosterhoff population; one position (the cluster's) for all stars."""
+    import numpy as np
+
     from astropy.time import Time
 
     from planner.variables.phases import heliocentric_jd
@@ -249,6 +253,8 @@ def file_stars(path: str, n_stars: int | None, mean_mag: float | None, site, fil
 def visit_noise(site, filter_name: str, mean_mag: np.ndarray, exposure_s: float, noise_mag: float | None,
                 floor_mag: float) -> tuple[np.ndarray, str]:
     """The error of each star per visit, mag, and a phrase saying where it came from."""
+    import numpy as np
+
     from planner.light.exposure import snr_of_exposure
     from planner.variables.recovery import visit_noise_mag
 
@@ -261,6 +267,8 @@ def visit_noise(site, filter_name: str, mean_mag: np.ndarray, exposure_s: float,
 
 
 def run(args) -> int:
+    import numpy as np
+
     from planner.inputs.variable_files import VariablesOptionError
     from planner.variables.recovery import POPULATIONS, simulate_recovery
 
@@ -310,6 +318,8 @@ def recovery_result(summary, search, visits: VisitTimes, population: Population,
                     site: str, twilight: str, filter_name: str, exposure_s: float, seed: int,
                     schedule: str | None) -> dict:
     """Everything ``gcplan recover`` reports, as its JSON."""
+    import numpy as np
+
     from planner.variables.recovery import RECOVERY_TOLERANCE
 
     jd = visits.jd

@@ -9,7 +9,6 @@ from zoneinfo import ZoneInfo
 
 from planner.commands import common
 from planner.errors import DateError
-from planner.sky.nights import datetime_to_jd, iso_utc, local_noon_jd
 
 _HHMM = re.compile(r"^\s*(\d{1,2}):(\d{2})\s*$")
 
@@ -73,6 +72,8 @@ def run(args) -> int:
 
 
 def _local_clock(hh: int, mm: int, night: dt.date, zone: str, option: str, text: str) -> float:
+    from planner.sky.nights import datetime_to_jd
+
     if not (0 <= hh <= 23 and 0 <= mm <= 59):
         raise DateError(f"{option} {text!r}: {hh:02d}:{mm:02d} is not a clock time (00:00..23:59)")
     day = night if hh >= 12 else night + dt.timedelta(days=1)  # the night runs from noon to noon
@@ -82,6 +83,8 @@ def _local_clock(hh: int, mm: int, night: dt.date, zone: str, option: str, text:
 def parse_moment(text: str, night: dt.date, zone: str, option: str = "--now") -> float:
     """JD (UTC) of ``text``: ISO 8601 with a zone (``2027-01-06T03:10Z``, ``...-03:00``), an ISO
     date-time without one (the site's local time), or a local clock time ``HH:MM`` on the night."""
+    from planner.sky.nights import datetime_to_jd
+
     m = _HHMM.match(text)
     if m:
         return _local_clock(int(m[1]), int(m[2]), night, zone, option, text)
@@ -96,6 +99,8 @@ def parse_moment(text: str, night: dt.date, zone: str, option: str = "--now") ->
 
 
 def parse_now(text: str, night: dt.date, zone: str) -> float:
+    from planner.sky.nights import local_noon_jd
+
     jd = parse_moment(text, night, zone, "--now")
     start, end = local_noon_jd(night, zone), local_noon_jd(night + dt.timedelta(days=1), zone)
     if not start <= jd <= end:
@@ -105,6 +110,8 @@ def parse_now(text: str, night: dt.date, zone: str) -> float:
 
 def parse_closed(text: str, night: dt.date, zone: str) -> tuple[float, float]:
     """``START/END`` (ISO 8601, as :func:`parse_moment`) or local ``HH:MM-HH:MM``."""
+    from planner.sky.nights import iso_utc
+
     m = re.fullmatch(r"\s*(\d{1,2}:\d{2})\s*-\s*(\d{1,2}:\d{2})\s*", text)
     if m:
         a, b = (parse_moment(x, night, zone, "--closed") for x in (m[1], m[2]))
@@ -131,6 +138,8 @@ def read_logbook_night(campaign, night, path: str | None = None):
     the next 'open', or the night's end), the visit ids of its recorded plan, and a note
     on what was read.  The file is ``path``, else ``logbook.sqlite`` beside the campaign
     file; with neither present, nothing is known from it."""
+    from planner.sky.nights import local_noon_jd
+
     from pathlib import Path
 
     from planner.logbook.store import (

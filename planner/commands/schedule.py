@@ -7,7 +7,7 @@ The night sheet, the plan's JSON and its ECSV table are written by
 
 from __future__ import annotations
 
-import numpy as np
+import math
 
 from planner.commands import common
 from planner.commands.common import OptionError
@@ -102,7 +102,7 @@ def _ad_hoc_plan(args, night):
     frame = night_sky(site, [night], constraints)
     w0, w1 = float(frame.window_start_jd[0]), float(frame.window_end_jd[0])
     need = body_s(site, exposures)
-    if np.isfinite(w0) and need > (w1 - w0) * 86400.0:
+    if math.isfinite(w0) and need > (w1 - w0) * 86400.0:
         raise OptionError(f"--visit {args.visit!r} takes {need / 60:.0f} min with its overheads, "
                           f"longer than the usable night of {night} ({(w1 - w0) * 1440:.0f} min)")
     return site, plan_night(site, constraints, requests, night, w0, w1, frame.ephemeris, seeing_arcsec=args.seeing)

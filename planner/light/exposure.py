@@ -382,6 +382,46 @@ def exposure_for_snr(site, filter_name: str, magnitude: float, snr: float, *, ai
               moon_altitude_deg, saturation_magnitude, max_frame_s, aperture_radius_fwhm,
               sky_annulus_pixels, round_frames, cluster_sb_mag_arcsec2)
     v = {name: np.asarray(getattr(g, name)).item() for name in g.__dataclass_fields__}
+    return _plan(s, v, magnitude, snr, airmass, seeing, moon_illumination, moon_separation_deg, moon_altitude_deg,
+                 saturation_magnitude, shortest_period_d, phase_smear_fraction, max_frame_s, level, target,
+                 cluster_sb_mag_arcsec2)
+
+
+def exposure_plans(site, filter_name: str, magnitude, snr, *, airmass, seeing_fwhm_arcsec, moon_illumination,
+                   moon_separation_deg, moon_altitude_deg, saturation_magnitude, shortest_period_d,
+                   cluster_sb_mag_arcsec2, level, target,
+                   phase_smear_fraction=DEFAULT_PHASE_SMEAR_FRACTION) -> list[ExposurePlan]:
+    """:func:`exposure_for_snr` for many stars in one filter: every argument a sequence with one
+    value per star (None where :func:`exposure_for_snr` takes None), the grid computed once over
+    all of them and each plan then put together as :func:`exposure_for_snr` does."""
+    s = band_setup(site, filter_name)
+    seeing = [s.typical_seeing_arcsec if x is None else float(x) for x in seeing_fwhm_arcsec]
+    bright = [m if b is None else b for m, b in zip(magnitude, saturation_magnitude)]
+    # no cluster light: an infinitely faint surface, 0 e-/s, as exposure_for_snr's None gives
+    cluster = [math.inf if c is None else c for c in cluster_sb_mag_arcsec2]
+    arrays = [np.asarray(x, dtype=float) for x in (magnitude, snr, airmass, seeing, moon_illumination,
+                                                    moon_separation_deg, moon_altitude_deg, bright, cluster)]
+    g = _grid(s, arrays[0], arrays[1], *arrays[2:7], arrays[7], None, None, None, True, arrays[8])
+    columns = {name: np.asarray(getattr(g, name)).tolist() for name in g.__dataclass_fields__}
+    plans = []
+    for i in range(len(magnitude)):
+        v = {name: column[i] for name, column in columns.items()}
+        try:
+            plans.append(_plan(s, v, magnitude[i], snr[i], airmass[i], seeing[i], moon_illumination[i],
+                               moon_separation_deg[i], moon_altitude_deg[i], saturation_magnitude[i],
+                               shortest_period_d[i], phase_smear_fraction, None, level[i], target[i],
+                               cluster_sb_mag_arcsec2[i]))
+        except SnrGoalError as exc:
+            exc.index = i  # which star: a caller reading them from a file names the row
+            raise
+    return plans
+
+
+def _plan(s: BandSetup, v: dict, magnitude, snr, airmass, seeing, moon_illumination, moon_separation_deg,
+          moon_altitude_deg, saturation_magnitude, shortest_period_d, phase_smear_fraction, max_frame_s,
+          level, target, cluster_sb_mag_arcsec2) -> ExposurePlan:
+    """One plan from its grid values ``v`` (plain numbers), with the warnings an observer should read."""
+    filter_name = s.filter_name
     if not v["reachable"]:
         raise SnrGoalError(
             f"S/N {snr:g} on {filter_name} = {float(magnitude):.2f} is out of reach here: frames must stay "
@@ -436,12 +476,27 @@ def exposure_for_level(site, filter_name: str, level: ScienceLevel, snr: float, 
     brightest stars set the saturation limit and its notes join the warnings."""
     plan = exposure_for_snr(site, filter_name, level.magnitude, snr, saturation_magnitude=level.brightest_mag,
                             level=level.level, target=level.target, **options)
+    return _with_level_notes(plan, level)
+
+
+def exposure_plans_for_levels(site, filter_name: str, levels, snr, *, shortest_period_d, **conditions):
+    """:func:`exposure_for_level` for many levels in one filter at once (see :func:`exposure_plans`):
+    ``levels``, ``snr``, ``shortest_period_d`` and each of ``conditions`` one value per level."""
+    plans = exposure_plans(site, filter_name, [lv.magnitude for lv in levels], snr,
+                           saturation_magnitude=[lv.brightest_mag for lv in levels],
+                           shortest_period_d=shortest_period_d, level=[lv.level for lv in levels],
+                           target=[lv.target for lv in levels], **conditions)
+    return [_with_level_notes(plan, lv) for plan, lv in zip(plans, levels)]
+
+
+def _with_level_notes(plan: ExposurePlan, level: ScienceLevel) -> ExposurePlan:
     extra = tuple(level.notes) + (("the level's magnitude is a rule of thumb",) if level.rule_of_thumb else ())
     return replace(plan, warnings=plan.warnings + extra) if extra else plan
 
 
 __all__ = [
     "BandSetup", "ExposureGrid", "ExposureInputs", "ExposurePlan", "SnrGoalError",
-    "band_setup", "exposure_for_level", "exposure_for_snr", "exposure_grid",
+    "band_setup", "exposure_for_level", "exposure_for_snr", "exposure_grid", "exposure_plans",
+    "exposure_plans_for_levels",
     "saturation_time_s", "snr_of_exposure",
 ]

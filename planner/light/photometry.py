@@ -37,14 +37,11 @@ import numpy as np
 
 from planner.errors import InputError
 from planner.model.bands import BANDS, C_CM_S, DEFAULT_R_V, H_ERG_S, Band
+from planner.model.levels import LEVEL_NAMES, LEVELS, LevelError  # noqa: F401 (this module's API too)
 
 
 class UnknownFilterError(InputError):
     """A filter (or band) that the site or the band table does not know."""
-
-
-class LevelError(InputError):
-    """A science level that is unknown or needs a quantity the target lacks."""
 
 
 class ConditionsError(InputError):
@@ -198,9 +195,7 @@ def sky_brightness_mag_arcsec2(dark_zenith_mag_arcsec2, extinction_mag_per_airma
 
 # ------------------------------------------------------------------ science levels
 
-LEVELS = ("tip", "hb", "turnoff")
-LEVEL_NAMES = {"tip": "RGB tip", "hb": "horizontal branch", "turnoff": "main-sequence turnoff",
-               "user": "given magnitude"}
+# LEVELS, LEVEL_NAMES and LevelError live in planner.model.levels (imported above).
 
 # I-band tip: Rizzi et al. 2007 colour term with the Freedman et al. 2020 zero point.
 TRGB_I_ZERO_POINT = -4.047  # Freedman et al. 2020, ApJ 891, 57

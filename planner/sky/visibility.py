@@ -66,21 +66,20 @@ def apparent_places(ra_icrs_deg, dec_icrs_deg, jd_start: float, jd_end: float) -
     astropy's ICRS → GCRS transform (annual aberration, light deflection),
     then ERFA's bias-precession-nutation rotation to the true equator and
     equinox of date: what astropy's ``TETE`` frame does, without starting its
-    IERS table reader (the rotation needs none).
+    IERS table reader (the rotation needs none).  Both steps run as the same
+    ERFA calls astropy makes (:mod:`planner.sky.astrometry`, equal to astropy's
+    transform bit for bit), without importing astropy.coordinates.
     """
-    import astropy.units as u
     import erfa
-    from astropy.coordinates import GCRS, SkyCoord
-    from astropy.time import Time
+
+    from planner.sky.astrometry import icrs_to_gcrs_xyz, tt_of_utc
 
     n_epochs = max(int(np.ceil((jd_end - jd_start) / APPARENT_PLACE_STEP_D)) + 1, 1)
     epochs = np.linspace(jd_start, jd_end, n_epochs) if n_epochs > 1 else np.array([0.5 * (jd_start + jd_end)])
-    coords = SkyCoord(np.atleast_1d(ra_icrs_deg) * u.deg, np.atleast_1d(dec_icrs_deg) * u.deg, frame="icrs")
-    t = Time(epochs, format="jd", scale="utc")
-    gcrs = coords[:, None].transform_to(GCRS(obstime=t[None, :]))
-    xyz = np.moveaxis(gcrs.cartesian.xyz.value, 0, -1)  # (N, E, 3), unit vectors
-    tt = t.tt
-    npb = erfa.pnm06a(tt.jd1, tt.jd2)  # (E, 3, 3)
+    ra = np.atleast_1d(np.asarray(ra_icrs_deg, dtype=float))[:, None]
+    dec = np.atleast_1d(np.asarray(dec_icrs_deg, dtype=float))[:, None]
+    xyz = icrs_to_gcrs_xyz(ra, dec, epochs[None, :])  # (N, E, 3), unit vectors
+    npb = erfa.pnm06a(*tt_of_utc(epochs))  # (E, 3, 3)
     v = np.einsum("eij,nej->nei", npb, xyz)
     ra = np.degrees(np.arctan2(v[..., 1], v[..., 0])) % 360.0
     dec = np.degrees(np.arcsin(np.clip(v[..., 2] / np.linalg.norm(v, axis=-1), -1.0, 1.0)))

@@ -29,6 +29,8 @@ from typing import TYPE_CHECKING, Sequence
 
 import numpy as np
 
+from planner.model.variable import DEFAULT_MAX_DRIFT_PER_DAY
+
 if TYPE_CHECKING:  # pragma: no cover - typing only
     from astropy.coordinates import EarthLocation
     from astropy.time import Time
@@ -43,10 +45,7 @@ RRAB_RISING_BRANCH = (0.85, 1.0)
 RRAB_MINIMUM_LIGHT = (0.74, 0.84)
 RRC_MINIMUM_LIGHT = (0.51, 0.71)
 
-# A nightly visit at the same clock time falls a fraction δ of a cycle later each day.
-# With |δ| < 0.05 it takes more than 20 nights (longer than most runs) for the visits to
-# sweep once through the cycle, so the light curve keeps the same gaps.
-DEFAULT_MAX_DRIFT_PER_DAY = 0.05
+# DEFAULT_MAX_DRIFT_PER_DAY (why 0.05 cycles a day): see planner.model.variable.
 
 @dataclass(frozen=True, eq=False)
 class PhaseCoverage:

@@ -21,16 +21,13 @@ from typing import Mapping, Sequence
 
 import numpy as np
 
+from planner.model.variable import NOISE_FLOOR_MAG, RECOVERY_TOLERANCE  # noqa: F401 (this module's API too)
 from planner.variables.period_search import PeriodSearch, recover_periods
 
-RECOVERY_TOLERANCE = 1e-3  # |ΔP|/P below which a period counts as recovered
 TWO_PI = 2.0 * np.pi
 #: σ_mag = 2.5 / ln 10 / (S/N): the magnitude error of a flux measured to S/N.
 MAG_PER_INVERSE_SNR = 2.5 / np.log(10.0)
-#: Crowding, flat fielding and the comparison stars rarely let cluster photometry do
-#: better than about 0.01 mag per point, whatever the photon statistics (a rule of
-#: thumb, from memory); added in quadrature to the photon noise.
-NOISE_FLOOR_MAG = 0.01
+# RECOVERY_TOLERANCE and NOISE_FLOOR_MAG (the 0.01 mag floor): see planner.model.variable.
 #: S/N below which a visit is taken as this faint (σ ≈ 10⁶ mag: no information),
 #: so a star too faint to measure gives a huge but finite error.
 _MIN_SNR = 1e-6

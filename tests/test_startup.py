@@ -1,0 +1,59 @@
+"""Start-up: the commands that need no sky computation load none of its libraries.
+
+Each case runs ``gcplan`` in a fresh interpreter (the test process has long
+imported everything) and lists the heavy packages it loaded: ``--help`` loads
+none of numpy, astropy, scipy or matplotlib; ``expose`` (one question, a
+magnitude or a cluster's level, and a batch) loads numpy but not
+astropy.coordinates, scipy or matplotlib.  Common practice, no source: the
+import cost of each is in DEVELOPERS.md's benchmarks (tests/benchmarks/bench_startup.py).
+"""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import pytest
+
+_PROBE = """
+import contextlib, io, json, sys
+from planner.cli import main
+with contextlib.redirect_stdout(io.StringIO()):
+    try:
+        status = main(sys.argv[1:])
+    except SystemExit as exc:
+        status = exc.code
+heavy = ("numpy", "astropy", "astropy.coordinates", "astropy.table", "astropy.time", "scipy", "matplotlib")
+print(json.dumps({"status": status, "loaded": [m for m in heavy if m in sys.modules]}))
+"""
+
+
+def _loaded(argv):
+    done = subprocess.run([sys.executable, "-c", _PROBE, *argv], capture_output=True, text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    result = json.loads(done.stdout.strip().splitlines()[-1])
+    assert result["status"] == 0, done.stderr
+    return set(result["loaded"])
+
+
+def test_help_loads_nothing_heavy():
+    assert _loaded(["--help"]) == set()
+    assert _loaded(["expose", "--help"]) == set()
+
+
+@pytest.mark.parametrize("argv", [
+    ["--filter", "V", "--mag", "17.5", "--snr", "80", "--json"],
+    ["--filter", "I", "--target", "NGC 6397", "--level", "hb", "--snr", "50", "--field-radius", "2"],
+])
+def test_expose_loads_no_astropy_coordinates_scipy_or_matplotlib(argv):
+    loaded = _loaded(["expose", "--site", "demo", *argv])
+    assert "numpy" in loaded  # the exposure core's own
+    assert not loaded & {"astropy.coordinates", "astropy.table", "scipy", "matplotlib"}, loaded
+
+
+def test_expose_batch_loads_no_astropy_coordinates(tmp_path):
+    path = tmp_path / "q.csv"
+    path.write_text("target,mag,level,filter,snr\nNGC 6397,,hb,V,50\n,17,,I,80\n")
+    loaded = _loaded(["expose", "--site", "demo", "--batch", str(path), "--out", str(tmp_path / "a.ecsv")])
+    assert not loaded & {"astropy.coordinates", "astropy.table", "scipy", "matplotlib"}, loaded
