@@ -28,6 +28,7 @@ def run(args) -> int:
         observability_json_pieces,
         observability_text,
     )
+    from planner.cache.sun_moon import default_store
     from planner.sky.night_summary import run_of_nights, seasons
 
     start = common.parse_night_date(args.start, "--start")
@@ -37,7 +38,7 @@ def run(args) -> int:
     targets = common.targets_from_args(args)
     constraints = common.constraints_from_args(site, args)
     plot_path = common.check_output_path(args.plot, (".png", ".pdf"), "--plot") if args.plot else None
-    run_ = run_of_nights(site, targets, nights, constraints)
+    run_ = run_of_nights(site, targets, nights, constraints, store=default_store())
     summary = seasons(run_)
     if args.json:
         # Written as it is made: a large run's JSON is never held whole in memory.
