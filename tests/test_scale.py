@@ -150,3 +150,19 @@ def test_streamed_json_writes_null_for_missing_hours(catalog_targets, monkeypatc
     text = _streamed(run, summary, monkeypatch)
     assert text == _at_once(run, summary)
     assert json.loads(text)["targets"][3]["nights"][5]["observable_hours"] is None
+
+
+def test_hours_text_is_what_the_encoder_writes_of_the_rounded_value():
+    from planner.reports.observability_report import _hours_text
+
+    rng = np.random.default_rng(3)
+    thousandths = np.arange(0, 24001) / 1000.0
+    halves = (np.arange(0, 24000) + 0.5) / 1000.0  # ties (as near as floats get)
+    tricky = np.concatenate([
+        thousandths, halves, np.nextafter(halves, 0.0), np.nextafter(halves, 30.0),
+        rng.uniform(0.0, 24.0, 20000), rng.uniform(0.0, 0.002, 2000),
+        [0.0, -0.0, -1e-17, -0.0004, 1e-300, 23.9996, 24.0, 24.0004, 24.0006, 30.0, 1e6,
+         np.nan, np.inf, -np.inf],
+    ])
+    want = [json.dumps(round(float(h), 3)) if np.isfinite(h) else "null" for h in tricky]
+    assert _hours_text(tricky) == want
