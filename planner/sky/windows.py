@@ -112,26 +112,26 @@ def visibility_for_nights(
     has_dark = np.isfinite(dark_start) & np.isfinite(dark_end)
     s = np.where(has_dark, dark_start, almanac.middle_jd)
     e = np.where(has_dark, dark_end, almanac.middle_jd)
-    mid = 0.5 * (s + e)
-    ra, dec = places.at(mid)  # (N, M): fixed for the night
-    n_targets, n_nights = ra.shape
+    mid = 0.5 * (s + e)  # a target's apparent place is taken as fixed for the night, at its middle
+    n_targets, n_nights = places.ra_deg.shape[0], len(s)
     out = {name: np.empty((n_targets, n_nights)) for name in _FIELDS}
     need = np.zeros((n_targets, n_nights), dtype=bool)
     lst_s = local_sidereal_deg(eph, s, geo.longitude_deg)
     span_deg = (SIDEREAL_DEG_PER_DAY * (e - s))[None, :]
     coarse = _coarse_sky(eph, geo, s, e)
     for rows in _blocks(n_targets, n_nights * _COARSE_SAMPLES):
-        _closed_forms(eph, geo, ra[rows], dec[rows], s, e, lst_s, span_deg, has_dark, constraints, coarse,
+        ra, dec = _places_of(places, rows).at(mid)
+        _closed_forms(eph, geo, ra, dec, s, e, lst_s, span_deg, has_dark, constraints, coarse,
                       {name: a[rows] for name, a in out.items()}, need[rows])
     # The grid finds the window as if there were no upper limit; its gap is cut out below.
     below_zenith = replace(constraints, max_altitude_deg=None)
-    _refine_on_grid(eph, geo, ra, dec, s, e, below_zenith, step_min, need,
+    _refine_on_grid(eph, geo, places, mid, s, e, below_zenith, step_min, need,
                     out["hours"], out["w_start"], out["w_end"])
     del need
     for rows in _blocks(n_targets, n_nights * 4):
-        _finish(geo.latitude_deg, dec[rows], has_dark, constraints.max_altitude_deg,
+        _, dec = _places_of(places, rows).at(mid)
+        _finish(geo.latitude_deg, dec, has_dark, constraints.max_altitude_deg,
                 {name: a[rows] for name, a in out.items()})
-    dark_nan = lambda x: np.where(has_dark[None, :], x, np.nan)  # noqa: E731
     return NightVisibility(
         observable_hours=out["hours"],
         window_start_jd=out["w_start"],
@@ -139,13 +139,18 @@ def visibility_for_nights(
         transit_jd=out["transit"],
         max_altitude_deg=out["max_alt"],
         min_airmass=out["min_airmass"],
-        moon_separation_deg=dark_nan(out["moon_mid"]),
-        min_moon_separation_deg=dark_nan(out["moon_min"]),
+        moon_separation_deg=out["moon_mid"],
+        min_moon_separation_deg=out["moon_min"],
         dark_start_jd=np.where(has_dark, dark_start, np.nan),
         dark_end_jd=np.where(has_dark, dark_end, np.nan),
         zenith_gap_start_jd=out["gap_start"],
         zenith_gap_end_jd=out["gap_end"],
     )
+
+
+def _places_of(places: ApparentPlaces, rows) -> ApparentPlaces:
+    """Some targets' apparent places (interpolated to a time, the same values as all of them)."""
+    return ApparentPlaces(places.epochs_jd, places.ra_deg[rows], places.dec_deg[rows])
 
 
 _FIELDS = ("hours", "w_start", "w_end", "transit", "max_alt", "min_airmass", "moon_mid", "moon_min",
@@ -186,6 +191,8 @@ def _finish(latitude_deg, dec, has_dark, max_altitude_deg, out):
     max_alt = np.where(dark, out["max_alt"], np.nan)
     out["max_alt"][:] = max_alt
     out["min_airmass"][:] = airmass_kasten_young(max_alt)
+    for name in ("moon_mid", "moon_min"):
+        out[name][:] = np.where(dark, out[name], np.nan)
 
 
 def _zenith_gap(latitude_deg, dec, culminations, max_altitude_deg, t_transit, w_start, w_end):
@@ -305,7 +312,7 @@ def _where_sampling_is_needed(ra, dec, constraints, coarse, moon_mid, moon_min):
     return need
 
 
-def _refine_on_grid(eph, geo, ra, dec, s, e, constraints, step_min, need, hours, w_start, w_end):
+def _refine_on_grid(eph, geo, places, mid, s, e, constraints, step_min, need, hours, w_start, w_end):
     """Sample the target-nights in ``need`` on the fine grid and overwrite their hours and
     window (in place) with what every constraint allows.
 
@@ -326,7 +333,8 @@ def _refine_on_grid(eph, geo, ra, dec, s, e, constraints, step_min, need, hours,
         targets = np.flatnonzero(need[:, m])
         for block in _blocks(targets.size, k * 4):
             rows = targets[block]
-            g_hours, g_start, g_end = grid.night(u, ra[rows, m], dec[rows, m])
+            ra, dec = _places_of(places, rows).at(mid[m: m + 1])
+            g_hours, g_start, g_end = grid.night(u, ra[:, 0], dec[:, 0])
             hours[rows, m] = g_hours
             w_start[rows, m] = g_start
             w_end[rows, m] = g_end
