@@ -2,13 +2,13 @@
 
 astropy's ``get_body`` and frame transforms are exact but slow (about 0.2 ms
 per Sun position and 0.5 ms per Moon position); a semester at one-minute
-resolution would take minutes.  Instead we sample, once per site and span:
+resolution would take minutes.  Instead we sample, once per span:
 
 * the Sun's and the Moon's geocentric apparent places (true equator and
   equinox of date, astropy's ``TETE`` frame) and distances,
 * UT1 − UTC and the equation of the equinoxes (GAST − GMST),
 
-every :data:`SAMPLE_STEP_D` days, and interpolate them with four-point
+every :data:`SAMPLE_STEP_D` days from :data:`GRID_ORIGIN_JD`, and interpolate them with four-point
 Lagrange polynomials.  Local sidereal time then comes from Meeus eq. 12.4 in
 numpy (:mod:`planner.sky.sidereal`), and the Moon is made topocentric with the
 observer's geocentric vector (its parallax reaches 1°).  Tests hold every
