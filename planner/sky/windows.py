@@ -129,7 +129,7 @@ def visibility_for_nights(
                     out["hours"], out["w_start"], out["w_end"])
     del need
     for rows in _blocks(n_targets, n_nights * 4):
-        _, dec = _places_of(places, rows).at(mid)
+        dec = None if constraints.max_altitude_deg is None else _places_of(places, rows).at(mid)[1]
         _finish(geo.latitude_deg, dec, has_dark, constraints.max_altitude_deg,
                 {name: a[rows] for name, a in out.items()})
     return NightVisibility(
@@ -182,12 +182,16 @@ def _finish(latitude_deg, dec, has_dark, max_altitude_deg, out):
     hours = np.where(dark, out["hours"], 0.0)
     w_start = np.where(dark, out["w_start"], np.nan)
     w_end = np.where(dark, out["w_end"], np.nan)
-    upper, lower = culmination_altitudes_deg(latitude_deg, dec)
-    gap_start, gap_end = _zenith_gap(latitude_deg, dec, (upper, lower), max_altitude_deg, out["transit"],
-                                     w_start, w_end)
-    out["hours"][:] = hours - np.nan_to_num(gap_end - gap_start) * 24.0
+    if max_altitude_deg is None:
+        out["hours"][:] = hours
+        out["gap_start"][:] = out["gap_end"][:] = np.nan
+    else:
+        upper, lower = culmination_altitudes_deg(latitude_deg, dec)
+        gap_start, gap_end = _zenith_gap(latitude_deg, dec, (upper, lower), max_altitude_deg, out["transit"],
+                                         w_start, w_end)
+        out["hours"][:] = hours - np.nan_to_num(gap_end - gap_start) * 24.0
+        out["gap_start"][:], out["gap_end"][:] = gap_start, gap_end
     out["w_start"][:], out["w_end"][:] = w_start, w_end
-    out["gap_start"][:], out["gap_end"][:] = gap_start, gap_end
     max_alt = np.where(dark, out["max_alt"], np.nan)
     out["max_alt"][:] = max_alt
     out["min_airmass"][:] = airmass_kasten_young(max_alt)
@@ -305,8 +309,13 @@ def _where_sampling_is_needed(ra, dec, constraints, coarse, moon_mid, moon_min):
         # (The margin max(separation − limit, moonset altitude − Moon's altitude)
         # below 16° somewhere: the Moon within limit + 16° while above −16.8°.)
         moon_up = -(coarse.moon_altitude_deg - MOONRISE_ALTITUDE_DEG) < 16.0  # (M, C)
-        closest = np.where(moon_up[:, :, None], cos_moon, -np.inf).max(axis=1)
-        need |= (closest > _cos_deg(constraints.min_moon_separation_deg + 16.0)).T
+        threshold = _cos_deg(constraints.min_moon_separation_deg + 16.0)
+        if np.isfinite(threshold):
+            # Samples with the Moon down pushed below any cosine, in place (cos_moon is done with).
+            cos_moon += np.where(moon_up, 0.0, -4.0)[:, :, None]
+            need |= (cos_moon.max(axis=1) > threshold).T
+        else:  # a limit past 180°: any sample with the Moon up
+            need |= moon_up.any(axis=1)[None, :]
     if constraints.horizon_az_deg:
         need |= max(constraints.horizon_alt_deg) > limit
     return need
