@@ -23,12 +23,12 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
+    from planner.cache.sun_moon import default_store
     from planner.reports.observability_report import (
         observability_json,
         observability_json_pieces,
         observability_text,
     )
-    from planner.cache.sun_moon import default_store
     from planner.sky.night_summary import run_of_nights, seasons
 
     start = common.parse_night_date(args.start, "--start")
