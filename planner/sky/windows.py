@@ -359,8 +359,9 @@ class _FineGrid:
         # sin(altitude) = zenith · target, the zenith at (RA = LST, Dec = φ).
         self.zenith = np.stack([np.cos(phi) * np.cos(lst), np.cos(phi) * np.sin(lst),
                                 np.full_like(lst, np.sin(phi))], axis=-2)  # (U, 3, K)
-        self.moon = np.ascontiguousarray(np.swapaxes(unit_vectors(track.moon_ra_deg, track.moon_dec_deg), -1, -2))
-        self.sun = np.ascontiguousarray(np.swapaxes(unit_vectors(track.sun_ra_deg, track.sun_dec_deg), -1, -2))
+        across = lambda v: np.ascontiguousarray(np.swapaxes(v, -1, -2))  # noqa: E731  (U, 3, K)
+        self.moon = across(unit_vectors(track.moon_ra_deg, track.moon_dec_deg))
+        self.sun = across(unit_vectors(track.sun_ra_deg, track.sun_dec_deg))
         self.moon_down = -(track.moon_altitude_deg - MOONRISE_ALTITUDE_DEG) >= 0.0
 
     def night(self, u: int, ra, dec):
@@ -395,7 +396,8 @@ class _FineGrid:
         return TimeTrack(*(getattr(self.track, f)[u, k] for f in TimeTrack.__dataclass_fields__))
 
 
-#: The smallest negative margin: a failing sample that rounds to zero stays failing.
+#: The smallest positive float: a failing sample whose margin rounds to zero gets −_TINY
+#: and stays failing.
 _TINY = float(np.nextafter(0.0, 1.0))
 
 
