@@ -5,7 +5,8 @@ What each is checked against (common practice, no source): the blocked computati
 itself with other block sizes; the fine grid's verdict-then-margin kernel against the plain
 one (every constraint's margin in degrees at every sample, then
 :func:`~planner.sky.windows.integrate_margin`); the streamed JSON against the text of the
-whole document encoded at once (the writer every other command uses).  Accuracy against
+whole document encoded at once (the writer every other command uses); the working memory
+against the size of the results, at two sizes.  Accuracy against
 astropy is held by tests/test_windows.py and tests/test_visibility.py.
 """
 
