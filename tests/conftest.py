@@ -38,6 +38,20 @@ settings.register_profile("dev", deadline=None, max_examples=100, print_blob=Tru
 settings.load_profile("ci" if os.environ.get("CI") else "dev")
 
 
+@pytest.fixture(scope="session", autouse=True)
+def _gcplan_cache_folder(tmp_path_factory):
+    """The on-disk Sun/Moon cache in a folder of this run, never the user's own
+    (commands run in subprocesses inherit it)."""
+    folder = tmp_path_factory.mktemp("gcplan-cache")
+    old = os.environ.get("GCPLAN_CACHE_DIR")
+    os.environ["GCPLAN_CACHE_DIR"] = str(folder)
+    yield folder
+    if old is None:
+        os.environ.pop("GCPLAN_CACHE_DIR", None)
+    else:
+        os.environ["GCPLAN_CACHE_DIR"] = old
+
+
 @pytest.fixture(autouse=True)
 def _gcplan_runtime():
     from planner.config import configure_runtime

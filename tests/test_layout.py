@@ -27,15 +27,16 @@ ALLOWED: dict[str, set[str]] = {
     "inputs": {"model", "errors", "sky.nights"},
     "logbook": {"model", "errors", "sky", "light", "inputs"},
     "reports": {"model", "errors", "cautions", "sky", "light", "variables", "scheduling", "inputs", "logbook"},
+    "cache": {"__init__"},
     "tui": {"model", "errors", "cautions", "sky", "light", "variables", "scheduling", "inputs", "logbook",
-            "reports", "config"},
+            "reports", "config", "cache"},
     "commands": {"model", "errors", "cautions", "sky", "light", "variables", "scheduling", "inputs", "logbook",
-                 "reports", "tui", "config", "commands.common", "__init__"},
+                 "reports", "tui", "config", "commands.common", "__init__", "cache"},
     "cli": {"errors", "config", "commands", "__init__"},
     "__main__": {"cli"},
     "__init__": set(),
 }
-SHELLS = {"commands", "reports", "tui", "cli", "__main__"}
+SHELLS = {"commands", "reports", "tui", "cli", "__main__", "cache"}
 CORE = {"model", "sky", "light", "variables", "scheduling"}
 
 
@@ -124,6 +125,8 @@ def test_the_rules_themselves_keep_the_core_below_the_shells():
     ("planner.commands.campaign", "planner.commands.common", True),
     ("planner.tui.app", "planner.commands.schedule", False),
     ("planner.reports.charts", "planner.tui.app", False),
+    ("planner.sky.ephemeris", "planner.cache.sun_moon", False),
+    ("planner.commands.observability", "planner.cache.sun_moon", True),
 ])
 def test_rule_examples(importer, imported, ok):
     """The checker itself can fail: known good and bad pairs."""

@@ -265,6 +265,34 @@ def print_json(obj: Any) -> None:
     sys.stdout.write("\n")
 
 
+def compact_json(obj: Any) -> str:
+    """Compact JSON of core results (see :func:`to_jsonable`): what large output is made of."""
+    return json.dumps(to_jsonable(obj), ensure_ascii=False, allow_nan=False, separators=(",", ":"))
+
+
+def print_json_pieces(pieces, whole) -> None:
+    """Large JSON on stdout piece by piece: the same text :func:`print_json` gives.
+
+    ``pieces`` yields the compact text in order; ``whole()`` builds the object,
+    and is called only when the text turns out short enough to be indented.
+    """
+    it = iter(pieces)
+    head, size = [], 0
+    for piece in it:
+        head.append(piece)
+        size += len(piece)
+        if size > _INDENT_LIMIT_CHARS:
+            break
+    else:
+        print_json(whole())
+        return
+    write = sys.stdout.write
+    write("".join(head))
+    for piece in it:
+        write(piece)
+    write("\n")
+
+
 def write_json(path: Path, obj: Any) -> Path:
     """JSON written to a file, indented, with a final newline."""
     Path(path).write_text(json_text(obj) + "\n", encoding="utf-8")

@@ -23,7 +23,12 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
-    from planner.reports.observability_report import observability_json, observability_text
+    from planner.cache.sun_moon import default_store
+    from planner.reports.observability_report import (
+        observability_json,
+        observability_json_pieces,
+        observability_text,
+    )
     from planner.sky.night_summary import run_of_nights, seasons
 
     start = common.parse_night_date(args.start, "--start")
@@ -33,10 +38,12 @@ def run(args) -> int:
     targets = common.targets_from_args(args)
     constraints = common.constraints_from_args(site, args)
     plot_path = common.check_output_path(args.plot, (".png", ".pdf"), "--plot") if args.plot else None
-    run_ = run_of_nights(site, targets, nights, constraints)
+    run_ = run_of_nights(site, targets, nights, constraints, store=default_store())
     summary = seasons(run_)
     if args.json:
-        common.print_json(observability_json(run_, summary))
+        # Written as it is made: a large run's JSON is never held whole in memory.
+        common.print_json_pieces(observability_json_pieces(run_, summary, common.compact_json),
+                                 lambda: observability_json(run_, summary))
     else:
         print(observability_text(run_, summary))
     if plot_path is not None:

@@ -7,6 +7,7 @@ options, a campaign file's ``[constraints]``).
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -44,7 +45,7 @@ class Constraints:
             parts.append("horizon mask")
         return ", ".join(parts)
 
-    @property
+    @cached_property  # the airmass inverse is iterative: once per instance, not per use
     def altitude_limit_deg(self) -> float:
         if self.max_airmass is None:
             return float(self.min_altitude_deg)

@@ -2,25 +2,29 @@
 
 astropy's ``get_body`` and frame transforms are exact but slow (about 0.2 ms
 per Sun position and 0.5 ms per Moon position); a semester at one-minute
-resolution would take minutes.  Instead we sample, once per site and span:
+resolution would take minutes.  Instead we sample, once per span:
 
 * the Sun's and the Moon's geocentric apparent places (true equator and
   equinox of date, astropy's ``TETE`` frame) and distances,
 * UT1 − UTC and the equation of the equinoxes (GAST − GMST),
 
-every :data:`SAMPLE_STEP_D` days, and interpolate them with four-point
+every :data:`SAMPLE_STEP_D` days from :data:`GRID_ORIGIN_JD`, and interpolate them with four-point
 Lagrange polynomials.  Local sidereal time then comes from Meeus eq. 12.4 in
 numpy (:mod:`planner.sky.sidereal`), and the Moon is made topocentric with the
 observer's geocentric vector (its parallax reaches 1°).  Tests hold every
 quantity here to astropy's full AltAz transform and to skyfield/DE421.
 
-The :class:`Ephemeris` object *is* the cache: build it once per site and span
-and pass it in.  Nothing here reads a clock or a file.
+The :class:`Ephemeris` object *is* the cache within a run: build it once per
+span and pass it in.  Between runs a :class:`SampleStore` (a shell's, passed in)
+may keep each calendar year's Sun and Moon samples.  Nothing here reads a
+clock or a file.
 """
 
 from __future__ import annotations
 
+import datetime as dt
 from dataclasses import dataclass
+from typing import Protocol
 
 import numpy as np
 
@@ -80,46 +84,126 @@ class Ephemeris:
         return self.jd0 + self.step_d * (len(self.dut1_s) - 1)
 
 
+#: The sample grid's origin, JD (UTC): 2000-01-01 0h.  Every span is sampled on
+#: ``GRID_ORIGIN_JD + k × step`` — the same instants whatever the span — so a
+#: year's samples, once made, serve any span inside it (see :class:`SampleStore`).
+GRID_ORIGIN_JD = 2451544.5
+
+#: What :func:`sun_moon_samples` gives per sample: functions of time alone, the
+#: same at every site (the Moon here is geocentric).
+SAMPLE_FIELDS = ("sun_ra_deg", "sun_dec_deg", "sun_distance_km", "moon_ra_deg", "moon_dec_deg",
+                 "moon_distance_km", "eqeq_deg")
+
+
+class SampleStore(Protocol):
+    """Where a year's samples are kept between runs (a shell gives one; the core only calls it)."""
+
+    def load(self, year: int, step_d: float) -> dict[str, np.ndarray] | None: ...
+
+    def save(self, year: int, step_d: float, samples: dict[str, np.ndarray]) -> None: ...
+
+
 def build_ephemeris(
-    jd_start: float, jd_end: float, step_d: float = SAMPLE_STEP_D, ut1_table: UT1Table | None = None
+    jd_start: float,
+    jd_end: float,
+    step_d: float = SAMPLE_STEP_D,
+    ut1_table: UT1Table | None = None,
+    store: SampleStore | None = None,
 ) -> Ephemeris:
     """Sample the Sun, the Moon and the Earth's rotation over [jd_start, jd_end].
 
-    Two extra samples on each side keep the four-point interpolation centred
-    at the ends.  The Sun and Moon come from astropy's ``get_body`` (its
-    built-in ephemeris) in the GCRS, rotated to the true equator and equinox
-    of date with ERFA's IAU 2006/2000A bias-precession-nutation matrix — the
-    rotation astropy's ``TETE`` frame applies, without the IERS table reader
-    astropy's transform would also start.  Dates beyond the bundled IERS
-    table work; :func:`iers_warning` says so.
+    At least two extra samples on each side keep the four-point interpolation
+    centred at the ends.  The Sun, the Moon and the equation of the equinoxes
+    come from :func:`sun_moon_samples`, or — given a ``store`` — from the
+    calendar years it holds, each year made once and saved there: the same
+    instants, so the same values.  UT1 − UTC comes from the IERS table.  Dates
+    beyond the bundled IERS table work; :func:`iers_warning` says so.
+    """
+    if ut1_table is None:
+        ut1_table = load_ut1_table()
+    k_lo = int(np.floor((jd_start - GRID_ORIGIN_JD) / step_d)) - 2
+    k_hi = int(np.ceil((jd_end - GRID_ORIGIN_JD) / step_d)) + 2
+    if store is None:
+        samples = sun_moon_samples(GRID_ORIGIN_JD + step_d * np.arange(k_lo, k_hi + 1))
+    else:
+        samples = _from_years(store, k_lo, k_hi, step_d)
+    jd0 = GRID_ORIGIN_JD + step_d * k_lo
+    jd = GRID_ORIGIN_JD + step_d * np.arange(k_lo, k_hi + 1)
+    return Ephemeris(
+        jd0=float(jd0),
+        step_d=float(step_d),
+        sun_ra_deg=np.unwrap(samples["sun_ra_deg"], period=360.0),
+        sun_dec_deg=samples["sun_dec_deg"],
+        sun_distance_km=samples["sun_distance_km"],
+        moon_ra_deg=np.unwrap(samples["moon_ra_deg"], period=360.0),
+        moon_dec_deg=samples["moon_dec_deg"],
+        moon_distance_km=samples["moon_distance_km"],
+        dut1_s=ut1_minus_utc_s(ut1_table, jd),
+        eqeq_deg=samples["eqeq_deg"],
+        iers_end_jd=ut1_table.end_jd,
+    )
+
+
+def sun_moon_samples(jd_utc: np.ndarray) -> dict[str, np.ndarray]:
+    """The Sun's and the Moon's geocentric apparent places of date (RA in [0, 360)) and
+    distances, and the equation of the equinoxes, at the given instants (JD, UTC).
+
+    The Sun and Moon come from astropy's ``get_body`` (its built-in ephemeris) in
+    the GCRS, rotated to the true equator and equinox of date with ERFA's IAU
+    2006/2000A bias-precession-nutation matrix — the rotation astropy's ``TETE``
+    frame applies, without the IERS table reader astropy's transform would also
+    start.
     """
     import erfa
     from astropy.coordinates import get_body
     from astropy.time import Time
 
-    if ut1_table is None:
-        ut1_table = load_ut1_table()
-    n = int(np.ceil((jd_end - jd_start) / step_d)) + 5
-    jd0 = jd_start - 2 * step_d
-    jd = jd0 + step_d * np.arange(n)
-    t = Time(jd, format="jd", scale="utc")
+    t = Time(np.asarray(jd_utc, dtype=float), format="jd", scale="utc")
     tt = t.tt
     npb = erfa.pnm06a(tt.jd1, tt.jd2)  # GCRS -> true equator and equinox of date
     sun_ra, sun_dec, sun_km = _of_date(get_body("sun", t), npb)
     moon_ra, moon_dec, moon_km = _of_date(get_body("moon", t), npb)
-    return Ephemeris(
-        jd0=float(jd0),
-        step_d=float(step_d),
-        sun_ra_deg=np.unwrap(sun_ra, period=360.0),
-        sun_dec_deg=sun_dec,
-        sun_distance_km=sun_km,
-        moon_ra_deg=np.unwrap(moon_ra, period=360.0),
-        moon_dec_deg=moon_dec,
-        moon_distance_km=moon_km,
-        dut1_s=ut1_minus_utc_s(ut1_table, jd),
-        eqeq_deg=np.degrees(erfa.ee06a(tt.jd1, tt.jd2)),
-        iers_end_jd=ut1_table.end_jd,
-    )
+    return {
+        "sun_ra_deg": sun_ra,
+        "sun_dec_deg": sun_dec,
+        "sun_distance_km": sun_km,
+        "moon_ra_deg": moon_ra,
+        "moon_dec_deg": moon_dec,
+        "moon_distance_km": moon_km,
+        "eqeq_deg": np.degrees(erfa.ee06a(tt.jd1, tt.jd2)),
+    }
+
+
+def year_grid(year: int, step_d: float) -> tuple[int, int]:
+    """Indices k (first, last) of the samples in a calendar year (UTC), on the grid."""
+    first = _new_year_jd(year)
+    k0 = int(np.ceil((first - GRID_ORIGIN_JD) / step_d))
+    k1 = int(np.ceil((_new_year_jd(year + 1) - GRID_ORIGIN_JD) / step_d)) - 1
+    return k0, k1
+
+
+def _new_year_jd(year: int) -> float:
+    """JD of 1 January 0h UTC of ``year`` (proleptic Gregorian)."""
+    return GRID_ORIGIN_JD + (dt.date(year, 1, 1).toordinal() - dt.date(2000, 1, 1).toordinal())
+
+
+def _year_of(k: int, step_d: float) -> int:
+    day = dt.date(2000, 1, 1) + dt.timedelta(days=int(np.floor(k * step_d)))
+    return day.year
+
+
+def _from_years(store: SampleStore, k_lo: int, k_hi: int, step_d: float) -> dict[str, np.ndarray]:
+    """Samples k_lo..k_hi from whole calendar years, each loaded from the store or made and saved."""
+    parts = []
+    for year in range(_year_of(k_lo, step_d), _year_of(k_hi, step_d) + 1):
+        k0, k1 = year_grid(year, step_d)
+        samples = store.load(year, step_d)
+        if samples is None or any(len(samples.get(f, ())) != k1 - k0 + 1 for f in SAMPLE_FIELDS):
+            samples = sun_moon_samples(GRID_ORIGIN_JD + step_d * np.arange(k0, k1 + 1))
+            store.save(year, step_d, samples)
+        lo, hi = max(k_lo, k0), min(k_hi, k1)
+        parts.append({f: samples[f][lo - k0: hi - k0 + 1] for f in SAMPLE_FIELDS})
+    return {f: np.concatenate([p[f] for p in parts]) for f in SAMPLE_FIELDS}
 
 
 def _of_date(coord, npb):

@@ -19,6 +19,7 @@ from planner.model.target import Target
 from planner.sky.almanac import Almanac, almanac_for_nights
 from planner.sky.ephemeris import (
     Ephemeris,
+    SampleStore,
     build_ephemeris,
     iers_warning,
     site_geometry,
@@ -49,14 +50,19 @@ class RunOfNights:
 
 
 def run_of_nights(
-    site: SiteProfile, targets: list[Target], nights: list[dt.date], constraints: Constraints
+    site: SiteProfile,
+    targets: list[Target],
+    nights: list[dt.date],
+    constraints: Constraints,
+    store: SampleStore | None = None,
 ) -> RunOfNights:
-    """Everything about ``targets`` on ``nights``: the Sun and Moon computed once for the span."""
+    """Everything about ``targets`` on ``nights``: the Sun and Moon computed once for the span
+    (or read from ``store``'s years, see :func:`~planner.sky.ephemeris.build_ephemeris`)."""
     loc = site.location
     geo = site_geometry(loc.latitude_deg, loc.longitude_deg, loc.elevation_m)
     span_start, span_end = night_spans_jd(list(nights), loc.timezone)
     jd0, jd1 = float(span_start.min()), float(span_end.max())
-    eph = build_ephemeris(jd0, jd1)
+    eph = build_ephemeris(jd0, jd1, store=store)
     almanac = almanac_for_nights(site, list(nights), eph)
     places = apparent_places([t.ra_deg for t in targets], [t.dec_deg for t in targets], jd0, jd1)
     vis = visibility_for_nights(eph, geo, places, almanac, constraints)

@@ -46,7 +46,9 @@ from planner.sky.sidereal import (
 )
 from planner.sky.visibility import (
     ApparentPlaces,
+    TimeTrack,
     constraint_margin_deg,
+    horizon_altitude_deg,
     sky_at,
     time_track,
 )
@@ -55,6 +57,10 @@ from planner.sky.visibility import (
 GRID_STEP_MIN = 5.0
 #: Samples of the coarse (about hourly) Moon check per night.
 _COARSE_SAMPLES = 25
+#: Elements (float64) of one working array: targets are taken in blocks, and the
+#: fine grid in blocks of rows, of about this size (8 MB; a handful of such arrays
+#: are alive at once), so memory does not grow with targets × nights.
+CHUNK_ELEMENTS = 1 << 20
 
 
 @dataclass(frozen=True)
@@ -96,51 +102,101 @@ def visibility_for_nights(
     constraints: Constraints,
     step_min: float = GRID_STEP_MIN,
 ) -> NightVisibility:
-    """Observable hours and windows for every target on every night of the almanac."""
+    """Observable hours and windows for every target on every night of the almanac.
+
+    Targets are taken in blocks and the fine grid night by night in blocks of
+    rows, each sized to :data:`CHUNK_ELEMENTS`, so the working memory stays the
+    same whatever the number of targets × nights; only the results grow with it.
+    """
     dark_start, dark_end = almanac.dark_window_jd(constraints.twilight)
     has_dark = np.isfinite(dark_start) & np.isfinite(dark_end)
     s = np.where(has_dark, dark_start, almanac.middle_jd)
     e = np.where(has_dark, dark_end, almanac.middle_jd)
-    mid = 0.5 * (s + e)
-    ra, dec = places.at(mid)  # (N, M): fixed for the night
-    limit = constraints.altitude_limit_deg
-
-    upper, lower = culmination_altitudes_deg(geo.latitude_deg, dec)
-    ha_start = wrap_180(local_sidereal_deg(eph, s, geo.longitude_deg)[None, :] - ra)
+    mid = 0.5 * (s + e)  # a target's apparent place is taken as fixed for the night, at its middle
+    n_targets, n_nights = places.ra_deg.shape[0], len(s)
+    out = {name: np.empty((n_targets, n_nights)) for name in _FIELDS}
+    need = np.zeros((n_targets, n_nights), dtype=bool)
+    lst_s = local_sidereal_deg(eph, s, geo.longitude_deg)
     span_deg = (SIDEREAL_DEG_PER_DAY * (e - s))[None, :]
-    hours, w_start, w_end = _altitude_windows(geo.latitude_deg, dec, (upper, lower), limit, s, ha_start,
-                                              span_deg)
-
-    need, sep_c = _where_sampling_is_needed(eph, geo, ra, dec, s, e, constraints)
-    need &= (hours > 0.0) & has_dark[None, :]
+    coarse = _coarse_sky(eph, geo, s, e)
+    for rows in _blocks(n_targets, n_nights * _COARSE_SAMPLES):
+        ra, dec = _places_of(places, rows).at(mid)
+        _closed_forms(eph, geo, ra, dec, s, e, lst_s, span_deg, has_dark, constraints, coarse,
+                      {name: a[rows] for name, a in out.items()}, need[rows])
     # The grid finds the window as if there were no upper limit; its gap is cut out below.
     below_zenith = replace(constraints, max_altitude_deg=None)
-    _refine_on_grid(eph, geo, ra, dec, s, e, below_zenith, step_min, need, hours, w_start, w_end)
-
-    hours = np.where(has_dark[None, :], hours, 0.0)
-    w_start = np.where(has_dark[None, :], w_start, np.nan)
-    w_end = np.where(has_dark[None, :], w_end, np.nan)
-
-    t_transit, peak = _transit_and_peak(eph, geo, ra, dec, s, e, ha_start, span_deg, upper)
-    gap_start, gap_end = _zenith_gap(geo.latitude_deg, dec, (upper, lower), constraints.max_altitude_deg,
-                                     t_transit, w_start, w_end)
-    hours = hours - np.nan_to_num(gap_end - gap_start) * 24.0
-    dark_nan = lambda x: np.where(has_dark[None, :], x, np.nan)  # noqa: E731
-    max_alt = dark_nan(peak)
+    _refine_on_grid(eph, geo, places, mid, s, e, below_zenith, step_min, need,
+                    out["hours"], out["w_start"], out["w_end"])
+    del need
+    for rows in _blocks(n_targets, n_nights * 4):
+        dec = None if constraints.max_altitude_deg is None else _places_of(places, rows).at(mid)[1]
+        _finish(geo.latitude_deg, dec, has_dark, constraints.max_altitude_deg,
+                {name: a[rows] for name, a in out.items()})
     return NightVisibility(
-        observable_hours=hours,
-        window_start_jd=w_start,
-        window_end_jd=w_end,
-        transit_jd=t_transit,
-        max_altitude_deg=max_alt,
-        min_airmass=airmass_kasten_young(max_alt),
-        moon_separation_deg=dark_nan(sep_c[..., _COARSE_SAMPLES // 2]),
-        min_moon_separation_deg=dark_nan(sep_c.min(axis=-1)),
+        observable_hours=out["hours"],
+        window_start_jd=out["w_start"],
+        window_end_jd=out["w_end"],
+        transit_jd=out["transit"],
+        max_altitude_deg=out["max_alt"],
+        min_airmass=out["min_airmass"],
+        moon_separation_deg=out["moon_mid"],
+        min_moon_separation_deg=out["moon_min"],
         dark_start_jd=np.where(has_dark, dark_start, np.nan),
         dark_end_jd=np.where(has_dark, dark_end, np.nan),
-        zenith_gap_start_jd=gap_start,
-        zenith_gap_end_jd=gap_end,
+        zenith_gap_start_jd=out["gap_start"],
+        zenith_gap_end_jd=out["gap_end"],
     )
+
+
+def _places_of(places: ApparentPlaces, rows) -> ApparentPlaces:
+    """Some targets' apparent places (interpolated to a time, the same values as all of them)."""
+    return ApparentPlaces(places.epochs_jd, places.ra_deg[rows], places.dec_deg[rows])
+
+
+_FIELDS = ("hours", "w_start", "w_end", "transit", "max_alt", "min_airmass", "moon_mid", "moon_min",
+           "gap_start", "gap_end")
+
+
+def _blocks(n: int, elements_per_item: int):
+    """Slices of ``range(n)`` holding about :data:`CHUNK_ELEMENTS` elements each."""
+    size = max(1, CHUNK_ELEMENTS // max(int(elements_per_item), 1))
+    for i in range(0, n, size):
+        yield slice(i, min(i + size, n))
+
+
+def _closed_forms(eph, geo, ra, dec, s, e, lst_s, span_deg, has_dark, constraints, coarse, out, need):
+    """Everything but the fine grid for a block of targets, written into ``out`` and ``need``."""
+    upper, lower = culmination_altitudes_deg(geo.latitude_deg, dec)
+    ha_start = wrap_180(lst_s[None, :] - ra)
+    hours, w_start, w_end = _altitude_windows(geo.latitude_deg, dec, (upper, lower),
+                                              constraints.altitude_limit_deg, s, ha_start, span_deg)
+    out["hours"][:], out["w_start"][:], out["w_end"][:] = hours, w_start, w_end
+    need[:] = _where_sampling_is_needed(ra, dec, constraints, coarse, out["moon_mid"], out["moon_min"])
+    need &= (hours > 0.0) & has_dark[None, :]
+    out["transit"][:], out["max_alt"][:] = _transit_and_peak(eph, geo, ra, dec, s, e, ha_start, span_deg, upper)
+
+
+def _finish(latitude_deg, dec, has_dark, max_altitude_deg, out):
+    """After the fine grid: no darkness, no hours; the zenith gap cut out; peak airmass."""
+    dark = has_dark[None, :]
+    hours = np.where(dark, out["hours"], 0.0)
+    w_start = np.where(dark, out["w_start"], np.nan)
+    w_end = np.where(dark, out["w_end"], np.nan)
+    if max_altitude_deg is None:
+        out["hours"][:] = hours
+        out["gap_start"][:] = out["gap_end"][:] = np.nan
+    else:
+        upper, lower = culmination_altitudes_deg(latitude_deg, dec)
+        gap_start, gap_end = _zenith_gap(latitude_deg, dec, (upper, lower), max_altitude_deg, out["transit"],
+                                         w_start, w_end)
+        out["hours"][:] = hours - np.nan_to_num(gap_end - gap_start) * 24.0
+        out["gap_start"][:], out["gap_end"][:] = gap_start, gap_end
+    out["w_start"][:], out["w_end"][:] = w_start, w_end
+    max_alt = np.where(dark, out["max_alt"], np.nan)
+    out["max_alt"][:] = max_alt
+    out["min_airmass"][:] = airmass_kasten_young(max_alt)
+    for name in ("moon_mid", "moon_min"):
+        out[name][:] = np.where(dark, out[name], np.nan)
 
 
 def _zenith_gap(latitude_deg, dec, culminations, max_altitude_deg, t_transit, w_start, w_end):
@@ -192,16 +248,52 @@ def _altitude_windows(latitude_deg, dec, culminations, limit, s, ha_start, span_
     return hours, np.where(none, np.nan, w_start), np.where(none, np.nan, w_end)
 
 
-def _where_sampling_is_needed(eph, geo, ra, dec, s, e, constraints):
-    """Coarse (about hourly) check: the target-nights where the Moon, sun avoidance or
-    the horizon mask could bite, and the hourly Moon separations (N, M, C)."""
-    limit = constraints.altitude_limit_deg
+@dataclass(frozen=True)
+class _CoarseSky:
+    """The Moon and the Sun at the hourly samples of each night, as unit vectors (M, C, 3)."""
+
+    moon_xyz: np.ndarray  # topocentric, true equator and equinox of date
+    moon_altitude_deg: np.ndarray  # (M, C)
+    sun_xyz: np.ndarray
+
+
+def _coarse_sky(eph, geo, s, e) -> _CoarseSky:
     frac_c = np.linspace(0.0, 1.0, _COARSE_SAMPLES)
     coarse_jd = s[:, None] + (e - s)[:, None] * frac_c[None, :]  # (M, C)
     lst_c = local_sidereal_deg(eph, coarse_jd, geo.longitude_deg)
     m_ra, m_dec, _ = moon_radec_deg(eph, geo, coarse_jd, lst_c)
-    m_alt = altitude_deg(geo.latitude_deg, m_dec, lst_c - m_ra)
-    sep_c = coarse_separation_deg(ra[..., None], dec[..., None], m_ra[None], m_dec[None])  # (N, M, C)
+    s_ra, s_dec = sun_radec_deg(eph, coarse_jd)
+    return _CoarseSky(unit_vectors(m_ra, m_dec), altitude_deg(geo.latitude_deg, m_dec, lst_c - m_ra),
+                      unit_vectors(s_ra, s_dec))
+
+
+def unit_vectors(ra_deg, dec_deg) -> np.ndarray:
+    """Unit vectors (…, 3) towards RA/Dec: a separation is then the arc cosine of a dot
+    product, and the sines and cosines are taken once per direction, not per pair."""
+    ra, dec = np.radians(ra_deg), np.radians(dec_deg)
+    cos_dec = np.cos(dec)
+    return np.stack([cos_dec * np.cos(ra), cos_dec * np.sin(ra), np.sin(dec)], axis=-1)
+
+
+def _cos_deg(angle_deg: float) -> float:
+    """cos of an angle limit; a limit past 180° is met by every separation."""
+    return float(np.cos(np.radians(angle_deg))) if angle_deg <= 180.0 else -np.inf
+
+
+def _where_sampling_is_needed(ra, dec, constraints, coarse, moon_mid, moon_min):
+    """Coarse (about hourly) check for a block of targets (B, M): the target-nights where
+    the Moon, sun avoidance or the horizon mask could bite.  Writes the Moon's separation
+    at the middle sample and its smallest hourly value into ``moon_mid`` and ``moon_min``.
+
+    Separations are compared as cosines (dot products of unit vectors); arc cosines
+    are taken only for the two reported values.
+    """
+    limit = constraints.altitude_limit_deg
+    # (M, C, B): the reductions over the hourly samples run along whole rows of targets.
+    targets = np.ascontiguousarray(unit_vectors(ra, dec).transpose(1, 2, 0))  # (M, 3, B)
+    cos_moon = np.matmul(coarse.moon_xyz, targets)
+    moon_min[:] = np.degrees(np.arccos(np.clip(cos_moon.max(axis=1), -1.0, 1.0))).T
+    moon_mid[:] = np.degrees(np.arccos(np.clip(cos_moon[:, _COARSE_SAMPLES // 2], -1.0, 1.0))).T
     need = np.zeros(ra.shape, dtype=bool)
     # A target above the altitude limit is at least limit − (Sun's altitude)
     # from the Sun, and in the dark window the Sun is below the twilight's
@@ -209,38 +301,104 @@ def _where_sampling_is_needed(eph, geo, ra, dec, s, e, constraints):
     sun_floor = limit - TWILIGHT_ALTITUDE_DEG[constraints.twilight]
     if constraints.sun_avoidance_deg > sun_floor:
         # The Sun moves about 1° a day against the stars: hourly samples need little slack.
-        s_ra, s_dec = sun_radec_deg(eph, coarse_jd)
-        sun_sep = coarse_separation_deg(ra[..., None], dec[..., None], s_ra[None], s_dec[None])
-        need |= sun_sep.min(axis=-1) < constraints.sun_avoidance_deg + 1.0
+        cos_sun = np.matmul(coarse.sun_xyz, targets)
+        need |= (cos_sun.max(axis=1) > _cos_deg(constraints.sun_avoidance_deg + 1.0)).T
     if constraints.min_moon_separation_deg > 0:
-        moon_margin = np.maximum(sep_c - constraints.min_moon_separation_deg, -(m_alt - MOONRISE_ALTITUDE_DEG)[None])
         # Between hourly samples the Moon's altitude changes by up to ~15°,
         # its separation from a target by < 1°: 16° of slack is generous.
-        need |= moon_margin.min(axis=-1) < 16.0
+        # (The margin max(separation − limit, moonset altitude − Moon's altitude)
+        # below 16° somewhere: the Moon within limit + 16° while above −16.8°.)
+        moon_up = -(coarse.moon_altitude_deg - MOONRISE_ALTITUDE_DEG) < 16.0  # (M, C)
+        threshold = _cos_deg(constraints.min_moon_separation_deg + 16.0)
+        if np.isfinite(threshold):
+            # Samples with the Moon down pushed below any cosine, in place (cos_moon is done with).
+            cos_moon += np.where(moon_up, 0.0, -4.0)[:, :, None]
+            need |= (cos_moon.max(axis=1) > threshold).T
+        else:  # a limit past 180°: any sample with the Moon up
+            need |= moon_up.any(axis=1)[None, :]
     if constraints.horizon_az_deg:
         need |= max(constraints.horizon_alt_deg) > limit
-    return need, sep_c
+    return need
 
 
-def _refine_on_grid(eph, geo, ra, dec, s, e, constraints, step_min, need, hours, w_start, w_end):
+def _refine_on_grid(eph, geo, places, mid, s, e, constraints, step_min, need, hours, w_start, w_end):
     """Sample the target-nights in ``need`` on the fine grid and overwrite their hours and
-    window (in place) with what every constraint allows."""
-    rows_n, rows_m = np.nonzero(need)
-    if not rows_n.size:
+    window (in place) with what every constraint allows.
+
+    Night by night, in blocks of rows: the Sun, the Moon and sidereal time once per
+    night (as unit vectors), then for each sample only dot products and
+    comparisons; the margin in degrees is computed where a sample's verdict
+    differs from a neighbour's — the only samples the edges are placed from.
+    """
+    nights = np.flatnonzero(need.any(axis=0))
+    if not nights.size:
         return
-    length_d = float(np.max(e[rows_m] - s[rows_m]))
+    length_d = float(np.max(e[nights] - s[nights]))
     k = max(int(np.ceil(length_d * 1440.0 / step_min)) + 1, 2)
     frac = np.linspace(0.0, 1.0, k)
-    nights_needed, which = np.unique(rows_m, return_inverse=True)
-    night_jd = s[nights_needed, None] + (e - s)[nights_needed, None] * frac[None, :]  # (U, K)
-    track = time_track(eph, geo, night_jd).rows(which)  # Sun and Moon once per night
-    grid_jd = track.jd_utc  # (R, K)
-    sky = sky_at(track, geo.latitude_deg, ra[rows_n, rows_m, None], dec[rows_n, rows_m, None])
-    margin = constraint_margin_deg(sky, constraints)
-    g_hours, g_start, g_end = integrate_margin(margin, grid_jd)
-    hours[rows_n, rows_m] = g_hours
-    w_start[rows_n, rows_m] = g_start
-    w_end[rows_n, rows_m] = g_end
+    night_jd = s[nights, None] + (e - s)[nights, None] * frac[None, :]  # (U, K)
+    grid = _FineGrid(time_track(eph, geo, night_jd), geo.latitude_deg, constraints)
+    for u, m in enumerate(nights):
+        targets = np.flatnonzero(need[:, m])
+        for block in _blocks(targets.size, k * 4):
+            rows = targets[block]
+            ra, dec = _places_of(places, rows).at(mid[m: m + 1])
+            g_hours, g_start, g_end = grid.night(u, ra[:, 0], dec[:, 0])
+            hours[rows, m] = g_hours
+            w_start[rows, m] = g_start
+            w_end[rows, m] = g_end
+
+
+class _FineGrid:
+    """One fine grid per night (U, K) and what every target's verdict needs of it."""
+
+    def __init__(self, track: TimeTrack, latitude_deg: float, constraints: Constraints):
+        self.track, self.latitude_deg, self.c = track, latitude_deg, constraints
+        phi = np.radians(latitude_deg)
+        lst = np.radians(track.lst_deg)
+        # sin(altitude) = zenith · target, the zenith at (RA = LST, Dec = φ).
+        self.zenith = np.stack([np.cos(phi) * np.cos(lst), np.cos(phi) * np.sin(lst),
+                                np.full_like(lst, np.sin(phi))], axis=-2)  # (U, 3, K)
+        across = lambda v: np.ascontiguousarray(np.swapaxes(v, -1, -2))  # noqa: E731  (U, 3, K)
+        self.moon = across(unit_vectors(track.moon_ra_deg, track.moon_dec_deg))
+        self.sun = across(unit_vectors(track.sun_ra_deg, track.sun_dec_deg))
+        self.moon_down = -(track.moon_altitude_deg - MOONRISE_ALTITUDE_DEG) >= 0.0
+
+    def night(self, u: int, ra, dec):
+        """Hours and the longest window for targets at (ra, dec) on night ``u``."""
+        c = self.c
+        target = unit_vectors(ra, dec)  # (B, 3)
+        sin_alt = target @ self.zenith[u]  # (B, K)
+        ok = sin_alt >= np.sin(np.radians(c.altitude_limit_deg))
+        if c.max_altitude_deg is not None:
+            ok &= sin_alt <= np.sin(np.radians(c.max_altitude_deg))
+        if c.min_moon_separation_deg > 0:
+            ok &= (target @ self.moon[u] <= _cos_deg(c.min_moon_separation_deg)) | self.moon_down[u]
+        if c.sun_avoidance_deg > 0:
+            ok &= target @ self.sun[u] <= _cos_deg(c.sun_avoidance_deg)
+        if c.horizon_az_deg:  # the mask can bite only below its highest point
+            r, k = np.nonzero(ok & (sin_alt < np.sin(np.radians(max(c.horizon_alt_deg)))))
+            sky = sky_at(self._samples(u, k), self.latitude_deg, ra[r], dec[r])
+            ok[r, k] = sky.altitude_deg - horizon_altitude_deg(c, sky.azimuth_deg) >= 0.0
+        # Edges are placed from the margins (degrees) on either side of a change.
+        change = ok[:, 1:] != ok[:, :-1]
+        edge = np.zeros_like(ok)
+        edge[:, 1:] |= change
+        edge[:, :-1] |= change
+        r, k = np.nonzero(edge)
+        exact = constraint_margin_deg(sky_at(self._samples(u, k), self.latitude_deg, ra[r], dec[r]), c)
+        margin = np.where(ok, 1.0, -1.0)  # away from edges only the sign is read
+        # Keep each sample's verdict (they differ only within rounding of zero).
+        margin[r, k] = np.where(ok[r, k], np.maximum(exact, 0.0), np.minimum(exact, -_TINY))
+        return integrate_margin(margin, np.broadcast_to(self.track.jd_utc[u], ok.shape))
+
+    def _samples(self, u: int, k) -> TimeTrack:
+        return TimeTrack(*(getattr(self.track, f)[u, k] for f in TimeTrack.__dataclass_fields__))
+
+
+#: The smallest positive float: a failing sample whose margin rounds to zero gets −_TINY
+#: and stays failing.
+_TINY = float(np.nextafter(0.0, 1.0))
 
 
 def _transit_and_peak(eph, geo, ra, dec, s, e, ha_start, span_deg, upper):
@@ -258,15 +416,6 @@ def _transit_and_peak(eph, geo, ra, dec, s, e, ha_start, span_deg, upper):
         t = t_transit + shift
         inside |= (t >= s[None, :]) & (t <= e[None, :])
     return t_transit, np.where(inside, upper, alt_edges)
-
-
-def coarse_separation_deg(ra1, dec1, ra2, dec2):
-    """Separation from the arc cosine of the dot product: a third of Vincenty's cost, and
-    good to ~1e-6° except within an arcsecond of 0° or 180° — fine for hourly checks
-    against limits of tens of degrees."""
-    d1, d2 = np.radians(dec1), np.radians(dec2)
-    c = np.sin(d1) * np.sin(d2) + np.cos(d1) * np.cos(d2) * np.cos(np.radians(ra1) - np.radians(ra2))
-    return np.degrees(np.arccos(np.clip(c, -1.0, 1.0)))
 
 
 def integrate_margin(margin: np.ndarray, grid_jd: np.ndarray):
