@@ -38,6 +38,13 @@ settings.register_profile("dev", deadline=None, max_examples=100, print_blob=Tru
 settings.load_profile("ci" if os.environ.get("CI") else "dev")
 
 
+@pytest.fixture(autouse=True, scope="session")
+def _gcplan_cache_dir(tmp_path_factory):
+    """gcplan's caches in a folder of the test session, never the user's."""
+    os.environ["GCPLAN_CACHE_DIR"] = str(tmp_path_factory.mktemp("gcplan-cache"))
+    yield
+
+
 @pytest.fixture(autouse=True)
 def _gcplan_runtime():
     from planner.config import configure_runtime
