@@ -76,6 +76,7 @@ from planner.model.constraints import Constraints
 from planner.scheduling.bound import night_bound
 from planner.scheduling.dispatch import DispatchState, dispatch, fill_gaps, improve
 from planner.scheduling.night_plan import Gap, NightPlan, Unplanned
+from planner.scheduling.polish import reassign
 from planner.scheduling.slot_table import SLOT_MIN, build_slot_table
 from planner.scheduling.visits import Visit, VisitRequest, setup_s
 from planner.sky.ephemeris import Ephemeris, moon_phase
@@ -142,6 +143,8 @@ def plan_night(
     fill_gaps(state, start)
     improve(state, start)
     fill_gaps(state, start)
+    if reassign(state, start):
+        fill_gaps(state, start)
     visits = sorted(state.visits, key=lambda v: v.start_jd)
     planned_new = [v for v in visits if v not in fixed]
     visits = _number(visits, id_offset)
