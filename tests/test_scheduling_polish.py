@@ -92,11 +92,12 @@ def test_a_full_night_gains_value_and_airmass(busy_night):
 def test_fixed_visits_and_the_past_stay(busy_night):
     plan, _, requests = busy_night
     fixed = tuple(plan.visits[:5])
-    now = fixed[-1].end_jd
     c = constraints_for_site(SITE, max_airmass=2.0)
     frame = night_sky(SITE, [plan.night], c)
-    again = plan_night(SITE, c, requests, plan.night, plan.window_start_jd, plan.window_end_jd, frame.ephemeris,
-                       fixed=fixed, not_before_jd=now)
-    assert again.visits[:5] == fixed
-    assert all(v.start_jd >= now - 1e-9 for v in again.visits[5:])
-    assert validate_plan(SITE, again, requests) == []
+    for late_s in (0.0, 30.0):  # "now" at the last fixed visit's end, and half a minute after it
+        now = fixed[-1].end_jd + late_s / 86400.0
+        again = plan_night(SITE, c, requests, plan.night, plan.window_start_jd, plan.window_end_jd,
+                           frame.ephemeris, fixed=fixed, not_before_jd=now)
+        assert again.visits[:5] == fixed
+        assert all(v.start_jd >= now - 1e-9 for v in again.visits[5:])
+        assert validate_plan(SITE, again, requests) == []

@@ -79,7 +79,7 @@ def reassign(state: DispatchState, t_min: float) -> bool:
     new_r = {places[i][0]: int(cols[j]) for i, j in zip(rows, picked)}
     if all(new_r[n] == r for n, _, r in places):
         return False
-    return _rebuild(state, visits, places, new_r)
+    return _rebuild(state, visits, places, new_r, t_min)
 
 
 def _movable(state: DispatchState, key_index, v, t_min) -> bool:
@@ -88,7 +88,7 @@ def _movable(state: DispatchState, key_index, v, t_min) -> bool:
             and not state.has_phase[r] and state.spacing_d[r] <= 0)
 
 
-def _rebuild(state: DispatchState, visits, places, new_r) -> bool:
+def _rebuild(state: DispatchState, visits, places, new_r, t_min: float) -> bool:
     """Place the requests in their new places in time order; keep the result only if it is
     valid and worth at least as much as before (else restore the plan as it was)."""
     saved = (list(state.visits), dict(state.value_of), state.remaining.copy(), [list(t) for t in state.times])
@@ -113,7 +113,7 @@ def _rebuild(state: DispatchState, visits, places, new_r) -> bool:
         r = new_r[n]
         start = v.start_jd
         if prev is not None and prev.end_jd >= v.start_jd - LONGER_S / _DAY_S:
-            start = prev.end_jd  # back to back (or nearly): still so, whatever the slews now take
+            start = max(prev.end_jd, t_min)  # back to back (or nearly): still so, never before t_min
         ra, dec, filt = (None, None, None) if prev is None else (prev.ra_deg, prev.dec_deg, prev.exposures[-1].filter)
         su, _ = state.setup(np.array([r]), ra, dec, filt)
         sci = start + su[0] / _DAY_S
