@@ -48,7 +48,6 @@ AIRMASS_WEIGHT = 0.3
 #: place's own (s): the rebuilt plan then keeps its shape (a minute: about one slew).
 LONGER_S = 60.0
 _DAY_S = 86400.0
-_NEVER = -1e12
 
 
 def reassign(state: DispatchState, t_min: float) -> bool:
@@ -63,7 +62,7 @@ def reassign(state: DispatchState, t_min: float) -> bool:
     free_r = [r for r in range(len(state.requests)) if not state.has_phase[r] and state.spacing_d[r] <= 0]
     cols = [r for r in free_r for _ in range(int(state.remaining[r]) + sum(1 for _, _, k in places if k == r))]
     cols = np.array(cols, dtype=int)
-    score = np.full((len(places), len(cols)), _NEVER)
+    score = np.full((len(places), len(cols)), -np.inf)  # -inf: the request does not fit the place
     for i, (_, v, r_own) in enumerate(places):
         sci = np.full(len(cols), v.science_start_jd)
         body, _ = state.body_at(cols, sci)
@@ -74,7 +73,7 @@ def reassign(state: DispatchState, t_min: float) -> bool:
         ok |= cols == r_own  # its own request always fits its place
         x = state.tab.airmass[cols, np.clip(state.slot(mid), 0, state.tab.airmass.shape[1] - 1)]
         s = state.value(cols, mid) - AIRMASS_WEIGHT * state.shutter_h[cols] * np.where(np.isfinite(x), x, 40.0)
-        score[i] = np.where(ok, s, _NEVER)
+        score[i] = np.where(ok, s, -np.inf)
     rows, picked = linear_sum_assignment(-score)
     new_r = {places[i][0]: int(cols[j]) for i, j in zip(rows, picked)}
     if all(new_r[n] == r for n, _, r in places):
