@@ -24,6 +24,7 @@ def run(args) -> int:
     from pathlib import Path
 
     from planner.errors import OutputError
+    from planner.logbook.plan_cache import plan_cache_for
     from planner.reports.campaign_report import campaign_json, campaign_text
     from planner.reports.schedule_report import night_sheet
     from planner.scheduling.campaign import plan_campaign
@@ -37,7 +38,7 @@ def run(args) -> int:
         if not out.parent.is_dir():
             raise OutputError(f"--out {args.out!r}: folder {str(out.parent)!r} does not exist")
     campaign = common.campaign_from_args(args)
-    plan = plan_campaign(campaign, seeing_arcsec=args.seeing)
+    plan = plan_campaign(campaign, seeing_arcsec=args.seeing, cache=plan_cache_for(campaign.source))
     data = campaign_json(plan)
     if args.json:
         common.print_json(data)

@@ -43,6 +43,7 @@ def register(sub) -> None:
 
 def run(args) -> int:
     from planner.reports.schedule_report import night_sheet, schedule_json
+    from planner.logbook.plan_cache import plan_cache_for
     from planner.scheduling.replan import replan_night
 
     night = common.parse_night_date(args.date)
@@ -55,7 +56,8 @@ def run(args) -> int:
     logged, log_closed, recorded, note = read_logbook_night(campaign, night, args.logbook)
     result = replan_night(campaign, night, now, closed=closed, done=tuple(args.done), logged=logged,
                           seeing_arcsec=args.seeing, key=_catalog_key(), logged_closed=log_closed,
-                          assume_done=args.assume_done, used_ids=recorded)
+                          assume_done=args.assume_done, used_ids=recorded,
+                          cache=plan_cache_for(campaign.source))
     if args.json:
         data = schedule_json(campaign.site, result.plan)
         data["replan"] = result.summary()

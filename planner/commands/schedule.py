@@ -80,11 +80,12 @@ def run(args) -> int:
 
 def _campaign_plan(args, night):
     """The campaign file's site and its plan of ``night`` (earlier nights' progress counts)."""
+    from planner.logbook.plan_cache import plan_cache_for
     from planner.scheduling.campaign import plan_campaign_night
 
     campaign = common.campaign_from_args(args)
     common.check_campaign_night(campaign, night)
-    plan, _requests = plan_campaign_night(campaign, night, args.seeing)
+    plan, _requests = plan_campaign_night(campaign, night, args.seeing, cache=plan_cache_for(campaign.source))
     return campaign.site, plan
 
 

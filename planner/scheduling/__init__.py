@@ -11,8 +11,10 @@ or the shells.
 * :mod:`~planner.scheduling.night` — one night's timed plan (dispatch with
   look-ahead, then a gap-filling local search), made of
   :mod:`~planner.scheduling.slot_table` (the constraints on the night's slots),
-  :mod:`~planner.scheduling.dispatch` (the search) and
+  :mod:`~planner.scheduling.dispatch` (the search),
+  :mod:`~planner.scheduling.polish` (the places given out again) and
   :mod:`~planner.scheduling.night_plan` (the plan's data classes).
-* :mod:`~planner.scheduling.campaign` — a campaign over its nights, and the forecast.
+* :mod:`~planner.scheduling.campaign` — a campaign over its nights, and the forecast;
+  :mod:`~planner.scheduling.plan_cache` — its nights kept for re-use (the cache is passed in).
 * :mod:`~planner.scheduling.replan` — the rest of a night planned again from a moment.
 """

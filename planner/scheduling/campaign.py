@@ -335,28 +335,77 @@ def night_index(campaign: Campaign, night: dt.date) -> int:
     return campaign.nights.index(night)
 
 
-def plan_campaign_night(campaign: Campaign, night: dt.date, seeing_arcsec: float | None = None):
+def plan_campaign_night(campaign: Campaign, night: dt.date, seeing_arcsec: float | None = None, *, cache=None):
     """The plan of one campaign night, the campaign planned up to it (earlier nights'
     progress counts), and the requests it was planned from."""
-    plan, requests, _covered = plan_through_night(campaign, night, seeing_arcsec)
+    plan, requests, _covered = plan_through_night(campaign, night, seeing_arcsec, cache=cache)
     return plan, requests
 
 
-def plan_through_night(campaign: Campaign, night: dt.date, seeing_arcsec: float | None = None):
+def plan_through_night(campaign: Campaign, night: dt.date, seeing_arcsec: float | None = None, *, cache=None):
     """The campaign planned from its first night up to ``night`` (earlier nights' progress
     counts; the nights after it still share out the goals, so the night is the one the whole
     campaign's plan gives).  Returns that night's plan, its requests, and the phase bins
-    covered before it."""
+    covered before it.
+
+    ``cache`` (:mod:`planner.scheduling.plan_cache`): nights planned before under the same
+    inputs are taken from it, and the nights planned here are put in it; the result is the
+    same with or without it.
+    """
     k = night_index(campaign, night)
-    state: dict = {}
-    plan = plan_campaign(campaign, seeing_arcsec=seeing_arcsec, forecast=False, _through=k, _state=state)
-    return plan.nights[k], list(plan.requests[k]), state["covered_before_last"]
+    entry = _campaign_nights(campaign, seeing_arcsec, k, cache, every=False)[-1]
+    covered = {key + end: cov.copy() for key, cov in entry.covered_before.items() for end in ("", FILL_SUFFIX)}
+    return entry.plan, list(entry.requests), covered
 
 
 def plan_campaign(campaign: Campaign, *, seeing_arcsec: float | None = None, forecast: bool = True,
-                  _through: int | None = None, _state: dict | None = None) -> CampaignPlan:
-    """Plan every night of the campaign (or its nights up to ``_through``), then forecast
-    the coverage and period recovery."""
+                  cache=None) -> CampaignPlan:
+    """Plan every night of the campaign, then forecast the coverage and period recovery
+    (``cache`` as for :func:`plan_through_night`)."""
+    site = campaign.site
+    seeing = seeing_arcsec or campaign.seeing_arcsec or site.sky.typical_seeing_arcsec
+    entries = _campaign_nights(campaign, seeing_arcsec, len(campaign.nights) - 1, cache, every=True)
+    plans = [e.plan for e in entries]
+    reqs = [e.requests for e in entries]
+    done = entries[-1].done_after
+    usable = sum(p.window_minutes for p in plans) / 60.0
+    required = sum(v.duration_s for p in plans for v in p.visits if not is_fill(v)) / 3600.0
+    extra = sum(v.duration_s for p in plans for v in p.visits if is_fill(v)) / 3600.0
+    warnings = _shortfalls(campaign, done)
+    if usable > 0 and required < LOW_DEMAND * usable:
+        rest = {"none": 'left idle (fill = "none")', "cadence": "filled with extra cadence epochs",
+                "depth": "filled with extra depth frames"}.get(campaign.fill, "filled with extra epochs and depth")
+        warnings.append(f"the goals take {required:.1f} h of {usable:.0f} h usable; the rest is {rest}")
+    coverage, recovery = ({}, {})
+    if forecast and campaign.variables and campaign.cadence is not None:
+        coverage, recovery = forecast_variables(campaign, plans, goal_exposures(campaign, seeing))
+    return CampaignPlan(campaign, tuple(plans), tuple(reqs), coverage, recovery, tuple(warnings),
+                        usable, required, extra)
+
+
+def _campaign_nights(campaign: Campaign, seeing_arcsec, last: int, cache, *, every: bool) -> list:
+    """Nights 0…``last`` as :class:`~planner.scheduling.plan_cache.NightEntry` (``every``: all
+    of them; else only the last), planned from the latest night the cache keeps."""
+    from planner.scheduling.plan_cache import NightEntry, campaign_key, decode, encode
+
+    key = campaign_key(campaign, seeing_arcsec) if cache is not None else ""
+    kept: list = []
+
+    def take(k):
+        return decode(cache.get(key, k)) if cache is not None else None
+
+    if every:  # the kept nights from the first on
+        while len(kept) <= last and (e := take(len(kept))) is not None:
+            kept.append(e)
+        first = len(kept)
+    else:  # the latest kept night at or before ``last``
+        first = 0
+        for k in range(last, -1, -1) if cache is not None else ():
+            if (e := take(k)) is not None:
+                kept, first = [e], k + 1
+                break
+    if first > last:
+        return kept
     site = campaign.site
     seeing = seeing_arcsec or campaign.seeing_arcsec or site.sky.typical_seeing_arcsec
     frame = night_sky(site, campaign.nights, campaign.constraints)  # the Sun and Moon once for the campaign
@@ -371,38 +420,25 @@ def plan_campaign(campaign: Campaign, *, seeing_arcsec: float | None = None, for
     check_goals_can_fit(campaign, goal_nights, seeing, seeing_arcsec is None)
     window_min = np.nan_to_num((frame.window_end_jd - frame.window_start_jd) * 1440.0, nan=0.0)
     by_name = {t.name: t for t in campaign.targets}
-    done: dict = {}
-    covered: dict[str, np.ndarray] = {}
-    plans, reqs = [], []
-    last = len(campaign.nights) - 1 if _through is None else _through
-    for k in range(last + 1):
+    done = dict(kept[-1].done_after) if kept else {}
+    covered = {k: v.copy() for k, v in kept[-1].covered_after.items()} if kept else {}
+    for k in range(first, last + 1):
         owed = {(i, name): (g.visits - done.get((i, name), 0), by_name[name].priority * g.priority)
                 for i, g in enumerate(campaign.goals) for name in g.targets if g.visits > done.get((i, name), 0)}
         depth = assign_depth(owed, goal_nights, lit, window_min, k)
-        if _state is not None:
-            _state["covered_before_last"] = {key + end: cov.copy() for key, cov in covered.items()
-                                             for end in ("", FILL_SUFFIX)}
+        before = {key_: cov.copy() for key_, cov in covered.items()}
         plan, requests = _plan_one_night(campaign, k, frame, tonights[k], exposures, depth, goal_nights, covered,
                                          seeing)
         for v in plan.visits:
             for i, g in enumerate(campaign.goals):
                 if v.request_key == f"{v.target}/{g.level}-{g.filter}":
                     done[(i, v.target)] = done.get((i, v.target), 0) + 1
-        plans.append(plan)
-        reqs.append(tuple(requests))
-    usable = sum(p.window_minutes for p in plans) / 60.0
-    required = sum(v.duration_s for p in plans for v in p.visits if not is_fill(v)) / 3600.0
-    extra = sum(v.duration_s for p in plans for v in p.visits if is_fill(v)) / 3600.0
-    warnings = _shortfalls(campaign, done) if _through is None else []
-    if usable > 0 and required < LOW_DEMAND * usable:
-        rest = {"none": 'left idle (fill = "none")', "cadence": "filled with extra cadence epochs",
-                "depth": "filled with extra depth frames"}.get(campaign.fill, "filled with extra epochs and depth")
-        warnings.append(f"the goals take {required:.1f} h of {usable:.0f} h usable; the rest is {rest}")
-    coverage, recovery = ({}, {})
-    if forecast and campaign.variables and campaign.cadence is not None:
-        coverage, recovery = forecast_variables(campaign, plans, exposures)
-    return CampaignPlan(campaign, tuple(plans), tuple(reqs), coverage, recovery, tuple(warnings),
-                        usable, required, extra)
+        entry = NightEntry(plan, tuple(requests), before, {key_: cov.copy() for key_, cov in covered.items()},
+                           dict(done))
+        if cache is not None:
+            cache.put(key, k, encode(entry))
+        kept = kept + [entry] if every else [entry]
+    return kept
 
 
 def _shortfalls(campaign: Campaign, done: dict) -> list[str]:

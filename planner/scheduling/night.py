@@ -45,6 +45,11 @@ Frames of requests with an S/N goal are sized at every slot at once.
    into it and the changed slew out of it; then each single visit is taken
    out in turn and the most valuable visit that fits its place put back
    (itself moved, or a request left out), and the gaps are filled again.
+4. **Places given out again.**  The plan's places are re-assigned among the
+   requests as a linear assignment (value, with airmass as a small tie-breaker:
+   :mod:`planner.scheduling.polish`), so a target taken early at a poor airmass
+   gives its place to one that is better there; the result is kept only when
+   every visit still holds and the plan is worth at least as much.
 
 Why not solve the whole night as an integer programme?  Overheads depend on
 the order (slews), which a time-indexed model can only carry with order
@@ -76,13 +81,15 @@ from planner.model.constraints import Constraints
 from planner.scheduling.bound import night_bound
 from planner.scheduling.dispatch import DispatchState, dispatch, fill_gaps, improve
 from planner.scheduling.night_plan import Gap, NightPlan, Unplanned
+from planner.scheduling.polish import reassign
 from planner.scheduling.slot_table import SLOT_MIN, build_slot_table
 from planner.scheduling.visits import Visit, VisitRequest, setup_s
 from planner.sky.ephemeris import Ephemeris, moon_phase
 from planner.sky.visibility import angular_separation_deg
 
 METHOD = ("forward dispatch guided by the LP relaxation's time shares and prices (waits while a later start "
-          "is clearly better), then gap filling and remove-and-reinsert local search (1-minute slots)")
+          "is clearly better), then gap filling, remove-and-reinsert local search and a re-assignment of the plan's "
+          "places (1-minute slots)")
 
 
 def plan_night(
@@ -142,6 +149,8 @@ def plan_night(
     fill_gaps(state, start)
     improve(state, start)
     fill_gaps(state, start)
+    if reassign(state, start):
+        fill_gaps(state, start)
     visits = sorted(state.visits, key=lambda v: v.start_jd)
     planned_new = [v for v in visits if v not in fixed]
     visits = _number(visits, id_offset)

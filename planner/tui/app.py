@@ -52,8 +52,13 @@ class PlannerApp(App):
     note: reactive[str] = reactive("", init=False)
 
     def __init__(self, campaign, night: dt.date | None = None, clock: Clock = system_clock,
-                 seeing_arcsec: float | None = None, tick_s: float = TICK_S) -> None:
+                 seeing_arcsec: float | None = None, tick_s: float = TICK_S, plan_cache=None) -> None:
         super().__init__()
+        from planner.logbook.plan_cache import plan_cache_for
+
+        # the campaign's nights kept for re-use (on disk, beside other runs'): a night change
+        # plans only that night, whatever its place in the campaign
+        self.plan_cache = plan_cache if plan_cache is not None else plan_cache_for(campaign.source)
         self.campaign = campaign
         self._first_night = night or campaign.nights[0]
         self.clock = clock
@@ -108,7 +113,7 @@ class PlannerApp(App):
     def load_night(self, night: dt.date) -> None:
         """Almanac, windows and plan of ``night``, computed off the UI thread."""
         try:
-            data = campaign_night_data(self.campaign, night, self.seeing_arcsec)
+            data = campaign_night_data(self.campaign, night, self.seeing_arcsec, self.plan_cache)
         except InputError as exc:
             self.call_from_thread(self._night_failed, night, str(exc))
             return

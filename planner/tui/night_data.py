@@ -28,8 +28,9 @@ class NightData:
     plan_note: str = ""
 
 
-def campaign_night_data(campaign, night: dt.date, seeing_arcsec: float | None = None) -> NightData:
-    """Almanac, target windows and (for a campaign night) the plan of ``night``."""
+def campaign_night_data(campaign, night: dt.date, seeing_arcsec: float | None = None, cache=None) -> NightData:
+    """Almanac, target windows and (for a campaign night) the plan of ``night``; ``cache``: the
+    campaign's nights kept for re-use (:mod:`planner.scheduling.plan_cache`)."""
     from planner.scheduling.campaign import plan_campaign_night
 
     run = run_of_nights(campaign.site, list(campaign.targets), [night], campaign.constraints)
@@ -37,5 +38,5 @@ def campaign_night_data(campaign, night: dt.date, seeing_arcsec: float | None = 
         note = (f"{night} is not a night of this campaign "
                 f"({campaign.nights[0]} to {campaign.nights[-1]}): no plan")
         return NightData(night, run, None, note)
-    plan, _requests = plan_campaign_night(campaign, night, seeing_arcsec)
+    plan, _requests = plan_campaign_night(campaign, night, seeing_arcsec, cache=cache)
     return NightData(night, run, plan)

@@ -1,0 +1,119 @@
+"""The campaign nights' cache on disk (:mod:`planner.scheduling.plan_cache` is the core's side).
+
+One folder per campaign file, under the user's cache folder (platformdirs'
+``user_cache_dir("gcplan")``, or ``GCPLAN_CACHE_DIR`` when set: tests and benchmarks
+use it for a clean one), named by a hash of the file's full path; in it one JSON
+file per night, ``night-NNN.json``, holding the core's entry with
+
+* the campaign key it was made under (the hash of everything that shaped the night),
+* this store's format and a stamp of the code that made it (gcplan's modules, by
+  path, size and modification time, and the versions of the libraries whose numbers
+  enter a plan).
+
+A file with another key, format or stamp, or one that cannot be read (cut short,
+damaged, not JSON) is ignored: the night is planned again and the file replaced.
+Files are written whole to a temporary file in the same folder and moved into
+place (``os.replace``), so a reader never sees half a file and two processes
+writing at once leave one whole file.  Failing to write (read-only disk) only
+loses the saving.  Entries are JSON and rebuilt only into gcplan's own data
+classes, so a file put there by someone else cannot run code.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import tempfile
+from pathlib import Path
+
+#: Layout of a night's file.
+STORE_FORMAT = 1
+#: Libraries whose versions enter the code stamp (their numbers shape a plan): module, distribution.
+_LIBRARIES = (("numpy", "numpy"), ("scipy", "scipy"), ("astropy", "astropy"), ("erfa", "pyerfa"),
+              ("astropy_iers_data", "astropy_iers_data"))
+_stamp: str | None = None
+
+
+def cache_root() -> Path:
+    """Where gcplan keeps caches: ``GCPLAN_CACHE_DIR``, else the user's cache folder."""
+    env = os.environ.get("GCPLAN_CACHE_DIR")
+    if env:
+        return Path(env)
+    from platformdirs import user_cache_dir
+
+    return Path(user_cache_dir("gcplan", appauthor=False))
+
+
+def code_stamp() -> str:
+    """A stamp of the code that plans: gcplan's modules and the libraries' versions."""
+    global _stamp  # once per process: the code does not change under it
+    if _stamp is None:
+        from importlib.util import find_spec
+
+        h = hashlib.sha256()
+        package = Path(__file__).resolve().parent.parent
+        for p in sorted(package.rglob("*.py")):
+            st = p.stat()
+            h.update(f"{p.relative_to(package)} {st.st_size} {st.st_mtime_ns}\n".encode())
+        # The libraries' installed versions, from their dist-info folders' names (without
+        # importing them, and faster than importlib.metadata).
+        for module, dist in _LIBRARIES:
+            spec = find_spec(module)
+            where = Path(spec.origin).parent.parent if spec is not None and spec.origin else None
+            names = sorted(d.name for d in where.glob(f"{dist}-*.dist-info")) if where is not None else []
+            h.update(f"{module} {names}\n".encode())
+        _stamp = h.hexdigest()
+    return _stamp
+
+
+class FilePlanCache:
+    """The core's cache protocol (``get(key, index)``, ``put(key, index, data)``) over one
+    folder of JSON files; what it read or wrote is kept in memory too."""
+
+    def __init__(self, folder: Path):
+        self.folder = Path(folder)
+        self._memory: dict = {}
+
+    def _path(self, index: int) -> Path:
+        return self.folder / f"night-{int(index):03d}.json"
+
+    def get(self, key: str, index: int):
+        if (key, index) in self._memory:
+            return self._memory[(key, index)]
+        try:
+            data = json.loads(self._path(index).read_text(encoding="utf-8"))
+        except (OSError, ValueError):  # missing, unreadable, cut short, not JSON
+            return None
+        if not isinstance(data, dict) or data.get("format") != STORE_FORMAT or data.get("code") != code_stamp() \
+                or data.get("key") != key:
+            return None
+        self._memory[(key, index)] = data.get("entry")
+        return data.get("entry")
+
+    def put(self, key: str, index: int, data: dict) -> None:
+        self._memory[(key, index)] = data
+        text = json.dumps({"format": STORE_FORMAT, "code": code_stamp(), "key": key, "entry": data},
+                          separators=(",", ":"))
+        tmp = None
+        try:
+            self.folder.mkdir(parents=True, exist_ok=True)
+            fd, tmp = tempfile.mkstemp(prefix=".night-", suffix=".tmp", dir=self.folder)
+            with os.fdopen(fd, "w", encoding="utf-8") as f:
+                f.write(text)
+            os.replace(tmp, self._path(index))
+            tmp = None
+        except OSError:
+            pass  # no cache this time: the plan is the same without it
+        finally:
+            if tmp is not None:
+                try:
+                    os.unlink(tmp)
+                except OSError:
+                    pass
+
+
+def plan_cache_for(campaign_source: str | os.PathLike) -> FilePlanCache:
+    """The store of the campaign file ``campaign_source``."""
+    where = str(Path(campaign_source).expanduser().resolve())
+    return FilePlanCache(cache_root() / "plans" / hashlib.sha256(where.encode()).hexdigest()[:20])
