@@ -1,4 +1,4 @@
-"""Campaign nights kept for re-use (planner.scheduling.plan_cache, planner.logbook.plan_cache):
+"""Campaign nights kept for re-use (planner.scheduling.plan_cache, planner.cache.plans):
 a plan from the cache is the plan without it (same ids, same times, same JSON); anything that
 shapes a night changes the key; a damaged or foreign file is ignored and rebuilt."""
 
@@ -16,7 +16,7 @@ import pytest
 from planner.cli import main
 from planner.inputs.campaign_file import read_campaign_file
 from planner.inputs.resources import targets_dir
-from planner.logbook.plan_cache import FilePlanCache, plan_cache_for
+from planner.cache.plans import FilePlanCache, plan_cache_for
 from planner.reports.schedule_report import schedule_json
 from planner.scheduling.campaign import plan_campaign, plan_through_night
 from planner.scheduling.plan_cache import MemoryCache, NightEntry, campaign_key, decode, encode

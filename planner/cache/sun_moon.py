@@ -52,14 +52,10 @@ def versions() -> dict[str, object]:
 
 def cache_folder() -> Path | None:
     """The folder of the Sun and Moon samples, or None when the cache is switched off."""
-    if os.environ.get("GCPLAN_NO_CACHE", "").strip() not in ("", "0"):
-        return None
-    root = os.environ.get("GCPLAN_CACHE_DIR", "").strip()
-    if not root:
-        from platformdirs import user_cache_dir
+    from planner.cache.folder import cache_root
 
-        root = user_cache_dir("gcplan", appauthor=False)
-    return Path(root) / "sun-moon"
+    root = cache_root()
+    return None if root is None else root / "sun-moon"
 
 
 class SunMoonStore:

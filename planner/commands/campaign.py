@@ -24,7 +24,7 @@ def run(args) -> int:
     from pathlib import Path
 
     from planner.errors import OutputError
-    from planner.logbook.plan_cache import plan_cache_for
+    from planner.cache.plans import plan_cache_for
     from planner.reports.campaign_report import campaign_json, campaign_text
     from planner.reports.schedule_report import night_sheet
     from planner.scheduling.campaign import plan_campaign

@@ -43,7 +43,7 @@ def register(sub) -> None:
 
 def run(args) -> int:
     from planner.reports.schedule_report import night_sheet, schedule_json
-    from planner.logbook.plan_cache import plan_cache_for
+    from planner.cache.plans import plan_cache_for
     from planner.scheduling.replan import replan_night
 
     night = common.parse_night_date(args.date)

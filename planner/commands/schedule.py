@@ -80,7 +80,7 @@ def run(args) -> int:
 
 def _campaign_plan(args, night):
     """The campaign file's site and its plan of ``night`` (earlier nights' progress counts)."""
-    from planner.logbook.plan_cache import plan_cache_for
+    from planner.cache.plans import plan_cache_for
     from planner.scheduling.campaign import plan_campaign_night
 
     campaign = common.campaign_from_args(args)

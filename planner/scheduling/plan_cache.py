@@ -25,7 +25,7 @@ The cache is an explicit object passed in (the core keeps no state and reads no
 file): anything with ``get(key, index) -> dict | None`` and ``put(key, index,
 dict)``, entries being JSON-able dicts (:func:`encode`, :func:`decode`).
 :class:`MemoryCache` keeps them in a process; a file-backed store lives in a shell
-(:mod:`planner.logbook.plan_cache`).
+(:mod:`planner.cache.plans`).
 """
 
 from __future__ import annotations

@@ -54,7 +54,7 @@ class PlannerApp(App):
     def __init__(self, campaign, night: dt.date | None = None, clock: Clock = system_clock,
                  seeing_arcsec: float | None = None, tick_s: float = TICK_S, plan_cache=None) -> None:
         super().__init__()
-        from planner.logbook.plan_cache import plan_cache_for
+        from planner.cache.plans import plan_cache_for
 
         # the campaign's nights kept for re-use (on disk, beside other runs'): a night change
         # plans only that night, whatever its place in the campaign

@@ -44,7 +44,7 @@ def main(argv=None) -> int:
     from planner.commands.replan import parse_closed, parse_now
     from planner.inputs.campaign_file import read_campaign_file
     from planner.inputs.resources import targets_dir
-    from planner.logbook.plan_cache import FilePlanCache
+    from planner.cache.plans import FilePlanCache
     from planner.scheduling.replan import replan_night
 
     tmp = Path(tempfile.mkdtemp(prefix="gcplan-bench-replan-"))

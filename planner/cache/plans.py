@@ -1,8 +1,8 @@
 """The campaign nights' cache on disk (:mod:`planner.scheduling.plan_cache` is the core's side).
 
-One folder per campaign file, under the user's cache folder (platformdirs'
-``user_cache_dir("gcplan")``, or ``GCPLAN_CACHE_DIR`` when set: tests and benchmarks
-use it for a clean one), named by a hash of the file's full path; in it one JSON
+One folder per campaign file, under gcplan's cache root (:func:`planner.cache.folder.cache_root`:
+``GCPLAN_CACHE_DIR`` when set, tests and benchmarks use it for a clean one; else the user's
+cache folder; ``GCPLAN_NO_CACHE=1`` keeps the nights in memory only), named by a hash of the file's full path; in it one JSON
 file per night, ``night-NNN.json``, holding the core's entry with
 
 * the campaign key it was made under (the hash of everything that shaped the night),
@@ -35,16 +35,6 @@ _LIBRARIES = (("numpy", "numpy"), ("scipy", "scipy"), ("astropy", "astropy"), ("
 _stamp: str | None = None
 
 
-def cache_root() -> Path:
-    """Where gcplan keeps caches: ``GCPLAN_CACHE_DIR``, else the user's cache folder."""
-    env = os.environ.get("GCPLAN_CACHE_DIR")
-    if env:
-        return Path(env)
-    from platformdirs import user_cache_dir
-
-    return Path(user_cache_dir("gcplan", appauthor=False))
-
-
 def code_stamp() -> str:
     """A stamp of the code that plans: gcplan's modules and the libraries' versions."""
     global _stamp  # once per process: the code does not change under it
@@ -71,8 +61,8 @@ class FilePlanCache:
     """The core's cache protocol (``get(key, index)``, ``put(key, index, data)``) over one
     folder of JSON files; what it read or wrote is kept in memory too."""
 
-    def __init__(self, folder: Path):
-        self.folder = Path(folder)
+    def __init__(self, folder: Path | None):
+        self.folder = None if folder is None else Path(folder)  # None: in memory only
         self._memory: dict = {}
 
     def _path(self, index: int) -> Path:
@@ -81,6 +71,8 @@ class FilePlanCache:
     def get(self, key: str, index: int):
         if (key, index) in self._memory:
             return self._memory[(key, index)]
+        if self.folder is None:
+            return None
         try:
             data = json.loads(self._path(index).read_text(encoding="utf-8"))
         except (OSError, ValueError):  # missing, unreadable, cut short, not JSON
@@ -93,6 +85,8 @@ class FilePlanCache:
 
     def put(self, key: str, index: int, data: dict) -> None:
         self._memory[(key, index)] = data
+        if self.folder is None:
+            return
         text = json.dumps({"format": STORE_FORMAT, "code": code_stamp(), "key": key, "entry": data},
                           separators=(",", ":"))
         tmp = None
@@ -115,5 +109,10 @@ class FilePlanCache:
 
 def plan_cache_for(campaign_source: str | os.PathLike) -> FilePlanCache:
     """The store of the campaign file ``campaign_source``."""
+    from planner.cache.folder import cache_root
+
+    root = cache_root()
+    if root is None:
+        return FilePlanCache(None)
     where = str(Path(campaign_source).expanduser().resolve())
-    return FilePlanCache(cache_root() / "plans" / hashlib.sha256(where.encode()).hexdigest()[:20])
+    return FilePlanCache(root / "plans" / hashlib.sha256(where.encode()).hexdigest()[:20])
