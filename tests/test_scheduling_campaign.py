@@ -353,6 +353,23 @@ def test_cadence_is_spread_over_each_clusters_hours(demo_plan):
                 assert span * 60 > 1.5 * (len(mids) - 1) * c.min_spacing_min
 
 
+def test_extra_epochs_keep_the_minimum_spacing_from_the_goals_epochs(demo_plan):
+    """Spare-time cadence epochs add phase only when they are apart from every other epoch
+    of the cluster that night, the goals' included: no two variables visits of a cluster
+    closer than the campaign's minimum spacing (middle to middle)."""
+    campaign, plan = demo_plan
+    spacing_d = campaign.cadence.min_spacing_min / 1440.0
+    checked = 0
+    for p in plan.nights:
+        for name in {v.target for v in p.visits if v.purpose == "variables"}:
+            mids = np.sort([0.5 * (v.science_start_jd + v.end_jd) for v in p.visits
+                            if v.target == name and v.purpose == "variables"])
+            if len(mids) > 1:
+                assert np.diff(mids).min() >= spacing_d - 1e-6, (p.night, name, np.diff(mids).min() * 1440)
+                checked += 1
+    assert checked > 0
+
+
 def _observable_per_target(campaign, jd):
     from planner.sky.ephemeris import build_ephemeris, site_geometry
     from planner.sky.visibility import apparent_places, constraint_margin_deg, sky_grid

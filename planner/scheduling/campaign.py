@@ -488,7 +488,15 @@ def add_spare_work(campaign, night, w0, w1, eph, goal_visits, extra, covered, se
     # before their science start: whatever spare-time visit comes to precede one, its
     # real slew (set by reconcile) fits.
     pad = float(setup_s(site, _widest_slew_deg(campaign.targets), True)) / 86400.0
-    held = tuple(replace(v, start_jd=min(v.start_jd, v.science_start_jd - pad)) for v in goal_visits)
+    # A goal's cadence visit is held under its cluster's spare-time key, so the planner
+    # counts it among that key's epochs: an extra epoch keeps the campaign's minimum
+    # spacing from the goal's epochs too (two epochs minutes apart add no phase).
+    fill_keys = {q.key for q in extra}
+    held = tuple(replace(v, start_jd=min(v.start_jd, v.science_start_jd - pad),
+                         request_key=(v.request_key + FILL_SUFFIX
+                                      if v.request_key + FILL_SUFFIX in fill_keys and v.purpose == "variables"
+                                      else v.request_key))
+                 for v in goal_visits)
     more = plan_night(site, constraints, extra, night, w0, w1, eph, seeing_arcsec=seeing, fixed=held,
                       covered_bins=bins, id_offset=len(goal_visits), closed=closed, not_before_jd=not_before_jd)
     own = {v.id: v for v in goal_visits}
