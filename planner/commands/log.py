@@ -10,6 +10,7 @@ printed log, which night an entry belongs to).
 from __future__ import annotations
 
 import datetime as dt
+import sys
 from pathlib import Path
 
 from planner.commands import common
@@ -80,36 +81,74 @@ def register(sub) -> None:
 # --- shared -------------------------------------------------------------------
 
 
-def open_logbook(args):
+def open_logbook(args, write: bool = True):
+    """The logbook of ``--logbook`` (else beside ``--campaign``, else the user's).  Only a writing
+    action creates one, and says so; a reading one needs it to exist and never changes it."""
     from planner.logbook.store import Logbook, default_logbook_path
 
     if args.logbook:
-        return Logbook(args.logbook)
-    if getattr(args, "campaign", None):
-        return Logbook(default_logbook_path(args.campaign))
-    return Logbook(default_logbook_path(), create_folder=True)
+        path, folder = args.logbook, False
+    elif getattr(args, "campaign", None):
+        path, folder = default_logbook_path(args.campaign), False
+    else:
+        path, folder = default_logbook_path(), write
+    book = Logbook(path, create_folder=folder, readonly=not write)
+    if write and book.created:
+        print(f"gcplan: created a new logbook at {book.path}", file=sys.stderr)
+    return book
 
 
 def site_for(args, book, required: bool):
-    """--site if given (remembered in the logbook if it has none), else the remembered one."""
+    """--site if given (remembered in the logbook if it has none), else the remembered one.
+
+    A profile file is remembered by its absolute path and by its text, so the logbook
+    still knows its site once the file moves; a reading action remembers nothing."""
     from planner.inputs.sites import resolve_site
     from planner.logbook.store import LogbookError
 
     spec, zone = getattr(args, "site", None), getattr(args, "timezone", None)
     if spec:
         site = resolve_site(spec, zone)  # validate before remembering
-        # A profile file is remembered by its absolute path, so any folder works later.
-        book.set_meta("site", str(Path(spec).resolve()) if Path(spec).is_file() else spec, only_if_missing=True)
-        if zone:
-            book.set_meta("timezone", zone, only_if_missing=True)
+        if not book.readonly and book.get_meta("site") is None:
+            path = Path(spec)
+            book.set_meta("site", str(path.resolve()) if path.is_file() else spec, only_if_missing=True)
+            _keep_profile_text(book, path)
+            if zone:
+                book.set_meta("timezone", zone, only_if_missing=True)
         return site
     stored = book.get_meta("site")
     if stored:
-        return resolve_site(stored, book.get_meta("timezone"))
+        return _remembered_site(book, stored, book.get_meta("timezone"))
     if required:
         raise LogbookError("no site: give --site (a profile, a bundled name or LAT,LON); the logbook "
                            "remembers it for later commands", book.path)
     return None
+
+
+def _keep_profile_text(book, path: Path) -> None:
+    """The profile's text beside its path (a logbook that knew only the path learns it on a write)."""
+    if book.readonly or not path.is_file() or book.get_meta("site_profile") is not None:
+        return
+    try:
+        book.set_meta("site_profile", path.read_text(encoding="utf-8"), only_if_missing=True)
+    except (OSError, UnicodeDecodeError):
+        pass  # resolve_site read it a moment ago; the path is still remembered
+
+
+def _remembered_site(book, stored: str, zone: str | None):
+    from planner.inputs.sites import resolve_site, site_from_text
+
+    text = book.get_meta("site_profile")
+    try:
+        gone = text is not None and not Path(stored).is_file()
+    except (OSError, ValueError):
+        gone = False
+    if not gone:
+        site = resolve_site(stored, zone)
+        _keep_profile_text(book, Path(stored))
+        return site
+    common.warn_all([f"site profile {stored} is no longer there; using the copy kept in the logbook"])
+    return site_from_text(text, stored, zone)
 
 
 def parse_time(text: str | None, option: str = "--time") -> float:
@@ -243,20 +282,20 @@ def run_observer(args) -> int:
     return 0
 
 
-def _selected_entries(args, book):
-    site = site_for(args, book, required=False)
-    if not args.night:
-        return site, book.entries()
-    night = common.parse_night_date(args.night, "--night")
-    return site, book.entries(*night_bounds(site, night))
+def _selected_entries(args):
+    night = common.parse_night_date(args.night, "--night") if args.night else None
+    with open_logbook(args, write=False) as book:
+        site = site_for(args, book, required=False)
+        if night is None:
+            return book, site, book.entries()
+        return book, site, book.entries(*night_bounds(site, night))
 
 
 def run_list(args) -> int:
     from planner.reports.nightlog_json import entry_json
     from planner.sky.nights import iso_utc
 
-    with open_logbook(args) as book:
-        site, entries = _selected_entries(args, book)
+    book, site, entries = _selected_entries(args)
     if args.json:
         common.print_json({"logbook": str(book.path), "night": args.night,
                            "entries": [entry_json(e) for e in entries]})
@@ -294,8 +333,7 @@ def export_rows(entries) -> list[dict]:
 def run_export(args) -> int:
     suffix = ".csv" if args.format == "csv" else ".ecsv"
     out = common.check_output_path(args.out, (suffix,), "--out")
-    with open_logbook(args) as book:
-        _, entries = _selected_entries(args, book)
+    _, _, entries = _selected_entries(args)
     write_export(export_rows(entries), out, args.format)
     print(f"{len(entries)} entries written to {out}")
     return 0
@@ -342,7 +380,7 @@ def run_print(args) -> int:
 
     night = common.parse_night_date(args.night, "--night")
     pdf = common.check_output_path(args.pdf, (".pdf",), "--pdf") if args.pdf else None
-    with open_logbook(args) as book:
+    with open_logbook(args, write=False) as book:
         site = site_for(args, book, required=True)
         log = collect_night_log(book, site, night)
     if pdf is not None:

@@ -7,6 +7,8 @@ The night sheet, the plan's JSON and its ECSV table are written by
 
 from __future__ import annotations
 
+import sys
+
 import numpy as np
 
 from planner.commands import common
@@ -121,6 +123,8 @@ def record_plan(args, plan, night) -> None:
         for v in plan.visits for n, e in enumerate(v.exposures)
     ]
     with Logbook(path) as book:
+        if book.created:
+            print(f"gcplan: created a new logbook at {book.path}", file=sys.stderr)
         added = book.add_planned_visits(night, rows)
     if not args.json:
         kept = len(rows) - len(added)
