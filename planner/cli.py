@@ -90,7 +90,9 @@ def main(argv: list[str] | None = None) -> int:
 
     configure_runtime()
     try:
-        return int(args.run(args) or 0)
+        code = int(args.run(args) or 0)
+        sys.stdout.flush()  # a full disk under `> file` shows here, not at exit
+        return code
     except InputError as exc:
         print(f"gcplan: error: {exc}", file=sys.stderr)
         return 2
@@ -98,4 +100,23 @@ def main(argv: list[str] | None = None) -> int:
         print("gcplan: interrupted", file=sys.stderr)
         return 130
     except BrokenPipeError:  # e.g. `gcplan night ... | head`
+        _drop_stdout()
         return 0
+    except OSError as exc:
+        # Output files go through commands.common.output_file and inputs have their own
+        # messages; what is left is stdout itself (a full disk, /dev/full) or a stray fault.
+        if getattr(exc, "filename", None) is None:  # no file named: the write to stdout
+            _drop_stdout()
+            print(f"gcplan: error: cannot write the output ({exc.strerror or exc})", file=sys.stderr)
+        else:
+            print(f"gcplan: error: {exc.filename}: {exc.strerror or exc}", file=sys.stderr)
+        return 2
+
+
+def _drop_stdout() -> None:
+    import os
+
+    try:
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+    except (OSError, ValueError):  # not a real file (a test's capture)
+        pass

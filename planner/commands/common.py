@@ -9,9 +9,12 @@ parsed here, once, and the JSON of every command is written by
 from __future__ import annotations
 
 import argparse
+import contextlib
 import datetime as dt
 import json
 import math
+import os
+import secrets
 import sys
 from pathlib import Path
 from typing import Any
@@ -218,10 +221,37 @@ def print_json(obj: Any) -> None:
     sys.stdout.write("\n")
 
 
-def write_json(path: Path, obj: Any) -> Path:
+def write_json(path: Path, obj: Any, option: str = "--out") -> Path:
     """JSON written to a file, indented, with a final newline."""
-    Path(path).write_text(json_text(obj) + "\n", encoding="utf-8")
+    with output_file(path, option) as tmp:
+        tmp.write_text(json_text(obj) + "\n", encoding="utf-8")
     return Path(path)
+
+
+@contextlib.contextmanager
+def output_file(path, option: str):
+    """Every output file of every command is written through this: the writer gets a new
+    file beside ``path`` (same suffix), renamed over ``path`` once complete, so a full disk or
+    a failure part-way leaves no partial file.  Any OSError becomes one line naming ``option``.
+    A path that is a device or a pipe (``/dev/null``) is written in place."""
+    p = Path(path)
+    real = Path(os.path.realpath(p))
+    try:
+        if real.exists() and not real.is_file():
+            yield p
+            return
+    except OSError as exc:
+        raise OutputError(f"{option} {str(p)!r}: cannot write ({exc.strerror or exc})") from None
+    tmp = real.with_name(f".{real.stem}.{os.getpid()}-{secrets.token_hex(3)}.partial{real.suffix}")
+    try:
+        os.close(os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666))  # umask applies
+        yield tmp
+        os.replace(tmp, real)
+    except OSError as exc:
+        raise OutputError(f"{option} {str(p)!r}: cannot write ({exc.strerror or exc})") from None
+    finally:
+        with contextlib.suppress(OSError):
+            tmp.unlink()
 
 
 def check_output_path(path: str, suffixes: tuple[str, ...], option: str) -> Path:

@@ -73,7 +73,8 @@ def run(args) -> int:
 
 
 def _write(path: Path, text: str) -> None:
-    path.write_text(text if text.endswith("\n") else text + "\n", encoding="utf-8")
+    with common.output_file(path, "--out") as tmp:
+        tmp.write_text(text if text.endswith("\n") else text + "\n", encoding="utf-8")
 
 
 def step_night(site, targets, night, out):

@@ -153,7 +153,8 @@ def run(args) -> int:
 
         print(expose_text(plan, level, target, site, cluster_light=extra["cluster_light"]))
     if plot_path is not None:
-        write_plot(plot_path, plan, site, args)
+        with common.output_file(plot_path, "--plot") as tmp:
+            write_plot(tmp, plan, site, args)
         if not args.json:
             print(f"\nplot written to {plot_path}")
     return 0

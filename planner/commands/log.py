@@ -334,41 +334,38 @@ def run_export(args) -> int:
     suffix = ".csv" if args.format == "csv" else ".ecsv"
     out = common.check_output_path(args.out, (suffix,), "--out")
     _, _, entries = _selected_entries(args)
-    write_export(export_rows(entries), out, args.format)
+    with common.output_file(out, "--out") as tmp:
+        write_export(export_rows(entries), tmp, args.format)
     print(f"{len(entries)} entries written to {out}")
     return 0
 
 
 def write_export(rows: list[dict], path: Path, fmt: str) -> None:
-    from planner.errors import OutputError
+    """The rows as CSV or ECSV at ``path`` (the command writes through common.output_file)."""
+    if fmt == "csv":
+        import csv
 
-    try:
-        if fmt == "csv":
-            import csv
+        with open(path, "w", newline="", encoding="utf-8") as f:
+            w = csv.DictWriter(f, fieldnames=EXPORT_COLUMNS)
+            w.writeheader()
+            w.writerows({k: "" if v is None else v for k, v in r.items()} for r in rows)
+        return
+    from astropy.table import MaskedColumn, Table
 
-            with open(path, "w", newline="", encoding="utf-8") as f:
-                w = csv.DictWriter(f, fieldnames=EXPORT_COLUMNS)
-                w.writeheader()
-                w.writerows({k: "" if v is None else v for k, v in r.items()} for r in rows)
-            return
-        from astropy.table import MaskedColumn, Table
-
-        numeric = {"id": int, "time_jd": float, "exposure_s": float, "frames": int, "airmass": float,
-                   "seeing_arcsec": float, "visit_id": int}
-        table = Table()
-        for k in EXPORT_COLUMNS:
-            values = [r[k] for r in rows]
-            mask = [v is None for v in values]
-            kind = numeric.get(k, str)
-            fill = 0 if kind is int else 0.0 if kind is float else ""
-            table[k] = MaskedColumn([fill if v is None else v for v in values], mask=mask,
-                                    dtype=kind if kind is not str else str)
-        table["exposure_s"].unit = "s"
-        table["seeing_arcsec"].unit = "arcsec"
-        table.meta["comments"] = ["gcplan observing log export; times UTC (ISO 8601 and JD)"]
-        table.write(path, format="ascii.ecsv", overwrite=True)
-    except OSError as exc:
-        raise OutputError(f"--out {str(path)!r}: cannot write ({exc.strerror or exc})") from None
+    numeric = {"id": int, "time_jd": float, "exposure_s": float, "frames": int, "airmass": float,
+               "seeing_arcsec": float, "visit_id": int}
+    table = Table()
+    for k in EXPORT_COLUMNS:
+        values = [r[k] for r in rows]
+        mask = [v is None for v in values]
+        kind = numeric.get(k, str)
+        fill = 0 if kind is int else 0.0 if kind is float else ""
+        table[k] = MaskedColumn([fill if v is None else v for v in values], mask=mask,
+                                dtype=kind if kind is not str else str)
+    table["exposure_s"].unit = "s"
+    table["seeing_arcsec"].unit = "arcsec"
+    table.meta["comments"] = ["gcplan observing log export; times UTC (ISO 8601 and JD)"]
+    table.write(path, format="ascii.ecsv", overwrite=True)
 
 
 def run_print(args) -> int:
@@ -384,7 +381,8 @@ def run_print(args) -> int:
         site = site_for(args, book, required=True)
         log = collect_night_log(book, site, night)
     if pdf is not None:
-        write_night_log_pdf(log, pdf, args.paper)
+        with common.output_file(pdf, "--pdf") as tmp:
+            write_night_log_pdf(log, tmp, args.paper)
     if args.json:
         from planner.reports.nightlog_json import night_log_json
 

@@ -55,7 +55,8 @@ def run(args) -> int:
         from planner.reports.altitude_chart import save_night_chart
         from planner.sky.night_summary import night_curves
 
-        save_night_chart(run_, night_curves(run_), plot_path)
+        with common.output_file(plot_path, "--plot") as tmp:
+            save_night_chart(run_, night_curves(run_), tmp)
         if not args.json:
             print(f"\nchart written to {plot_path}")
     common.warn_all(run_.warnings)

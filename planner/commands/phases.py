@@ -54,12 +54,12 @@ def run(args) -> int:
         from planner.reports.phase_plot import phase_coverage_axes
 
         ax = phase_coverage_axes(report["ids"], report["periods"], report["phase"], report["types"], args.bins)
-        try:
-            ax.figure.savefig(plot_path, dpi=120)
-        except OSError as exc:
-            from planner.errors import OutputError
+        import io
 
-            raise OutputError(f"--plot {str(plot_path)!r} cannot be written ({exc})") from None
+        buffer = io.BytesIO()  # drawn in memory, then written (a full disk part-way upsets matplotlib's PDF)
+        ax.figure.savefig(buffer, dpi=120, format=plot_path.suffix.lstrip(".").lower())
+        with common.output_file(plot_path, "--plot") as tmp:
+            tmp.write_bytes(buffer.getvalue())
         if not args.json:
             print(f"\nphase-coverage plot written to {plot_path}")
     return 0

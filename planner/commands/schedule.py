@@ -67,13 +67,15 @@ def run(args) -> int:
     else:
         print(night_sheet(site, plan))
     if out_path is not None:
-        write_plan_ecsv(site, plan, out_path)
+        with common.output_file(out_path, "--out") as tmp:
+            write_plan_ecsv(site, plan, tmp)
     if args.record:
         record_plan(args, plan, night)
     if plot_path is not None:
         from planner.reports.schedule_plot import save_schedule_plot
 
-        save_schedule_plot(site, plan, plot_path)
+        with common.output_file(plot_path, "--plot") as tmp:
+            save_schedule_plot(site, plan, tmp)
     if not args.json and (out_path or plot_path):
         print("\n" + "\n".join(f"written: {p}" for p in (out_path, plot_path) if p))
     common.warn_all(warnings)

@@ -233,8 +233,12 @@ def _open_for_reading(p: Path) -> sqlite3.Connection:
     folder = p.resolve().parent
     if os.access(p, os.W_OK) and os.access(folder, os.W_OK):
         db = sqlite3.connect(str(p), timeout=BUSY_TIMEOUT_S, isolation_level=None)
-        db.execute("PRAGMA query_only=ON")
-        return db
+        try:
+            db.execute("PRAGMA query_only=ON")
+            db.execute("SELECT COUNT(*) FROM sqlite_master").fetchone()
+            return db
+        except sqlite3.OperationalError:  # e.g. a full disk refuses the shared-memory file
+            db.close()
     uri = p.resolve().as_uri()
     if Path(f"{p}-wal").exists():  # a writer may be at work: read through its WAL
         db = sqlite3.connect(f"{uri}?mode=ro", uri=True, timeout=BUSY_TIMEOUT_S, isolation_level=None)

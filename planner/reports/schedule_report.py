@@ -96,7 +96,6 @@ def bound_line(plan) -> str | None:
 def write_plan_ecsv(site, plan, path, option: str = "--out") -> None:
     from astropy.table import Table
 
-    from planner.errors import OutputError
     from planner.scheduling.visits import exposures_text
 
     v = plan.visits
@@ -112,10 +111,7 @@ def write_plan_ecsv(site, plan, path, option: str = "--out") -> None:
     t.meta["night"] = plan.night.isoformat()
     t.meta["site"] = site.name
     t.meta["method"] = plan.method
-    try:
-        t.write(path, format="ascii.ecsv", overwrite=True)
-    except OSError as exc:
-        raise OutputError(f"{option} {str(path)!r} cannot be written ({exc.strerror or exc})") from None
+    t.write(path, format="ascii.ecsv", overwrite=True)  # the command writes through common.output_file
 
 
 # ----------------------------------------------------------------- the night sheet
