@@ -159,6 +159,11 @@ def parse_utc_time(text: str, option: str, expected: str) -> dt.datetime:
         moment = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
     except (ValueError, AttributeError):
         raise DateError(f"{option} must be {expected} (got {text!r})") from None
+    from planner.sky.nights import FIRST_YEAR, LAST_YEAR
+
+    if not FIRST_YEAR <= moment.year <= LAST_YEAR:  # the years the Sun and Moon are known for
+        raise DateError(f"{option} must be within {FIRST_YEAR}–{LAST_YEAR}, the years astropy's built-in "
+                        f"Sun and Moon ephemeris covers (got {text!r})")
     return moment if moment.tzinfo else moment.replace(tzinfo=dt.timezone.utc)
 
 

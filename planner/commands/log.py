@@ -174,6 +174,13 @@ def run_ingest(args) -> int:
     from planner.inputs.catalog import load_catalog
     from planner.logbook.ingest import ingest_folder, watch_folder
 
+    if args.watch:  # checked before the logbook is opened (or made)
+        if not Path(args.folder).is_dir():
+            from planner.logbook.store import LogbookError
+
+            raise LogbookError(f"frame folder {args.folder!r} does not exist or is not a folder")
+        if not 0 < args.interval <= 86400:  # nan would spin, inf never scan again
+            raise DateError(f"--interval must be a number of seconds, 0 < S ≤ 86400 (got {args.interval:g})")
     with open_logbook(args) as book:
         site = site_for(args, book, required=True)
         catalog = load_catalog()
@@ -182,12 +189,6 @@ def run_ingest(args) -> int:
             # computer's clock (the demo's invented night), and their airmass is wanted.
             report = ingest_folder(book, args.folder, site, catalog)
         else:
-            if not Path(args.folder).is_dir():
-                from planner.logbook.store import LogbookError
-
-                raise LogbookError(f"frame folder {args.folder!r} does not exist or is not a folder")
-            if not 0 < args.interval <= 86400:  # nan would spin, inf never scan again
-                raise DateError(f"--interval must be a number of seconds, 0 < S ≤ 86400 (got {args.interval:g})")
             warned: dict[str, str] = {}
 
             def on_pass(r):
@@ -216,13 +217,22 @@ def run_ingest(args) -> int:
     return 0
 
 
+#: Frames in one entry: a night of the shortest frames (0.1 s, 12 h, common practice, no source)
+#: is about 432,000; far below SQLite's integer limit (2⁶³ − 1).
+MAX_FRAMES = 1_000_000
+
+
 def run_add(args) -> int:
     from planner.logbook.store import LogbookError, NewEntry, night_of_jd
 
-    if not (args.exposure >= 0):
-        raise LogbookError(f"--exposure must be ≥ 0 seconds (got {args.exposure:g})")
-    if args.frames < 1:
-        raise LogbookError(f"--frames must be ≥ 1 (got {args.frames})")
+    # One entry is one sequence of frames: no exposure, and no sequence, outlasts a day.
+    if not (0 <= args.exposure <= 86400):
+        raise LogbookError(f"--exposure must be 0..86400 seconds, at most a day (got {args.exposure:g})")
+    if not 1 <= args.frames <= MAX_FRAMES:
+        raise LogbookError(f"--frames must be 1..{MAX_FRAMES} (got {args.frames})")
+    if args.exposure * args.frames > 86400:
+        raise LogbookError(f"--frames {args.frames} × --exposure {args.exposure:g} s is more than a day "
+                           "in one sequence; log the night's sequences one by one")
     if args.seeing is not None and not (0 < args.seeing <= 30):
         raise LogbookError(f"--seeing must be a FWHM in arcsec, 0 < FWHM ≤ 30 (got {args.seeing:g})")
     if not args.target.strip():
@@ -257,24 +267,27 @@ def _manual_airmass(site, target, time_jd, total_s):
 
 
 def run_note(args) -> int:
+    when = parse_time(args.time)  # bad input is refused before a logbook is made
     with open_logbook(args) as book:
-        print(book.add_note(parse_time(args.time), args.text))
+        print(book.add_note(when, args.text))
     return 0
 
 
 def run_weather(args) -> int:
+    when = parse_time(args.time)
     with open_logbook(args) as book:
-        print(book.add_weather(parse_time(args.time), args.state, args.note))
+        print(book.add_weather(when, args.state, args.note))
     return 0
 
 
 def run_observer(args) -> int:
     from planner.logbook.store import night_of_jd
 
+    given = common.parse_night_date(args.night, "--night") if args.night else None
     with open_logbook(args) as book:
         site = site_for(args, book, required=False)
-        if args.night:
-            night = common.parse_night_date(args.night, "--night")
+        if given:
+            night = given
         else:
             night = night_of_jd(parse_time(None), site.location.timezone if site else "UTC")
         book.add_observer(night, args.name)

@@ -51,9 +51,12 @@ def run(args) -> int:
     else:
         print(report_text(variables, report))
     if plot_path is not None:
-        from planner.reports.phase_plot import phase_coverage_axes
+        from planner.reports.phase_plot import MAX_STRIPS, phase_coverage_axes
 
         ax = phase_coverage_axes(report["ids"], report["periods"], report["phase"], report["types"], args.bins)
+        if len(report["ids"]) > MAX_STRIPS:
+            common.warn_all([f"--plot draws {MAX_STRIPS} of {len(report['ids'])} stars, those with the fewest "
+                             "phase bins covered; the text and JSON give every star"])
         import io
 
         buffer = io.BytesIO()  # drawn in memory, then written (a full disk part-way upsets matplotlib's PDF)

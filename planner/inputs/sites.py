@@ -372,7 +372,7 @@ def resolve_site(spec: str, timezone: str | None = None) -> SiteProfile:
     if not text:
         raise error(SiteProfileError, f"empty site: give a profile file, a bundled profile or {_COORDS}")
     try:
-        is_file = Path(text).is_file()
+        is_file = Path(text).exists()  # a pipe or a device too: the reader says what it is
     except (OSError, ValueError):  # a name too long for the file system, a NUL
         is_file = False
     is_path = is_file or text.lower().endswith(".toml") or any(c in text for c in "/\\")

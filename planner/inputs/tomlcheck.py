@@ -190,14 +190,9 @@ def read_toml(path: str | Path, source: str, error_type: type[InputError], what:
     names the kind of file, e.g. ``"site profile"``.  A missing, unreadable or
     non-UTF-8 file, or invalid TOML, raises ``error_type``.
     """
-    try:
-        raw = Path(path).read_bytes()
-    except FileNotFoundError:
-        raise error(error_type, "no such file", source) from None
-    except IsADirectoryError:
-        raise error(error_type, f"is a folder, not a {what} (.toml) file", source) from None
-    except (OSError, ValueError) as exc:  # ValueError: a NUL in the path
-        raise error(error_type, f"cannot be read ({getattr(exc, 'strerror', None) or exc})", source) from None
+    from planner.inputs.files import read_input
+
+    raw = read_input(path, source, error_type, f"{what} (.toml)")
     try:
         text = raw.decode("utf-8").removeprefix("\ufeff")  # some editors add a byte-order mark
     except UnicodeDecodeError as exc:

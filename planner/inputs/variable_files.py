@@ -74,11 +74,12 @@ def _data_lines(text: str) -> list[int]:
 def _read_table(path: str | Path, what: str) -> _Table:
     p = Path(path)
     src = str(path)
+    from planner.inputs.files import TABLE_LIMIT_BYTES, read_input
+
+    raw = read_input(p, src, VariablesError, what, TABLE_LIMIT_BYTES)
     try:
-        text = p.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise VariablesError(f"no such {what} file", src) from None
-    except (OSError, UnicodeDecodeError) as exc:
+        text = raw.decode("utf-8").replace("\r\n", "\n").replace("\r", "\n")  # as read_text gave
+    except UnicodeDecodeError as exc:
         raise VariablesError(f"cannot read the {what} file ({exc})", src) from None
     lines = _data_lines(text)
     if text.lstrip().startswith("# %ECSV"):
