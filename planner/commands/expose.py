@@ -146,6 +146,7 @@ def run(args) -> int:
     site = common.site_from_args(args)
     plot_path = common.check_output_path(args.plot, PLOT_SUFFIXES, "--plot") if args.plot else None
     plan, level, target, extra = plan_from_args(args, site)
+    loud = check_fits_a_night(plan, site)
     if args.json:
         common.print_json({**dataclasses.asdict(plan), **extra})
     else:
@@ -157,7 +158,28 @@ def run(args) -> int:
             write_plot(tmp, plan, site, args)
         if not args.json:
             print(f"\nplot written to {plot_path}")
+    common.warn_all(loud)
     return 0
+
+
+def check_fits_a_night(plan, site) -> list[str]:
+    """A frame longer than the site's longest night cannot be taken: an error.  Frames that
+    take longer in all than that night: a warning on stderr (a stack over several nights)."""
+    from planner.sky.almanac import TWILIGHT_ALTITUDE_DEG
+    from planner.sky.sidereal import longest_night_hours
+
+    twilight = site.limits.twilight
+    night_h = longest_night_hours(site.location.latitude_deg, TWILIGHT_ALTITUDE_DEG[twilight])
+    where = (f"the longest {twilight} night at {site.name} ({site.location.latitude_deg:.1f}°), "
+             f"{night_h:.1f} h")
+    if math.isfinite(plan.frame_s) and plan.frame_s > night_h * 3600.0:
+        raise common.OptionError(f"each frame would take {plan.frame_s:.0f} s ({plan.frame_s / 3600:.1f} h), longer than "
+                          f"{where}: lower --snr, choose a brighter level, better seeing, or a larger telescope")
+    if math.isfinite(plan.elapsed_s) and plan.elapsed_s > night_h * 3600.0:
+        nights = plan.elapsed_s / (night_h * 3600.0)
+        return [f"the {plan.frames} frames take {plan.elapsed_s / 3600:.1f} h with readout, {nights:.1f} times "
+                f"{where}: a stack over several nights"]
+    return []
 
 
 def write_plot(path, plan, site, args):

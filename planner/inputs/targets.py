@@ -217,6 +217,8 @@ def targets_from_names(names: Sequence[str], catalog: Catalog) -> list[Target]:
     """
     targets = []
     for name in names:
+        if not name.strip():
+            raise TargetListError("is empty: give a cluster's name, e.g. 'NGC 104' or '47 Tuc'", source="--target")
         entry = catalog.lookup(name)
         if entry is None:
             close = catalog.suggestions(name)

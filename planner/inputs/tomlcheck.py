@@ -146,6 +146,15 @@ class Table:
             return default
         return self.check(value, key, lo, hi, lo_open, hi_open, hi_name)
 
+    def whole(self, key: str, lo=None, hi=None, default: int | None = None, required=True) -> Any:
+        """The whole number at ``key`` (a count: ``1.5`` is refused, not truncated)."""
+        value = self.get(key, required and default is None)
+        if value is None:
+            return default
+        if isinstance(value, float) and not isinstance(value, bool):
+            self.fail(f"{key} must be a whole number (got {show(value)})")
+        return int(self.check(value, key, lo, hi))
+
     def check(self, value: Any, label: str, lo=None, hi=None, lo_open=False,
               hi_open=False, hi_name="") -> float:
         """``value`` as a float within the bounds, or fail naming ``label``."""
