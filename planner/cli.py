@@ -89,9 +89,16 @@ def main(argv: list[str] | None = None) -> int:
     from planner.config import configure_runtime
 
     configure_runtime()
+    import warnings
+
     try:
-        code = int(args.run(args) or 0)
+        # Library warnings (ERFA, numpy) are said once each in gcplan's words, after the
+        # output; with an error, the error line alone is said.
+        with warnings.catch_warnings(record=True) as caught:
+            code = int(args.run(args) or 0)
         sys.stdout.flush()  # a full disk under `> file` shows here, not at exit
+        for line in library_warnings(caught):
+            print(f"gcplan: warning: {line}", file=sys.stderr)
         return code
     except InputError as exc:
         print(f"gcplan: error: {exc}", file=sys.stderr)
@@ -111,6 +118,26 @@ def main(argv: list[str] | None = None) -> int:
         else:
             print(f"gcplan: error: {exc.filename}: {exc.strerror or exc}", file=sys.stderr)
         return 2
+
+
+def library_warnings(caught) -> list[str]:
+    """One line per kind of library warning: ERFA's dates outside its series, numpy's
+    arithmetic (a division by zero, an overflow) in gcplan's words; others as they read."""
+    out: list[str] = []
+    for w in caught:
+        text = str(w.message)
+        kind = type(w.message).__name__
+        if kind == "ErfaWarning" and "date outside" in text:
+            line = ("a date outside 1900–2100, the years of ERFA's Earth and Sun series: positions "
+                    "there are extrapolated")
+        elif issubclass(w.category, RuntimeWarning):
+            line = (f"a numerical problem in the computation ({text}); values it touched are left out "
+                    "or shown as not available")
+        else:
+            line = f"{text} ({kind})"
+        if line not in out:
+            out.append(line)
+    return out
 
 
 def _drop_stdout() -> None:

@@ -118,6 +118,19 @@ def check_seeing(value, option: str = "--seeing") -> None:
         raise OptionError(f"{option} {problem}")
 
 
+#: Magnitudes a star can have here: from Sirius, the brightest star of the night sky
+#: (V = −1.46), to beyond the faintest stars any image has reached (about 31–32); both
+#: from memory, with margin.
+MAGNITUDE_RANGE = (-2.0, 35.0)
+
+
+def check_magnitude(value, option: str) -> None:
+    lo, hi = MAGNITUDE_RANGE
+    if value is not None and not lo <= value <= hi:
+        raise OptionError(f"{option} must be between {lo:g} and {hi:g}: from brighter than Sirius (−1.5) to "
+                          f"fainter than any image has reached (about 32) (got {value:g})")
+
+
 def campaign_from_args(args):
     from planner.inputs.campaign_file import read_campaign_file
 
@@ -150,6 +163,17 @@ def parse_night_date(text: str, option: str = "--date") -> dt.date:
     if problem:
         raise DateError(f"{option}: {problem}")
     return night
+
+
+def check_night_exists(night: dt.date, site, option: str = "--date") -> None:
+    """A night named by a local date the site's calendar skipped is an error, not an empty night."""
+    from planner.sky.nights import date_skipped
+
+    zone = site.location.timezone
+    if date_skipped(night, zone):
+        before, after = night - dt.timedelta(days=1), night + dt.timedelta(days=1)
+        raise DateError(f"{option} {night} does not exist in {zone}: the local clocks skipped that date; "
+                        f"the night of {before} runs into the morning of {after}")
 
 
 def parse_utc_time(text: str, option: str, expected: str) -> dt.datetime:

@@ -60,6 +60,7 @@ def _level_from_args(args, band):
     from planner.light.photometry import science_level, user_level
 
     if args.mag is not None:
+        common.check_magnitude(args.mag, "--mag")
         if args.level is not None:
             raise LevelError("give either --mag or --level, not both")
         return user_level(args.mag, band, args.target), None

@@ -392,6 +392,7 @@ def run_print(args) -> int:
     pdf = common.check_output_path(args.pdf, (".pdf",), "--pdf") if args.pdf else None
     with open_logbook(args, write=False) as book:
         site = site_for(args, book, required=True)
+        common.check_night_exists(night, site, "--night")
         log = collect_night_log(book, site, night)
     if pdf is not None:
         with common.output_file(pdf, "--pdf") as tmp:

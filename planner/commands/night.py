@@ -29,6 +29,7 @@ def run(args) -> int:
 
     night = common.parse_night_date(args.date)
     site = common.site_from_args(args)
+    common.check_night_exists(night, site)
     targets = common.targets_from_args(args)
     constraints = common.constraints_from_args(site, args)
     plot_path = common.check_output_path(args.plot, (".png", ".pdf"), "--plot") if args.plot else None

@@ -82,6 +82,7 @@ def check_options(args) -> None:
         raise VariablesOptionError(f"--stars must be between 1 and 100000 (got {args.stars})")
     if not args.exposure > 0:
         raise VariablesOptionError(f"--exposure must be a positive number of seconds (got {args.exposure:g})")
+    common.check_magnitude(args.mean_mag, "--mean-mag")
     if args.noise_mag is not None and not 0 < args.noise_mag < 5:
         raise VariablesOptionError(f"--noise-mag must be between 0 and 5 mag (got {args.noise_mag:g})")
     if not 0 <= args.noise_floor < 5:

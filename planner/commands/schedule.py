@@ -61,6 +61,7 @@ def run(args) -> int:
             raise OptionError("give --campaign FILE, or --site, --targets (or --target) and --visit "
                               "for an ad-hoc plan")
         site, plan = _ad_hoc_plan(args, night)
+    common.check_night_exists(night, site)
     warnings += list(plan.warnings)
     if args.json:
         common.print_json(schedule_json(site, plan))
