@@ -103,8 +103,9 @@ def _cluster_light(args, target, band):
     return mu, extra
 
 
-def plan_from_args(args, site):
-    """The exposure plan (and extra JSON fields) for parsed ``args`` at ``site``."""
+def plan_from_args(args, site, max_frame_s: float | None = None):
+    """The exposure plan (and extra JSON fields) for parsed ``args`` at ``site``; frames no
+    longer than ``max_frame_s`` if given."""
     from planner.light.exposure import band_setup, exposure_for_level, saturation_time_s
     from planner.light.photometry import science_level
 
@@ -117,7 +118,8 @@ def plan_from_args(args, site):
     conditions = dict(airmass=args.airmass, seeing_fwhm_arcsec=args.seeing, moon_illumination=args.moon_illumination,
                       moon_separation_deg=args.moon_separation, moon_altitude_deg=args.moon_altitude,
                       cluster_sb_mag_arcsec2=cluster_sb)
-    plan = exposure_for_level(site, args.filter, level, args.snr, shortest_period_d=period, **conditions)
+    plan = exposure_for_level(site, args.filter, level, args.snr, shortest_period_d=period,
+                              max_frame_s=max_frame_s, **conditions)
     notes = tuple(cluster_extra.pop("cluster_light_notes"))  # they join the warnings
     if notes:
         plan = dataclasses.replace(plan, warnings=plan.warnings + notes)
@@ -147,7 +149,19 @@ def run(args) -> int:
     site = common.site_from_args(args)
     plot_path = common.check_output_path(args.plot, PLOT_SUFFIXES, "--plot") if args.plot else None
     plan, level, target, extra = plan_from_args(args, site)
-    loud = check_fits_a_night(plan, site)
+    night_s, where = longest_night(site)
+    if math.isfinite(plan.frame_s) and plan.frame_s > night_s:  # no frame outlasts the night
+        plan, level, target, extra = plan_from_args(args, site, max_frame_s=night_s)
+        plan = dataclasses.replace(plan, warnings=tuple(
+            w.replace("(the longest frame asked for)", f"({where})") for w in plan.warnings))
+    if plan.elapsed_s > 365 * night_s:  # more nights than a year has: not a plan
+        raise common.OptionError(
+            f"S/N {plan.snr_goal:g} on {plan.filter} = {plan.magnitude:.2f} would take {plan.elapsed_s / 3600:.0f} h, "
+            f"{plan.elapsed_s / night_s:,.0f} times {where} (more than a year of nights): out of reach here; "
+            "lower --snr, choose a brighter level, or a larger telescope")
+    loud = [] if not plan.elapsed_s > night_s else [
+        f"the {plan.frames} frames take {plan.elapsed_s / 3600:.1f} h with readout, "
+        f"{plan.elapsed_s / night_s:.1f} times {where}: a stack over several nights"]
     if args.json:
         common.print_json({**dataclasses.asdict(plan), **extra})
     else:
@@ -163,24 +177,15 @@ def run(args) -> int:
     return 0
 
 
-def check_fits_a_night(plan, site) -> list[str]:
-    """A frame longer than the site's longest night cannot be taken: an error.  Frames that
-    take longer in all than that night: a warning on stderr (a stack over several nights)."""
+def longest_night(site) -> tuple[float, str]:
+    """Seconds of the site's longest night (its profile's twilight), and how to name it."""
     from planner.sky.almanac import TWILIGHT_ALTITUDE_DEG
     from planner.sky.sidereal import longest_night_hours
 
     twilight = site.limits.twilight
-    night_h = longest_night_hours(site.location.latitude_deg, TWILIGHT_ALTITUDE_DEG[twilight])
-    where = (f"the longest {twilight} night at {site.name} ({site.location.latitude_deg:.1f}°), "
-             f"{night_h:.1f} h")
-    if math.isfinite(plan.frame_s) and plan.frame_s > night_h * 3600.0:
-        raise common.OptionError(f"each frame would take {plan.frame_s:.0f} s ({plan.frame_s / 3600:.1f} h), longer than "
-                          f"{where}: lower --snr, choose a brighter level, better seeing, or a larger telescope")
-    if math.isfinite(plan.elapsed_s) and plan.elapsed_s > night_h * 3600.0:
-        nights = plan.elapsed_s / (night_h * 3600.0)
-        return [f"the {plan.frames} frames take {plan.elapsed_s / 3600:.1f} h with readout, {nights:.1f} times "
-                f"{where}: a stack over several nights"]
-    return []
+    hours = longest_night_hours(site.location.latitude_deg, TWILIGHT_ALTITUDE_DEG[twilight])
+    return hours * 3600.0, (f"the longest {twilight} night at {site.name} "
+                            f"({site.location.latitude_deg:.1f}°), {hours:.1f} h")
 
 
 def write_plot(path, plan, site, args):
