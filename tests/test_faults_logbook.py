@@ -194,3 +194,16 @@ def test_an_old_logbook_learns_its_profile_text_on_the_next_write(tmp_path):
     assert gcplan("log", "observer", "Ada", "--night", "2027-05-12", "--logbook", book).returncode == 0
     with Logbook(book, readonly=True) as b:
         assert b.get_meta("site_profile") == profile.read_text()
+
+
+def test_replan_reads_the_logbook_and_refuses_another_programs(tmp_path):
+    from planner.inputs.resources import targets_dir
+
+    other = tmp_path / "other.db"
+    _foreign(other)
+    before = digest(other)
+    camp = targets_dir() / "demo" / "campaign.toml"
+    r = gcplan("replan", "--campaign", camp, "--date", "2027-01-05", "--now", "2027-01-06T03:00Z",
+               "--logbook", other, timeout=180)
+    one_line_error(r, "not a gcplan logbook")
+    assert digest(other) == before
