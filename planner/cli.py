@@ -90,8 +90,17 @@ def main(argv: list[str] | None = None) -> int:
     from planner.config import configure_runtime
 
     configure_runtime()
+    import warnings
+
     try:
-        return int(args.run(args) or 0)
+        # Library warnings (ERFA, numpy) are said once each in gcplan's words, after the
+        # output; with an error, the error line alone is said.
+        with warnings.catch_warnings(record=True) as caught:
+            code = int(args.run(args) or 0)
+        sys.stdout.flush()  # a full disk under `> file` shows here, not at exit
+        for line in library_warnings(caught):
+            print(f"gcplan: warning: {line}", file=sys.stderr)
+        return code
     except InputError as exc:
         print(f"gcplan: error: {exc}", file=sys.stderr)
         return 2
@@ -99,4 +108,43 @@ def main(argv: list[str] | None = None) -> int:
         print("gcplan: interrupted", file=sys.stderr)
         return 130
     except BrokenPipeError:  # e.g. `gcplan night ... | head`
+        _drop_stdout()
         return 0
+    except OSError as exc:
+        # Output files go through commands.common.output_file and inputs have their own
+        # messages; what is left is stdout itself (a full disk, /dev/full) or a stray fault.
+        if getattr(exc, "filename", None) is None:  # no file named: the write to stdout
+            _drop_stdout()
+            print(f"gcplan: error: cannot write the output ({exc.strerror or exc})", file=sys.stderr)
+        else:
+            print(f"gcplan: error: {exc.filename}: {exc.strerror or exc}", file=sys.stderr)
+        return 2
+
+
+def library_warnings(caught) -> list[str]:
+    """One line per kind of library warning: ERFA's dates outside its series, numpy's
+    arithmetic (a division by zero, an overflow) in gcplan's words; others as they read."""
+    out: list[str] = []
+    for w in caught:
+        text = str(w.message)
+        kind = type(w.message).__name__
+        if kind == "ErfaWarning" and "date outside" in text:
+            line = ("a date outside 1900–2100, the years of ERFA's Earth and Sun series: positions "
+                    "there are extrapolated")
+        elif issubclass(w.category, RuntimeWarning):
+            line = (f"a numerical problem in the computation ({text}); values it touched are left out "
+                    "or shown as not available")
+        else:
+            line = f"{text} ({kind})"
+        if line not in out:
+            out.append(line)
+    return out
+
+
+def _drop_stdout() -> None:
+    import os
+
+    try:
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+    except (OSError, ValueError):  # not a real file (a test's capture)
+        pass

@@ -10,10 +10,7 @@ with astropy.io.fits (the reference writer of the format).
 
 from __future__ import annotations
 
-import hashlib
 import os
-import subprocess
-import sys
 import time
 from pathlib import Path
 
@@ -26,6 +23,8 @@ from planner.logbook.ingest import ingest_folder
 from planner.logbook.store import Logbook
 from planner.reports.demo_night import write_invented_frame
 
+from helpers.faults import gcplan
+
 GOOD = {"DATE-OBS": "2027-05-13T03:10:00.5", "EXPTIME": 120.0, "OBJECT": "NGC 362", "FILTER": "V",
         "RA": "01:03:14.26", "DEC": "-70:50:55.6"}
 #: The ingest's "now" in these tests: a day after the good frame.
@@ -36,30 +35,6 @@ NOW_JD = 2461538.5 + 1.0
 def site():
     configure_runtime()
     return resolve_site("demo")
-
-
-def gcplan(*args, timeout=60.0, env=None, stdin=subprocess.DEVNULL, stdout=subprocess.PIPE, preexec=None):
-    """Run the command line in a fresh process; a hang past ``timeout`` fails the test."""
-    try:
-        return subprocess.run([sys.executable, "-m", "planner", *map(str, args)], stdin=stdin, stdout=stdout,
-                              stderr=subprocess.PIPE, text=True, timeout=timeout, env=env,
-                              preexec_fn=preexec)
-    except subprocess.TimeoutExpired:
-        pytest.fail(f"gcplan {' '.join(map(str, args))} still running after {timeout:g} s")
-
-
-def one_line_error(result, *words):
-    """Exit 2 with exactly one line on stderr, ``gcplan: error: …``, holding ``words``."""
-    lines = result.stderr.strip().splitlines()
-    assert result.returncode == 2, (result.returncode, result.stderr[-2000:])
-    assert len(lines) == 1 and lines[0].startswith("gcplan: error: "), result.stderr[-2000:]
-    for w in words:
-        assert w in lines[0], (w, lines[0])
-    return lines[0]
-
-
-def digest(path) -> str:
-    return hashlib.sha256(Path(path).read_bytes()).hexdigest()
 
 
 # --- hostile frames ---------------------------------------------------------------

@@ -282,7 +282,7 @@ def test_file_problems(tmp_path):
         assert str(info.value) == f"{path}: {message}" or str(info.value).startswith(f"{path}: {message}")
     folder = tmp_path / "folder.csv"
     folder.mkdir()
-    with pytest.raises(TargetListError, match="is a directory"):
+    with pytest.raises(TargetListError, match="is a folder"):
         read_target_list(folder)
     latin = tmp_path / "latin.csv"
     latin.write_bytes("name,ra,dec\nCaf\xe9,1,2\n".encode("latin-1"))

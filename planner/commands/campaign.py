@@ -47,11 +47,15 @@ def run(args) -> int:
     if out is not None:
         from planner.reports.schedule_plot import save_schedule_plot
 
-        out.mkdir(exist_ok=True)
+        try:
+            out.mkdir(exist_ok=True)
+        except OSError as exc:
+            raise OutputError(f"--out {args.out!r}: cannot make the folder ({exc.strerror or exc})") from None
         for p in plan.nights:
-            (out / f"schedule_{p.night.isoformat()}.txt").write_text(night_sheet(campaign.site, p) + "\n",
-                                                                        encoding="utf-8")
-            save_schedule_plot(campaign.site, p, out / f"schedule_{p.night.isoformat()}.png")
+            with common.output_file(out / f"schedule_{p.night.isoformat()}.txt", "--out") as tmp:
+                tmp.write_text(night_sheet(campaign.site, p) + "\n", encoding="utf-8")
+            with common.output_file(out / f"schedule_{p.night.isoformat()}.png", "--out") as tmp:
+                save_schedule_plot(campaign.site, p, tmp)
         common.write_json(out / "campaign.json", data)
         if not args.json:
             print(f"\nwritten to {out}/: a night sheet and a plot per night, campaign.json")

@@ -9,10 +9,13 @@ parsed here, once, and the JSON of every command is written by
 from __future__ import annotations
 
 import argparse
+import contextlib
 import datetime as dt
 import json
 import math
+import os
 import re
+import secrets
 import sys
 from pathlib import Path
 from typing import Any
@@ -114,6 +117,19 @@ def check_seeing(value, option: str = "--seeing") -> None:
         raise OptionError(f"{option} {problem}")
 
 
+#: Magnitudes a star can have here: from Sirius, the brightest star of the night sky
+#: (V = −1.46), to beyond the faintest stars any image has reached (about 31–32); both
+#: from memory, with margin.
+MAGNITUDE_RANGE = (-2.0, 35.0)
+
+
+def check_magnitude(value, option: str) -> None:
+    lo, hi = MAGNITUDE_RANGE
+    if value is not None and not lo <= value <= hi:
+        raise OptionError(f"{option} must be between {lo:g} and {hi:g}: from brighter than Sirius (−1.5) to "
+                          f"fainter than any image has reached (about 32) (got {value:g})")
+
+
 def campaign_from_args(args):
     from planner.inputs.campaign_file import read_campaign_file
 
@@ -148,6 +164,17 @@ def parse_night_date(text: str, option: str = "--date") -> dt.date:
     return night
 
 
+def check_night_exists(night: dt.date, site, option: str = "--date") -> None:
+    """A night named by a local date the site's calendar skipped is an error, not an empty night."""
+    from planner.sky.nights import date_skipped
+
+    zone = site.location.timezone
+    if date_skipped(night, zone):
+        before, after = night - dt.timedelta(days=1), night + dt.timedelta(days=1)
+        raise DateError(f"{option} {night} does not exist in {zone}: the local clocks skipped that date; "
+                        f"the night of {before} runs into the morning of {after}")
+
+
 def parse_utc_time(text: str, option: str, expected: str) -> dt.datetime:
     """An ISO 8601 time (``Z`` or an offset allowed; UTC without one), aware.
     ``expected`` says, in the error, what the option takes."""
@@ -155,6 +182,11 @@ def parse_utc_time(text: str, option: str, expected: str) -> dt.datetime:
         moment = dt.datetime.fromisoformat(text.strip().replace("Z", "+00:00"))
     except (ValueError, AttributeError):
         raise DateError(f"{option} must be {expected} (got {text!r})") from None
+    from planner.sky.nights import FIRST_YEAR, LAST_YEAR
+
+    if not FIRST_YEAR <= moment.year <= LAST_YEAR:  # the years the Sun and Moon are known for
+        raise DateError(f"{option} must be within {FIRST_YEAR}–{LAST_YEAR}, the years astropy's built-in "
+                        f"Sun and Moon ephemeris covers (got {text!r})")
     return moment if moment.tzinfo else moment.replace(tzinfo=dt.timezone.utc)
 
 
@@ -293,10 +325,37 @@ def print_json_pieces(pieces, whole) -> None:
     write("\n")
 
 
-def write_json(path: Path, obj: Any) -> Path:
+def write_json(path: Path, obj: Any, option: str = "--out") -> Path:
     """JSON written to a file, indented, with a final newline."""
-    Path(path).write_text(json_text(obj) + "\n", encoding="utf-8")
+    with output_file(path, option) as tmp:
+        tmp.write_text(json_text(obj) + "\n", encoding="utf-8")
     return Path(path)
+
+
+@contextlib.contextmanager
+def output_file(path, option: str):
+    """Every output file of every command is written through this: the writer gets a new
+    file beside ``path`` (same suffix), renamed over ``path`` once complete, so a full disk or
+    a failure part-way leaves no partial file.  Any OSError becomes one line naming ``option``.
+    A path that is a device or a pipe (``/dev/null``) is written in place."""
+    p = Path(path)
+    real = Path(os.path.realpath(p))
+    try:
+        if real.exists() and not real.is_file():
+            yield p
+            return
+    except OSError as exc:
+        raise OutputError(f"{option} {str(p)!r}: cannot write ({exc.strerror or exc})") from None
+    tmp = real.with_name(f".{real.stem}.{os.getpid()}-{secrets.token_hex(3)}.partial{real.suffix}")
+    try:
+        os.close(os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666))  # umask applies
+        yield tmp
+        os.replace(tmp, real)
+    except OSError as exc:
+        raise OutputError(f"{option} {str(p)!r}: cannot write ({exc.strerror or exc})") from None
+    finally:
+        with contextlib.suppress(OSError):
+            tmp.unlink()
 
 
 def check_output_path(path: str, suffixes: tuple[str, ...], option: str) -> Path:

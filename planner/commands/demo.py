@@ -73,7 +73,8 @@ def run(args) -> int:
 
 
 def _write(path: Path, text: str) -> None:
-    path.write_text(text if text.endswith("\n") else text + "\n", encoding="utf-8")
+    with common.output_file(path, "--out") as tmp:
+        tmp.write_text(text if text.endswith("\n") else text + "\n", encoding="utf-8")
 
 
 def step_night(site, targets, night, out):
@@ -86,7 +87,8 @@ def step_night(site, targets, night, out):
     run_ = run_of_nights(site, targets, [night], constraints_for_site(site))
     _write(out / "night.txt", night_text(run_))
     common.write_json(out / "night.json", night_json(run_))
-    save_night_chart(run_, night_curves(run_), out / "night.png")
+    with common.output_file(out / "night.png", "--out") as tmp:
+        save_night_chart(run_, night_curves(run_), tmp)
     return [
         ("night.txt", f"the night of {night}: almanac and each cluster's window"),
         ("night.json", "the same, as gcplan night --json"),
@@ -108,7 +110,8 @@ def step_semester(site, targets, night, out):
     run_ = run_of_nights(site, targets, nights, constraints)
     _write(out / "semester.txt", observability_text(run_, seasons(run_)))
     common.write_json(out / "semester.json", observability_json(run_, seasons(run_)))
-    save_observability_chart(run_, out / "semester.png")
+    with common.output_file(out / "semester.png", "--out") as tmp:
+        save_observability_chart(run_, tmp)
     # The whole bundled catalog as well: which other clusters the site could take.
     everything = run_of_nights(site, catalog_targets(load_catalog()), nights, constraints)
     _write(out / "semester_catalog.txt", observability_text(everything, seasons(everything)))
@@ -163,7 +166,8 @@ def step_exposures(site, targets, night, out):
     _write(out / "exposures.txt", "\n".join(lines))
     table = exposure_rows_table(rows)
     table.meta["note"] = "gcplan demo: invented campaign goals at a fictional site; see planner/light/exposure.py"
-    table.write(out / "exposures.ecsv", format="ascii.ecsv", overwrite=True)
+    with common.output_file(out / "exposures.ecsv", "--out") as tmp:
+        table.write(tmp, format="ascii.ecsv", overwrite=True)
     return [
         ("exposures.txt", "frames for the RGB tip, HB and turnoff of each cluster in V and I"),
         ("exposures.ecsv", "the same as a table"),
@@ -218,7 +222,8 @@ def step_phases(site, targets, night, out):
     _write(out / "phases.txt", report_text(variables, report))
     common.write_json(out / "phases.json", report_json(variables, report))
     ax = phase_coverage_axes(report["ids"], report["periods"], report["phase"], report["types"], 20)
-    ax.figure.savefig(out / "phases.png", dpi=120)
+    with common.output_file(out / "phases.png", "--out") as tmp:
+        ax.figure.savefig(tmp, dpi=120)
     return [
         ("phases.txt", f"phase coverage of the invented RR Lyrae: {DEMO_VISITS_PER_NIGHT} visits a night, "
          f"{DEMO_VARIABLE_NIGHTS} nights"),
@@ -272,7 +277,10 @@ def write_demo_schedule(out_dir, site=None):
         written.append(p)
     written.append(common.write_json(out / "campaign.json", campaign_json(plan)))
     first = plan.nights[0]
-    written.append(save_schedule_plot(campaign.site, first, out / f"schedule_{first.night.isoformat()}.png"))
+    chart = out / f"schedule_{first.night.isoformat()}.png"
+    with common.output_file(chart, "--out") as tmp:
+        save_schedule_plot(campaign.site, first, tmp)
+    written.append(chart)
     return written
 
 

@@ -67,6 +67,7 @@ def _level_from_args(args, band, catalog=None):
     from planner.light.photometry import science_level, user_level
 
     if args.mag is not None:
+        common.check_magnitude(args.mag, "--mag")
         if args.level is not None:
             raise LevelError("give either --mag or --level, not both")
         return user_level(args.mag, band, args.target), None
@@ -159,14 +160,15 @@ def _finish(plan, setup, level, period, cluster_extra, tip_mag, t_sat):
     return plan, extra
 
 
-def plan_from_args(args, site):
-    """The exposure plan (and extra JSON fields) for parsed ``args`` at ``site``.
+def plan_from_args(args, site, max_frame_s: float | None = None):
+    """The exposure plan (and extra JSON fields) for parsed ``args`` at ``site``; frames no
+    longer than ``max_frame_s`` if given.
 
     The same road as one row of ``--batch`` (the core's vectorised form with one
     element), so a row of a batch and the question asked alone give the same
     numbers to the last bit."""
     inputs = _row_inputs(args, site)
-    (plan, extra), = _filter_records(site, args.filter, [(args, *inputs)])
+    (plan, extra), = _filter_records(site, args.filter, [(args, *inputs)], max_frame_s)
     return plan, inputs[1], inputs[2], extra
 
 
@@ -181,6 +183,19 @@ def run(args) -> int:
     site = common.site_from_args(args)
     plot_path = common.check_output_path(args.plot, PLOT_SUFFIXES, "--plot") if args.plot else None
     plan, level, target, extra = plan_from_args(args, site)
+    night_s, where = longest_night(site)
+    if math.isfinite(plan.frame_s) and plan.frame_s > night_s:  # no frame outlasts the night
+        plan, level, target, extra = plan_from_args(args, site, max_frame_s=night_s)
+        plan = dataclasses.replace(plan, warnings=tuple(
+            w.replace("(the longest frame asked for)", f"({where})") for w in plan.warnings))
+    if plan.elapsed_s > 365 * night_s:  # more nights than a year has: not a plan
+        raise common.OptionError(
+            f"S/N {plan.snr_goal:g} on {plan.filter} = {plan.magnitude:.2f} would take {plan.elapsed_s / 3600:.0f} h, "
+            f"{plan.elapsed_s / night_s:,.0f} times {where} (more than a year of nights): out of reach here; "
+            "lower --snr, choose a brighter level, or a larger telescope")
+    loud = [] if not plan.elapsed_s > night_s else [
+        f"the {plan.frames} frames take {plan.elapsed_s / 3600:.1f} h with readout, "
+        f"{plan.elapsed_s / night_s:.1f} times {where}: a stack over several nights"]
     if args.json:
         common.print_json({**dataclasses.asdict(plan), **extra})
     else:
@@ -188,10 +203,23 @@ def run(args) -> int:
 
         print(expose_text(plan, level, target, site, cluster_light=extra["cluster_light"]))
     if plot_path is not None:
-        write_plot(plot_path, plan, site, args)
+        with common.output_file(plot_path, "--plot") as tmp:
+            write_plot(tmp, plan, site, args)
         if not args.json:
             print(f"\nplot written to {plot_path}")
+    common.warn_all(loud)
     return 0
+
+
+def longest_night(site) -> tuple[float, str]:
+    """Seconds of the site's longest night (its profile's twilight), and how to name it."""
+    from planner.sky.almanac import TWILIGHT_ALTITUDE_DEG
+    from planner.sky.sidereal import longest_night_hours
+
+    twilight = site.limits.twilight
+    hours = longest_night_hours(site.location.latitude_deg, TWILIGHT_ALTITUDE_DEG[twilight])
+    return hours * 3600.0, (f"the longest {twilight} night at {site.name} "
+                            f"({site.location.latitude_deg:.1f}°), {hours:.1f} h")
 
 
 def write_plot(path, plan, site, args):
@@ -296,7 +324,7 @@ def _checked_row_inputs(q, site, catalog):
     return setup, level, target, period, cluster_extra, conditions
 
 
-def _filter_records(site, filter_name, prepared):
+def _filter_records(site, filter_name, prepared, max_frame_s=None):
     """(plan, extra JSON fields) of each question of one filter: the plans and the tip's
     saturation each computed once over all of them (the core's SnrGoalError names the
     question by its ``index``)."""
@@ -308,7 +336,7 @@ def _filter_records(site, filter_name, prepared):
     setups, levels, targets, periods, extras, conds = (list(col) for col in zip(*(p[1:] for p in prepared)))
     columns = {key: [c[key] for c in conds] for key in conds[0]}
     plans = exposure_plans_for_levels(site, filter_name, levels, [q.snr for q in questions],
-                                      shortest_period_d=periods, **columns)
+                                      shortest_period_d=periods, max_frame_s=max_frame_s, **columns)
     tips = [_tip_magnitude(t, lv, s.band) for t, lv, s in zip(targets, levels, setups)]
     with_tip = [i for i, m in enumerate(tips) if m is not None]
     t_sat = [None] * len(plans)

@@ -10,6 +10,7 @@ printed log, which night an entry belongs to).
 from __future__ import annotations
 
 import datetime as dt
+import sys
 from pathlib import Path
 
 from planner.commands import common
@@ -80,36 +81,74 @@ def register(sub) -> None:
 # --- shared -------------------------------------------------------------------
 
 
-def open_logbook(args):
+def open_logbook(args, write: bool = True):
+    """The logbook of ``--logbook`` (else beside ``--campaign``, else the user's).  Only a writing
+    action creates one, and says so; a reading one needs it to exist and never changes it."""
     from planner.logbook.store import Logbook, default_logbook_path
 
     if args.logbook:
-        return Logbook(args.logbook)
-    if getattr(args, "campaign", None):
-        return Logbook(default_logbook_path(args.campaign))
-    return Logbook(default_logbook_path(), create_folder=True)
+        path, folder = args.logbook, False
+    elif getattr(args, "campaign", None):
+        path, folder = default_logbook_path(args.campaign), False
+    else:
+        path, folder = default_logbook_path(), write
+    book = Logbook(path, create_folder=folder, readonly=not write)
+    if write and book.created:
+        print(f"gcplan: created a new logbook at {book.path}", file=sys.stderr)
+    return book
 
 
 def site_for(args, book, required: bool):
-    """--site if given (remembered in the logbook if it has none), else the remembered one."""
+    """--site if given (remembered in the logbook if it has none), else the remembered one.
+
+    A profile file is remembered by its absolute path and by its text, so the logbook
+    still knows its site once the file moves; a reading action remembers nothing."""
     from planner.inputs.sites import resolve_site
     from planner.logbook.store import LogbookError
 
     spec, zone = getattr(args, "site", None), getattr(args, "timezone", None)
     if spec:
         site = resolve_site(spec, zone)  # validate before remembering
-        # A profile file is remembered by its absolute path, so any folder works later.
-        book.set_meta("site", str(Path(spec).resolve()) if Path(spec).is_file() else spec, only_if_missing=True)
-        if zone:
-            book.set_meta("timezone", zone, only_if_missing=True)
+        if not book.readonly and book.get_meta("site") is None:
+            path = Path(spec)
+            book.set_meta("site", str(path.resolve()) if path.is_file() else spec, only_if_missing=True)
+            _keep_profile_text(book, path)
+            if zone:
+                book.set_meta("timezone", zone, only_if_missing=True)
         return site
     stored = book.get_meta("site")
     if stored:
-        return resolve_site(stored, book.get_meta("timezone"))
+        return _remembered_site(book, stored, book.get_meta("timezone"))
     if required:
         raise LogbookError("no site: give --site (a profile, a bundled name or LAT,LON); the logbook "
                            "remembers it for later commands", book.path)
     return None
+
+
+def _keep_profile_text(book, path: Path) -> None:
+    """The profile's text beside its path (a logbook that knew only the path learns it on a write)."""
+    if book.readonly or not path.is_file() or book.get_meta("site_profile") is not None:
+        return
+    try:
+        book.set_meta("site_profile", path.read_text(encoding="utf-8"), only_if_missing=True)
+    except (OSError, UnicodeDecodeError):
+        pass  # resolve_site read it a moment ago; the path is still remembered
+
+
+def _remembered_site(book, stored: str, zone: str | None):
+    from planner.inputs.sites import resolve_site, site_from_text
+
+    text = book.get_meta("site_profile")
+    try:
+        gone = text is not None and not Path(stored).is_file()
+    except (OSError, ValueError):
+        gone = False
+    if not gone:
+        site = resolve_site(stored, zone)
+        _keep_profile_text(book, Path(stored))
+        return site
+    common.warn_all([f"site profile {stored} is no longer there; using the copy kept in the logbook"])
+    return site_from_text(text, stored, zone)
 
 
 def parse_time(text: str | None, option: str = "--time") -> float:
@@ -135,6 +174,13 @@ def run_ingest(args) -> int:
     from planner.inputs.catalog import load_catalog
     from planner.logbook.ingest import ingest_folder, watch_folder
 
+    if args.watch:  # checked before the logbook is opened (or made)
+        if not Path(args.folder).is_dir():
+            from planner.logbook.store import LogbookError
+
+            raise LogbookError(f"frame folder {args.folder!r} does not exist or is not a folder")
+        if not 0 < args.interval <= 86400:  # nan would spin, inf never scan again
+            raise DateError(f"--interval must be a number of seconds, 0 < S ≤ 86400 (got {args.interval:g})")
     with open_logbook(args) as book:
         site = site_for(args, book, required=True)
         catalog = load_catalog()
@@ -143,12 +189,6 @@ def run_ingest(args) -> int:
             # computer's clock (the demo's invented night), and their airmass is wanted.
             report = ingest_folder(book, args.folder, site, catalog)
         else:
-            if not Path(args.folder).is_dir():
-                from planner.logbook.store import LogbookError
-
-                raise LogbookError(f"frame folder {args.folder!r} does not exist or is not a folder")
-            if not 0 < args.interval <= 86400:  # nan would spin, inf never scan again
-                raise DateError(f"--interval must be a number of seconds, 0 < S ≤ 86400 (got {args.interval:g})")
             warned: dict[str, str] = {}
 
             def on_pass(r):
@@ -177,13 +217,22 @@ def run_ingest(args) -> int:
     return 0
 
 
+#: Frames in one entry: a night of the shortest frames (0.1 s, 12 h, common practice, no source)
+#: is about 432,000; far below SQLite's integer limit (2⁶³ − 1).
+MAX_FRAMES = 1_000_000
+
+
 def run_add(args) -> int:
     from planner.logbook.store import LogbookError, NewEntry, night_of_jd
 
-    if not (args.exposure >= 0):
-        raise LogbookError(f"--exposure must be ≥ 0 seconds (got {args.exposure:g})")
-    if args.frames < 1:
-        raise LogbookError(f"--frames must be ≥ 1 (got {args.frames})")
+    # One entry is one sequence of frames: no exposure, and no sequence, outlasts a day.
+    if not (0 <= args.exposure <= 86400):
+        raise LogbookError(f"--exposure must be 0..86400 seconds, at most a day (got {args.exposure:g})")
+    if not 1 <= args.frames <= MAX_FRAMES:
+        raise LogbookError(f"--frames must be 1..{MAX_FRAMES} (got {args.frames})")
+    if args.exposure * args.frames > 86400:
+        raise LogbookError(f"--frames {args.frames} × --exposure {args.exposure:g} s is more than a day "
+                           "in one sequence; log the night's sequences one by one")
     if args.seeing is not None and not (0 < args.seeing <= 30):
         raise LogbookError(f"--seeing must be a FWHM in arcsec, 0 < FWHM ≤ 30 (got {args.seeing:g})")
     if not args.target.strip():
@@ -218,24 +267,27 @@ def _manual_airmass(site, target, time_jd, total_s):
 
 
 def run_note(args) -> int:
+    when = parse_time(args.time)  # bad input is refused before a logbook is made
     with open_logbook(args) as book:
-        print(book.add_note(parse_time(args.time), args.text))
+        print(book.add_note(when, args.text))
     return 0
 
 
 def run_weather(args) -> int:
+    when = parse_time(args.time)
     with open_logbook(args) as book:
-        print(book.add_weather(parse_time(args.time), args.state, args.note))
+        print(book.add_weather(when, args.state, args.note))
     return 0
 
 
 def run_observer(args) -> int:
     from planner.logbook.store import night_of_jd
 
+    given = common.parse_night_date(args.night, "--night") if args.night else None
     with open_logbook(args) as book:
         site = site_for(args, book, required=False)
-        if args.night:
-            night = common.parse_night_date(args.night, "--night")
+        if given:
+            night = given
         else:
             night = night_of_jd(parse_time(None), site.location.timezone if site else "UTC")
         book.add_observer(night, args.name)
@@ -243,20 +295,20 @@ def run_observer(args) -> int:
     return 0
 
 
-def _selected_entries(args, book):
-    site = site_for(args, book, required=False)
-    if not args.night:
-        return site, book.entries()
-    night = common.parse_night_date(args.night, "--night")
-    return site, book.entries(*night_bounds(site, night))
+def _selected_entries(args):
+    night = common.parse_night_date(args.night, "--night") if args.night else None
+    with open_logbook(args, write=False) as book:
+        site = site_for(args, book, required=False)
+        if night is None:
+            return book, site, book.entries()
+        return book, site, book.entries(*night_bounds(site, night))
 
 
 def run_list(args) -> int:
     from planner.reports.nightlog_json import entry_json
     from planner.sky.nights import iso_utc
 
-    with open_logbook(args) as book:
-        site, entries = _selected_entries(args, book)
+    book, site, entries = _selected_entries(args)
     if args.json:
         common.print_json({"logbook": str(book.path), "night": args.night,
                            "entries": [entry_json(e) for e in entries]})
@@ -294,43 +346,39 @@ def export_rows(entries) -> list[dict]:
 def run_export(args) -> int:
     suffix = ".csv" if args.format == "csv" else ".ecsv"
     out = common.check_output_path(args.out, (suffix,), "--out")
-    with open_logbook(args) as book:
-        _, entries = _selected_entries(args, book)
-    write_export(export_rows(entries), out, args.format)
+    _, _, entries = _selected_entries(args)
+    with common.output_file(out, "--out") as tmp:
+        write_export(export_rows(entries), tmp, args.format)
     print(f"{len(entries)} entries written to {out}")
     return 0
 
 
 def write_export(rows: list[dict], path: Path, fmt: str) -> None:
-    from planner.errors import OutputError
+    """The rows as CSV or ECSV at ``path`` (the command writes through common.output_file)."""
+    if fmt == "csv":
+        import csv
 
-    try:
-        if fmt == "csv":
-            import csv
+        with open(path, "w", newline="", encoding="utf-8") as f:
+            w = csv.DictWriter(f, fieldnames=EXPORT_COLUMNS)
+            w.writeheader()
+            w.writerows({k: "" if v is None else v for k, v in r.items()} for r in rows)
+        return
+    from astropy.table import MaskedColumn, Table
 
-            with open(path, "w", newline="", encoding="utf-8") as f:
-                w = csv.DictWriter(f, fieldnames=EXPORT_COLUMNS)
-                w.writeheader()
-                w.writerows({k: "" if v is None else v for k, v in r.items()} for r in rows)
-            return
-        from astropy.table import MaskedColumn, Table
-
-        numeric = {"id": int, "time_jd": float, "exposure_s": float, "frames": int, "airmass": float,
-                   "seeing_arcsec": float, "visit_id": int}
-        table = Table()
-        for k in EXPORT_COLUMNS:
-            values = [r[k] for r in rows]
-            mask = [v is None for v in values]
-            kind = numeric.get(k, str)
-            fill = 0 if kind is int else 0.0 if kind is float else ""
-            table[k] = MaskedColumn([fill if v is None else v for v in values], mask=mask,
-                                    dtype=kind if kind is not str else str)
-        table["exposure_s"].unit = "s"
-        table["seeing_arcsec"].unit = "arcsec"
-        table.meta["comments"] = ["gcplan observing log export; times UTC (ISO 8601 and JD)"]
-        table.write(path, format="ascii.ecsv", overwrite=True)
-    except OSError as exc:
-        raise OutputError(f"--out {str(path)!r}: cannot write ({exc.strerror or exc})") from None
+    numeric = {"id": int, "time_jd": float, "exposure_s": float, "frames": int, "airmass": float,
+               "seeing_arcsec": float, "visit_id": int}
+    table = Table()
+    for k in EXPORT_COLUMNS:
+        values = [r[k] for r in rows]
+        mask = [v is None for v in values]
+        kind = numeric.get(k, str)
+        fill = 0 if kind is int else 0.0 if kind is float else ""
+        table[k] = MaskedColumn([fill if v is None else v for v in values], mask=mask,
+                                dtype=kind if kind is not str else str)
+    table["exposure_s"].unit = "s"
+    table["seeing_arcsec"].unit = "arcsec"
+    table.meta["comments"] = ["gcplan observing log export; times UTC (ISO 8601 and JD)"]
+    table.write(path, format="ascii.ecsv", overwrite=True)
 
 
 def run_print(args) -> int:
@@ -342,11 +390,13 @@ def run_print(args) -> int:
 
     night = common.parse_night_date(args.night, "--night")
     pdf = common.check_output_path(args.pdf, (".pdf",), "--pdf") if args.pdf else None
-    with open_logbook(args) as book:
+    with open_logbook(args, write=False) as book:
         site = site_for(args, book, required=True)
+        common.check_night_exists(night, site, "--night")
         log = collect_night_log(book, site, night)
     if pdf is not None:
-        write_night_log_pdf(log, pdf, args.paper)
+        with common.output_file(pdf, "--pdf") as tmp:
+            write_night_log_pdf(log, tmp, args.paper)
     if args.json:
         from planner.reports.nightlog_json import night_log_json
 

@@ -29,6 +29,7 @@ def run(args) -> int:
 
     night = common.parse_night_date(args.date)
     site = common.site_from_args(args)
+    common.check_night_exists(night, site)
     targets = common.targets_from_args(args)
     constraints = common.constraints_from_args(site, args)
     plot_path = common.check_output_path(args.plot, (".png", ".pdf"), "--plot") if args.plot else None
@@ -55,7 +56,8 @@ def run(args) -> int:
         from planner.reports.altitude_chart import save_night_chart
         from planner.sky.night_summary import night_curves
 
-        save_night_chart(run_, night_curves(run_), plot_path)
+        with common.output_file(plot_path, "--plot") as tmp:
+            save_night_chart(run_, night_curves(run_), tmp)
         if not args.json:
             print(f"\nchart written to {plot_path}")
     common.warn_all(run_.warnings)

@@ -49,7 +49,8 @@ def run(args) -> int:
     if plot_path is not None:
         from planner.reports.hours_chart import save_observability_chart
 
-        save_observability_chart(run_, plot_path)
+        with common.output_file(plot_path, "--plot") as tmp:
+            save_observability_chart(run_, tmp)
         if not args.json:
             print(f"\nchart written to {plot_path}")
     common.warn_all(run_.warnings)

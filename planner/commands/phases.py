@@ -51,15 +51,18 @@ def run(args) -> int:
     else:
         print(report_text(variables, report))
     if plot_path is not None:
-        from planner.reports.phase_plot import phase_coverage_axes
+        from planner.reports.phase_plot import MAX_STRIPS, phase_coverage_axes
 
         ax = phase_coverage_axes(report["ids"], report["periods"], report["phase"], report["types"], args.bins)
-        try:
-            ax.figure.savefig(plot_path, dpi=120)
-        except OSError as exc:
-            from planner.errors import OutputError
+        if len(report["ids"]) > MAX_STRIPS:
+            common.warn_all([f"--plot draws {MAX_STRIPS} of {len(report['ids'])} stars, those with the fewest "
+                             "phase bins covered; the text and JSON give every star"])
+        import io
 
-            raise OutputError(f"--plot {str(plot_path)!r} cannot be written ({exc})") from None
+        buffer = io.BytesIO()  # drawn in memory, then written (a full disk part-way upsets matplotlib's PDF)
+        ax.figure.savefig(buffer, dpi=120, format=plot_path.suffix.lstrip(".").lower())
+        with common.output_file(plot_path, "--plot") as tmp:
+            tmp.write_bytes(buffer.getvalue())
         if not args.json:
             print(f"\nphase-coverage plot written to {plot_path}")
     return 0

@@ -74,10 +74,13 @@ def check_options(args) -> None:
         raise VariablesOptionError("give --nights K and --visits-per-night V, or --schedule FILE")
     else:
         _check_counts(args.nights, args.visits_per_night)
+    if args.seed < 0:
+        raise VariablesOptionError(f"--seed must be a whole number ≥ 0 (got {args.seed})")
     if args.stars is not None and not 1 <= args.stars <= 100_000:
         raise VariablesOptionError(f"--stars must be between 1 and 100000 (got {args.stars})")
     if not args.exposure > 0:
         raise VariablesOptionError(f"--exposure must be a positive number of seconds (got {args.exposure:g})")
+    common.check_magnitude(args.mean_mag, "--mean-mag")
     if args.noise_mag is not None and not 0 < args.noise_mag < 5:
         raise VariablesOptionError(f"--noise-mag must be between 0 and 5 mag (got {args.noise_mag:g})")
     if not 0 <= args.noise_floor < 5:
@@ -93,6 +96,23 @@ def _check_counts(nights: int, visits_per_night: int) -> None:
         raise VariablesOptionError(f"--nights must be between 1 and 3700 (got {nights})")
     if not 1 <= visits_per_night <= 500:
         raise VariablesOptionError(f"--visits-per-night must be between 1 and 500 (got {visits_per_night})")
+
+
+#: The period search's coarse step, in stars × frequencies × times, that a command waits for:
+#: 3·10¹⁰ is about two minutes on one core (1000 nights × 4 visits × 200 stars, 1.6·10¹⁰, took 64 s).
+MAX_SEARCH_TERMS = 3e10
+
+
+def _check_search_size(population, args) -> None:
+    from planner.inputs.variable_files import VariablesOptionError
+    from planner.variables.period_search import coarse_search_terms
+
+    terms = coarse_search_terms(population.times, len(population.stars.star_id))
+    if terms > MAX_SEARCH_TERMS:
+        raise VariablesOptionError(
+            f"{len(population.stars.star_id)} stars × {np.shape(population.times)[-1]} visits over "
+            f"{np.ptp(population.times):.0f} days make a period search of {terms:.1e} terms, more than "
+            f"{MAX_SEARCH_TERMS:.0e} (about two minutes): give fewer nights, visits per night or --stars")
 
 
 def _first_night(date_text: str | None, site) -> dt.date:
@@ -294,13 +314,14 @@ def run(args) -> int:
     if args.population.lower() in POPULATIONS:
         population = synthetic_stars(args.population.lower(), args.stars or 200, args.mean_mag, site, args.filter,
                                      entry, visits.jd, rng)
-    elif Path(args.population).is_file():
+    elif Path(args.population).exists():  # the reader refuses a folder, a pipe or a device
         population = file_stars(args.population, args.stars, args.mean_mag, site, args.filter, entry, visits.jd)
     else:
         raise VariablesOptionError(f"--population {args.population!r} is neither {' nor '.join(POPULATIONS)} "
                                    "nor an existing variables file")
     sigma, noise_source = visit_noise(site, args.filter, population.mean_mag, args.exposure, args.noise_mag,
                                       args.noise_floor)
+    _check_search_size(population, args)
     summary, search = simulate_recovery(population.times, population.stars, population.mean_mag, sigma, rng)
     result = recovery_result(summary, search, visits, population, sigma, noise_source, site=site.name,
                              twilight=twilight, filter_name=args.filter, exposure_s=args.exposure, seed=args.seed,

@@ -157,7 +157,7 @@ def read_logbook_night(campaign, night, path: str | None = None):
         return (), (), set(), f"no logbook at {p}: nothing is read from one"
     zone = campaign.site.location.timezone
     a, b = local_noon_jd(night, zone), local_noon_jd(night + dt.timedelta(days=1), zone)
-    with Logbook(p) as book:
+    with Logbook(p, readonly=True) as book:
         frames = tuple(book.entries(a, b))
         events = sorted(book.weather(a, b), key=lambda e: e.time_jd)
         recorded = book.planned_ids(night)

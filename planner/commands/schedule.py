@@ -8,6 +8,7 @@ The night sheet, the plan's JSON and its ECSV table are written by
 from __future__ import annotations
 
 import math
+import sys
 
 from planner.commands import common
 from planner.commands.common import OptionError
@@ -59,19 +60,22 @@ def run(args) -> int:
             raise OptionError("give --campaign FILE, or --site, --targets (or --target) and --visit "
                               "for an ad-hoc plan")
         site, plan = _ad_hoc_plan(args, night)
+    common.check_night_exists(night, site)
     warnings += list(plan.warnings)
     if args.json:
         common.print_json(schedule_json(site, plan))
     else:
         print(night_sheet(site, plan))
     if out_path is not None:
-        write_plan_ecsv(site, plan, out_path)
+        with common.output_file(out_path, "--out") as tmp:
+            write_plan_ecsv(site, plan, tmp)
     if args.record:
         record_plan(args, plan, night)
     if plot_path is not None:
         from planner.reports.schedule_plot import save_schedule_plot
 
-        save_schedule_plot(site, plan, plot_path)
+        with common.output_file(plot_path, "--plot") as tmp:
+            save_schedule_plot(site, plan, tmp)
     if not args.json and (out_path or plot_path):
         print("\n" + "\n".join(f"written: {p}" for p in (out_path, plot_path) if p))
     common.warn_all(warnings)
@@ -122,6 +126,8 @@ def record_plan(args, plan, night) -> None:
         for v in plan.visits for n, e in enumerate(v.exposures)
     ]
     with Logbook(path) as book:
+        if book.created:
+            print(f"gcplan: created a new logbook at {book.path}", file=sys.stderr)
         added = book.add_planned_visits(night, rows)
     if not args.json:
         kept = len(rows) - len(added)

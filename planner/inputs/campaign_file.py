@@ -129,7 +129,7 @@ def _nights(top: Table) -> tuple[dt.date, ...]:
 
     first = _date(top, "first_night", True)
     last = _date(top, "last_night", False)
-    n = top.number("nights", 1, MAX_NIGHTS, required=False)
+    n = top.whole("nights", 1, MAX_NIGHTS, required=False)
     if last is not None and n is not None:
         top.fail("give last_night or nights, not both")
     if last is None and n is None:
@@ -198,6 +198,9 @@ def _goal(gt: Table, site, targets):
     else:
         if not isinstance(wanted, list) or not all(isinstance(w, str) for w in wanted):
             gt.fail(f"targets must be a list of target names (got {show(wanted)})")
+        if not wanted:
+            gt.fail("targets is an empty list: the goal would plan nothing (leave targets out for all "
+                    "of the campaign's targets)")
         missing = [w for w in wanted if w not in names]
         if missing:
             gt.fail(f"targets: {show(missing[0])} is not in the campaign's targets "
@@ -206,7 +209,7 @@ def _goal(gt: Table, site, targets):
     dark = gt.get("dark", False)
     if dark is not None and not isinstance(dark, bool):
         gt.fail(f"dark must be true or false (got {show(dark)})")
-    visits = gt.number("visits", 1, 1000, default=1)
+    visits = gt.whole("visits", 1, 1000, default=1)
     return DepthGoal(
         level=level, filter=filt, snr=gt.number("snr", 1.0, 10000.0), targets=chosen,
         visits=int(visits), max_airmass=gt.number("max_airmass", 1.0, 40.0, required=False),
@@ -229,8 +232,8 @@ def _cadence(raw: dict, source: str, site, variables):
     snr = vt.number("snr", 1.0, 10000.0, required=False)
     if exposure is not None and snr is not None:
         vt.fail("give snr or exposure_s, not both")
-    per_night = vt.number("visits_per_night", 1, 200)
-    bins = vt.number("phase_bins", 2, 1000, default=20)
+    per_night = vt.whole("visits_per_night", 1, 200)
+    bins = vt.whole("phase_bins", 2, 1000, default=20)
     return CadenceGoal(filter=filt, snr=30.0 if snr is None and exposure is None else snr,
                        exposure_s=exposure, visits_per_night=int(per_night), phase_bins=int(bins),
                        min_spacing_min=vt.number("min_spacing_min", 0.0, 720.0, default=30.0),

@@ -29,13 +29,14 @@ def read_plan_visits(path: str | Path) -> list[dict]:
     """Visits of a plan file: dicts with target, purpose, start_jd, end_jd, status."""
     p = Path(path)
     source = str(path)
-    if not p.is_file():
-        raise PlanFileError("no such file", source)
+    from planner.inputs.files import TABLE_LIMIT_BYTES, read_input
+
+    raw = read_input(p, source, PlanFileError, "plan", TABLE_LIMIT_BYTES)
     if p.suffix.lower() == ".ecsv":
         from astropy.table import Table
 
         try:
-            t = Table.read(p, format="ascii.ecsv")
+            t = Table.read(raw.decode("utf-8"), format="ascii.ecsv")
         except Exception as exc:  # astropy raises many kinds for a broken table
             raise PlanFileError(f"not a readable ECSV table ({exc})", source) from None
         need = {"target", "start_jd", "end_jd"}
@@ -47,7 +48,7 @@ def read_plan_visits(path: str | Path) -> list[dict]:
                  "status": str(r["status"]) if "status" in t.colnames else "planned"} for r in t]
     if p.suffix.lower() == ".json":
         try:
-            data = json.loads(p.read_text(encoding="utf-8"))
+            data = json.loads(raw.decode("utf-8"))
         except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
             raise PlanFileError(f"not readable JSON ({exc})", source) from None
         nights = data.get("nights") if isinstance(data, dict) and "nights" in data else [data]

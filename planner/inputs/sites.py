@@ -317,6 +317,22 @@ def load_site_profile(path: str | Path, source: str | None = None) -> SiteProfil
     return parse_site_profile(read_toml(path, name, SiteProfileError, "site profile"), name)
 
 
+def site_from_text(text: str, source: str, timezone: str | None = None) -> SiteProfile:
+    """A profile from its TOML text (as a logbook keeps it); ``timezone`` replaces its zone."""
+    import tomllib
+
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise error(SiteProfileError, f"the kept copy is not valid TOML ({exc})", source) from None
+    profile = parse_site_profile(data, source)
+    if timezone is not None:
+        if _timezone_problem(timezone):
+            raise error(SiteProfileError, f"timezone {_timezone_problem(timezone)}")
+        profile = replace(profile, location=replace(profile.location, timezone=timezone))
+    return profile
+
+
 def bundled_site_names() -> list[str]:
     """Stems of the bundled profiles (``demo``, ``generic``, the templates), sorted."""
     folder = site_profiles_dir()
@@ -379,7 +395,7 @@ def resolve_site(spec: str, timezone: str | None = None) -> SiteProfile:
     if not text:
         raise error(SiteProfileError, f"empty site: give a profile file, a bundled profile or {_COORDS}")
     try:
-        is_file = Path(text).is_file()
+        is_file = Path(text).exists()  # a pipe or a device too: the reader says what it is
     except (OSError, ValueError):  # a name too long for the file system, a NUL
         is_file = False
     is_path = is_file or text.lower().endswith(".toml") or any(c in text for c in "/\\")

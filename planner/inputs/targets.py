@@ -142,15 +142,13 @@ def read_target_list(path: str | Path, catalog: Catalog | None = None) -> list[T
         raise TargetListError(
             f"unsupported target list type {suffix or '(no suffix)'!r}; use {', '.join(SUFFIXES)}", source=source
         )
-    if not path.is_file():
-        what = "is a directory, not a file" if path.is_dir() else "file not found"
-        raise TargetListError(what, source=source)
+    from planner.inputs.files import TABLE_LIMIT_BYTES, read_input
+
+    raw = read_input(path, source, TargetListError, "target list", TABLE_LIMIT_BYTES, missing="file not found")
     try:
-        text = path.read_bytes().decode("utf-8-sig")
+        text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         raise TargetListError(f"not UTF-8 text ({exc.reason} at byte {exc.start})", source=source) from None
-    except OSError as exc:
-        raise TargetListError(f"cannot read: {exc.strerror or exc}", source=source) from None
     if "\x00" in text:
         raise TargetListError("not a text file (it contains NUL bytes)", source=source)
     if not text.strip():
@@ -219,6 +217,8 @@ def targets_from_names(names: Sequence[str], catalog: Catalog) -> list[Target]:
     """
     targets = []
     for name in names:
+        if not name.strip():
+            raise TargetListError("is empty: give a cluster's name, e.g. 'NGC 104' or '47 Tuc'", source="--target")
         entry = catalog.lookup(name)
         if entry is None:
             close = catalog.suggestions(name)

@@ -146,6 +146,15 @@ class Table:
             return default
         return self.check(value, key, lo, hi, lo_open, hi_open, hi_name)
 
+    def whole(self, key: str, lo=None, hi=None, default: int | None = None, required=True) -> Any:
+        """The whole number at ``key`` (a count: ``1.5`` is refused, not truncated)."""
+        value = self.get(key, required and default is None)
+        if value is None:
+            return default
+        if isinstance(value, float) and not isinstance(value, bool):
+            self.fail(f"{key} must be a whole number (got {show(value)})")
+        return int(self.check(value, key, lo, hi))
+
     def check(self, value: Any, label: str, lo=None, hi=None, lo_open=False,
               hi_open=False, hi_name="") -> float:
         """``value`` as a float within the bounds, or fail naming ``label``."""
@@ -190,14 +199,9 @@ def read_toml(path: str | Path, source: str, error_type: type[InputError], what:
     names the kind of file, e.g. ``"site profile"``.  A missing, unreadable or
     non-UTF-8 file, or invalid TOML, raises ``error_type``.
     """
-    try:
-        raw = Path(path).read_bytes()
-    except FileNotFoundError:
-        raise error(error_type, "no such file", source) from None
-    except IsADirectoryError:
-        raise error(error_type, f"is a folder, not a {what} (.toml) file", source) from None
-    except (OSError, ValueError) as exc:  # ValueError: a NUL in the path
-        raise error(error_type, f"cannot be read ({getattr(exc, 'strerror', None) or exc})", source) from None
+    from planner.inputs.files import read_input
+
+    raw = read_input(path, source, error_type, f"{what} (.toml)")
     try:
         text = raw.decode("utf-8").removeprefix("\ufeff")  # some editors add a byte-order mark
     except UnicodeDecodeError as exc:

@@ -74,11 +74,12 @@ def _data_lines(text: str) -> list[int]:
 def _read_table(path: str | Path, what: str) -> _Table:
     p = Path(path)
     src = str(path)
+    from planner.inputs.files import TABLE_LIMIT_BYTES, read_input
+
+    raw = read_input(p, src, VariablesError, what, TABLE_LIMIT_BYTES)
     try:
-        text = p.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise VariablesError(f"no such {what} file", src) from None
-    except (OSError, UnicodeDecodeError) as exc:
+        text = raw.decode("utf-8").replace("\r\n", "\n").replace("\r", "\n")  # as read_text gave
+    except UnicodeDecodeError as exc:
         raise VariablesError(f"cannot read the {what} file ({exc})", src) from None
     lines = _data_lines(text)
     if text.lstrip().startswith("# %ECSV"):
@@ -307,6 +308,7 @@ def _optional_magnitude(table: _Table, i: int, names, row, column: str, minimum:
 
 def read_times(path: str | Path):
     """Observation times of a file as an astropy ``Time`` (UTC), in file order."""
+    import numpy as np
     from astropy.time import Time
 
     table = _read_table(path, "times")
@@ -318,6 +320,8 @@ def read_times(path: str | Path):
             "times in time_utc (e.g. 2027-05-12T23:41:07) or Julian dates in jd_utc",
             src,
         )
+    if "time_utc" in names and "jd_utc" in names:
+        raise VariablesError("has both a time_utc and a jd_utc column; keep one: the two could disagree", src)
     if not table.rows:
         raise VariablesError("the times file has no rows", src)
     if "jd_utc" in names:
@@ -336,9 +340,19 @@ def read_times(path: str | Path):
         text = _ISO_SPACE.sub(r"\1T\2", str(raw).strip())
         values.append(text[:-1] if text.endswith(("Z", "z")) else text)
     try:
-        return Time(values, format="isot", scale="utc")
+        times = Time(values, format="isot", scale="utc")
     except ValueError:
-        pass
+        times = None
+    if times is not None:
+        outside = np.flatnonzero((times.jd1 + times.jd2 < JD_RANGE[0]) | (times.jd1 + times.jd2 > JD_RANGE[1]))
+        if outside.size:  # the same years a jd_utc column may hold
+            i = int(outside[0])
+            raise VariablesError(
+                f"{table.where(i, column)}: {table.rows[i].get(column)!r} is not a plausible time "
+                f"(expected {Time(JD_RANGE[0], format='jd').utc.isot[:10]} to "
+                f"{Time(JD_RANGE[1], format='jd').utc.isot[:10]}, as Julian dates {JD_RANGE[0]:,.0f} "
+                f"to {JD_RANGE[1]:,.0f})", src)
+        return times
     for i, text in enumerate(values):  # find the first bad one (error path only)
         try:
             Time(text, format="isot", scale="utc")

@@ -390,10 +390,11 @@ def exposure_for_snr(site, filter_name: str, magnitude: float, snr: float, *, ai
 def exposure_plans(site, filter_name: str, magnitude, snr, *, airmass, seeing_fwhm_arcsec, moon_illumination,
                    moon_separation_deg, moon_altitude_deg, saturation_magnitude, shortest_period_d,
                    cluster_sb_mag_arcsec2, level, target,
-                   phase_smear_fraction=DEFAULT_PHASE_SMEAR_FRACTION) -> list[ExposurePlan]:
+                   phase_smear_fraction=DEFAULT_PHASE_SMEAR_FRACTION, max_frame_s=None) -> list[ExposurePlan]:
     """:func:`exposure_for_snr` for many stars in one filter: every argument a sequence with one
     value per star (None where :func:`exposure_for_snr` takes None), the grid computed once over
-    all of them and each plan then put together as :func:`exposure_for_snr` does."""
+    all of them and each plan then put together as :func:`exposure_for_snr` does; ``max_frame_s``
+    (one number for all, or None) caps every frame."""
     s = band_setup(site, filter_name)
     seeing = [s.typical_seeing_arcsec if x is None else float(x) for x in seeing_fwhm_arcsec]
     bright = [m if b is None else b for m, b in zip(magnitude, saturation_magnitude)]
@@ -401,7 +402,7 @@ def exposure_plans(site, filter_name: str, magnitude, snr, *, airmass, seeing_fw
     cluster = [math.inf if c is None else c for c in cluster_sb_mag_arcsec2]
     arrays = [np.asarray(x, dtype=float) for x in (magnitude, snr, airmass, seeing, moon_illumination,
                                                     moon_separation_deg, moon_altitude_deg, bright, cluster)]
-    g = _grid(s, arrays[0], arrays[1], *arrays[2:7], arrays[7], None, None, None, True, arrays[8])
+    g = _grid(s, arrays[0], arrays[1], *arrays[2:7], arrays[7], max_frame_s, None, None, True, arrays[8])
     columns = {name: np.asarray(getattr(g, name)).tolist() for name in g.__dataclass_fields__}
     plans = []
     for i in range(len(magnitude)):
@@ -409,7 +410,7 @@ def exposure_plans(site, filter_name: str, magnitude, snr, *, airmass, seeing_fw
         try:
             plans.append(_plan(s, v, magnitude[i], snr[i], airmass[i], seeing[i], moon_illumination[i],
                                moon_separation_deg[i], moon_altitude_deg[i], saturation_magnitude[i],
-                               shortest_period_d[i], phase_smear_fraction, None, level[i], target[i],
+                               shortest_period_d[i], phase_smear_fraction, max_frame_s, level[i], target[i],
                                cluster_sb_mag_arcsec2[i]))
         except SnrGoalError as exc:
             exc.index = i  # which star: a caller reading them from a file names the row

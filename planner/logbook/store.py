@@ -37,6 +37,7 @@ from __future__ import annotations
 
 import contextlib
 import datetime as dt
+import os
 import sqlite3
 from dataclasses import dataclass
 from pathlib import Path
@@ -217,6 +218,40 @@ def default_logbook_path(campaign_file: str | Path | None = None) -> Path:
     return user_data_path("gcplan", appauthor=False) / DEFAULT_LOGBOOK_NAME
 
 
+def _open_for_reading(p: Path) -> sqlite3.Connection:
+    """A connection that never creates, migrates or writes (``log list``, ``export``, ``print``).
+
+    A file we may write is opened as usual with ``query_only``: SQLite then tidies its WAL
+    files on close as a writer does (a ``mode=ro`` connection would leave ``-wal`` and ``-shm``
+    behind).  A file we may not write (read-only file or folder) is opened with ``mode=ro``;
+    with ``immutable=1`` too when no WAL file is beside it (nothing is being written)."""
+    if not p.exists():
+        raise LogbookError("no such logbook (commands that write, such as log add or log ingest, "
+                           "create one)", str(p))
+    if p.is_dir():
+        raise IsADirectoryError("it is a folder")
+    folder = p.resolve().parent
+    if os.access(p, os.W_OK) and os.access(folder, os.W_OK):
+        db = sqlite3.connect(str(p), timeout=BUSY_TIMEOUT_S, isolation_level=None)
+        try:
+            db.execute("PRAGMA query_only=ON")
+            db.execute("SELECT COUNT(*) FROM sqlite_master").fetchone()
+            return db
+        except sqlite3.OperationalError:  # e.g. a full disk refuses the shared-memory file
+            db.close()
+    uri = p.resolve().as_uri()
+    if Path(f"{p}-wal").exists():  # a writer may be at work: read through its WAL
+        db = sqlite3.connect(f"{uri}?mode=ro", uri=True, timeout=BUSY_TIMEOUT_S, isolation_level=None)
+        try:
+            db.execute("SELECT COUNT(*) FROM sqlite_master").fetchone()
+            return db
+        except sqlite3.OperationalError:  # its shared-memory file cannot be opened
+            db.close()
+    # No WAL: every write is in the file itself, and nobody writing it (a mode=ro connection
+    # here would make -wal and -shm files beside it and leave them).
+    return sqlite3.connect(f"{uri}?mode=ro&immutable=1", uri=True, isolation_level=None)
+
+
 def _fail(path: str, exc: BaseException) -> LogbookError:
     reason = str(exc) or type(exc).__name__
     return LogbookError(f"cannot open or write the logbook ({reason}); give a writable file "
@@ -230,24 +265,56 @@ class Logbook:
     threads); any number of processes and threads may write at once.
     """
 
-    def __init__(self, path: str | Path, create_folder: bool = False):
+    def __init__(self, path: str | Path, create_folder: bool = False, readonly: bool = False):
         self.path = str(path)
+        self.readonly = readonly
         p = Path(path)
         try:
-            if create_folder:
-                p.parent.mkdir(parents=True, exist_ok=True)
-            if p.is_dir():
-                raise IsADirectoryError("it is a folder")
-            if not p.parent.is_dir():
-                raise FileNotFoundError(f"folder {str(p.parent)!r} does not exist")
-            # isolation_level=None: we issue BEGIN/COMMIT ourselves, one per entry.
-            self._db = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_S, isolation_level=None)
-            self._db.execute("PRAGMA journal_mode=WAL")
-            self._db.execute("PRAGMA synchronous=FULL")
-            self._db.execute("PRAGMA foreign_keys=ON")
-            self._migrate()
-        except (sqlite3.Error, OSError) as exc:
+            if readonly:
+                self._db = _open_for_reading(p)
+                self._check_gcplan(must_exist=True)
+                have = self.schema_version()
+                if have > SCHEMA_VERSION:
+                    raise LogbookError(f"written by a newer gcplan (schema {have}; this one knows up to "
+                                       f"{SCHEMA_VERSION}); upgrade gcplan", self.path)
+            else:
+                if create_folder:
+                    p.parent.mkdir(parents=True, exist_ok=True)
+                if p.is_dir():
+                    raise IsADirectoryError("it is a folder")
+                if not p.parent.is_dir():
+                    raise FileNotFoundError(f"folder {str(p.parent)!r} does not exist")
+                #: True when this open made the file (the command says so, once).
+                self.created = not p.exists()
+                # isolation_level=None: we issue BEGIN/COMMIT ourselves, one per entry.
+                self._db = sqlite3.connect(self.path, timeout=BUSY_TIMEOUT_S, isolation_level=None)
+                self._check_gcplan(must_exist=False)
+                self._db.execute("PRAGMA journal_mode=WAL")
+                self._db.execute("PRAGMA synchronous=FULL")
+                self._db.execute("PRAGMA foreign_keys=ON")
+                self._migrate()
+            # Logbooks older than schema 3 (read, never migrated, by readers) have no plan ids.
+            columns = {r[1] for r in self._db.execute("PRAGMA table_info(planned_visits)")}
+            self._visit_fields = _VISIT_FIELDS if "plan_id" in columns else _VISIT_FIELDS.replace(
+                "plan_id, line", "NULL, NULL")
+        except sqlite3.DatabaseError as exc:
+            if "not a database" in str(exc):
+                raise LogbookError("not a gcplan logbook (not an SQLite database); give gcplan's logbook "
+                                   "with --logbook FILE", self.path) from None
             raise _fail(self.path, exc) from None
+        except OSError as exc:
+            raise _fail(self.path, exc) from None
+
+    def _check_gcplan(self, must_exist: bool) -> None:
+        """Refuse another program's database: gcplan's has ``schema_version`` beside its tables.
+        An empty one is a new logbook to a writer, and nothing to read for a reader."""
+        tables = {r[0] for r in self._db.execute("SELECT name FROM sqlite_master WHERE type = 'table'")}
+        if "schema_version" in tables and (not must_exist or {"meta", "entries"} <= tables):
+            return
+        if tables or must_exist:
+            self._db.close()
+            what = f"its tables are {', '.join(sorted(tables))}" if tables else "it is empty"
+            raise LogbookError(f"not a gcplan logbook ({what}); nothing was changed in it", self.path)
 
     # --- plumbing ---------------------------------------------------------
 
@@ -352,7 +419,7 @@ class Logbook:
 
         frame = _Frame(entry_id, entry)
         rows = [PlannedVisit(*r) for r in self._db.execute(
-            f"SELECT {_VISIT_FIELDS} FROM planned_visits WHERE night = ? AND done_entry_id IS NULL", (night,))]
+            f"SELECT {self._visit_fields} FROM planned_visits WHERE night = ? AND done_entry_id IS NULL", (night,))]
         # A visit recorded without times can only be matched on what it is.
         spans = [replace(v, start_jd=-np.inf if v.start_jd is None else v.start_jd,
                          end_jd=np.inf if v.end_jd is None else v.end_jd) for v in rows]
@@ -432,12 +499,14 @@ class Logbook:
         return [int(c.lastrowid) for c in self._write(statements) if c.rowcount == 1]
 
     def planned_visits(self, night: dt.date | str) -> list[PlannedVisit]:
-        rows = self._db.execute(f"SELECT {_VISIT_FIELDS} FROM planned_visits WHERE night = ? "
+        rows = self._db.execute(f"SELECT {self._visit_fields} FROM planned_visits WHERE night = ? "
                                 "ORDER BY COALESCE(start_jd, 0), id", (str(night),))
         return [PlannedVisit(*r) for r in rows]
 
     def planned_ids(self, night: dt.date | str) -> set[str]:
         """The plan ids recorded for a night (every id a re-plan must not give again)."""
+        if "plan_id" not in self._visit_fields:
+            return set()
         rows = self._db.execute("SELECT DISTINCT plan_id FROM planned_visits WHERE night = ? AND plan_id IS NOT NULL",
                                 (str(night),))
         return {r[0] for r in rows}

@@ -7,6 +7,7 @@ figure made here carries the caution at its foot, as every gcplan figure does.
 
 from __future__ import annotations
 
+import io
 from pathlib import Path
 
 import numpy as np
@@ -81,5 +82,7 @@ def save_snr_plot(path: str | Path, times_s, snr_one_frame, **options) -> Path:
     """:func:`plot_snr_against_exposure` on a new figure, written to ``path`` (PNG/PDF/SVG)."""
     ax = plot_snr_against_exposure(times_s, snr_one_frame, **options)
     path = Path(path)
-    ax.figure.savefig(path, dpi=150)
+    buffer = io.BytesIO()  # drawn in memory, then written (see figure_common.save_figure)
+    ax.figure.savefig(buffer, dpi=150, format=path.suffix.lstrip(".").lower() or "png")
+    path.write_bytes(buffer.getvalue())
     return path

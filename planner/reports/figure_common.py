@@ -10,6 +10,7 @@ daylight-saving change reads as the clocks do.
 from __future__ import annotations
 
 import datetime as dt
+import io
 from pathlib import Path
 from zoneinfo import ZoneInfo
 
@@ -101,6 +102,10 @@ def save_figure(fig, path) -> Path:
     if fmt not in ("png", "pdf"):
         raise OutputError(f"chart file {str(p)!r} must end in .png or .pdf")
     FigureCanvasAgg(fig)
-    fig.savefig(p, format=fmt, dpi=_SAVE_DPI, facecolor="white",
+    # Drawn in memory, then written: matplotlib's PDF writer, hit by a full disk part-way,
+    # fails inside its own clean-up with errors that are not OSError.
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format=fmt, dpi=_SAVE_DPI, facecolor="white",
                 metadata={"Creator": "gcplan"} if fmt == "pdf" else None)
+    p.write_bytes(buffer.getvalue())
     return p

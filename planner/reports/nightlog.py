@@ -14,6 +14,7 @@ Every page carries its number and the logbook it came from.
 from __future__ import annotations
 
 import datetime as dt
+import io
 import textwrap
 from dataclasses import dataclass
 from pathlib import Path
@@ -179,14 +180,13 @@ def write_night_log_pdf(log: NightLog, path, paper: str = "a4") -> Path:
         raise OutputError(f"--paper must be one of {', '.join(PAPER_IN)} (got {paper!r})")
     path = Path(path)
     pages = _paginate(log, PAPER_IN[paper])
-    try:
-        with PdfPages(path, metadata={"Creator": "gcplan", "Title": _title(log)}) as pdf:
-            for number, blocks in enumerate(pages, 1):
-                fig = _draw_page(log, blocks, PAPER_IN[paper], number, len(pages) + 1)
-                pdf.savefig(fig)
-            pdf.savefig(observed_chart(log, PAPER_IN[paper][::-1], len(pages) + 1))
-    except OSError as exc:
-        raise OutputError(f"--pdf {str(path)!r}: cannot write ({exc.strerror or exc})") from None
+    buffer = io.BytesIO()  # drawn in memory, then written (see figure_common.save_figure)
+    with PdfPages(buffer, metadata={"Creator": "gcplan", "Title": _title(log)}) as pdf:
+        for number, blocks in enumerate(pages, 1):
+            fig = _draw_page(log, blocks, PAPER_IN[paper], number, len(pages) + 1)
+            pdf.savefig(fig)
+        pdf.savefig(observed_chart(log, PAPER_IN[paper][::-1], len(pages) + 1))
+    path.write_bytes(buffer.getvalue())
     return path
 
 

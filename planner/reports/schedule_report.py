@@ -96,7 +96,6 @@ def bound_line(plan) -> str | None:
 def write_plan_ecsv(site, plan, path, option: str = "--out") -> None:
     from astropy.table import Table
 
-    from planner.errors import OutputError
     from planner.scheduling.visits import exposures_text
 
     v = plan.visits
@@ -112,10 +111,7 @@ def write_plan_ecsv(site, plan, path, option: str = "--out") -> None:
     t.meta["night"] = plan.night.isoformat()
     t.meta["site"] = site.name
     t.meta["method"] = plan.method
-    try:
-        t.write(path, format="ascii.ecsv", overwrite=True)
-    except OSError as exc:
-        raise OutputError(f"{option} {str(path)!r} cannot be written ({exc.strerror or exc})") from None
+    t.write(path, format="ascii.ecsv", overwrite=True)  # the command writes through common.output_file
 
 
 # ----------------------------------------------------------------- the night sheet
@@ -141,8 +137,10 @@ def night_sheet(site, plan) -> str:
         lines.extend("  " + part for part in textwrap.wrap(PLAN_CAUTION, 76))
         return "\n".join(lines)
     w0, w1 = plan.window_start_jd, plan.window_end_jd
-    lines.append(f"  usable ({c.twilight}): {local_hhmm(w0, zone)}–{local_hhmm(w1, zone)} local "
-                 f"({utc_offset_label(w0, zone)}), {utc_hhmm(w0)}–{utc_hhmm(w1)} UTC, {(w1 - w0) * 24:.1f} h")
+    off0, off1 = utc_offset_label(w0, zone), utc_offset_label(w1, zone)
+    local = (f"{local_hhmm(w0, zone)}–{local_hhmm(w1, zone)} local ({off0})" if off0 == off1 else  # the clocks
+             f"{local_hhmm(w0, zone)} ({off0})–{local_hhmm(w1, zone)} ({off1}) local")  # changed in the night
+    lines.append(f"  usable ({c.twilight}): {local}, {utc_hhmm(w0)}–{utc_hhmm(w1)} UTC, {(w1 - w0) * 24:.1f} h")
     lines.extend(textwrap.wrap(f"limits: {c.describe()}; Moon {plan.moon_illumination * 100:.0f}% lit; seeing "
                                f"{plan.seeing_arcsec:g}″ planned", 78, initial_indent="  ", subsequent_indent="    "))
     lines.append(f"  {len(plan.visits)} visits, shutter open {plan.shutter_s / 60:.1f} min (efficiency "

@@ -295,6 +295,12 @@ def check_fits_the_night(campaign: Campaign, exposures: dict, sky) -> None:
     ``sky``) is an error."""
     longest = float(np.nanmax(np.where(np.isfinite(sky.window_start_jd),
                                        sky.window_end_jd - sky.window_start_jd, 0.0))) * 86400.0
+    if not longest > 0:  # no S/N goal is the cause: there is no dark time to put any visit in
+        twilight = campaign.constraints.twilight
+        raise CampaignError(f"no night of the campaign ({campaign.nights[0]} to {campaign.nights[-1]}) has any "
+                            f"usable time at {campaign.site.name}: the Sun never goes below {twilight} twilight "
+                            "(or the constraints close every night); choose other dates or a lighter twilight",
+                            campaign.source)
     for key, exps in exposures.items():
         need = body_s(campaign.site, exps)
         if need > longest:

@@ -170,6 +170,8 @@ def parse_visit_spec(text: str, site, option: str = "visit") -> tuple[Exposure, 
             if not sep or key not in ("filter", "frames", "exposure"):
                 raise VisitError(f"{option} {text!r}: {item.strip()!r} is not one of filter=NAME, frames=N, "
                                  "exposure=SECONDS")
+            if key in fields:
+                raise VisitError(f"{option} {text!r}: {key} is given twice in one sequence")
             fields[key] = value.strip()
         if "filter" not in fields or "exposure" not in fields:
             raise VisitError(f"{option} {text!r}: needs filter=NAME and exposure=SECONDS (frames=N optional)")

@@ -59,6 +59,15 @@ def local_noon_jd(night: dt.date, zone: str) -> float:
     return datetime_to_jd(local)
 
 
+def date_skipped(night: dt.date, zone: str) -> bool:
+    """True when the local calendar of ``zone`` has no ``night`` at all (Pacific/Apia skipped
+    2011-12-30 when it moved across the date line): its local midnights are one UTC moment."""
+    z = ZoneInfo(zone)
+    start = dt.datetime.combine(night, dt.time(0, 0), tzinfo=z).astimezone(_UTC)
+    end = dt.datetime.combine(night + dt.timedelta(days=1), dt.time(0, 0), tzinfo=z).astimezone(_UTC)
+    return end <= start
+
+
 def night_spans_jd(nights: list[dt.date], zone: str) -> tuple[np.ndarray, np.ndarray]:
     """Start and end (JD UTC) of each night: local noon to the next local noon."""
     start = np.array([local_noon_jd(n, zone) for n in nights])

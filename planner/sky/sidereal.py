@@ -83,6 +83,20 @@ def hour_angle_at_altitude_deg(latitude_deg, dec_deg, altitude_limit_deg):
     return np.degrees(np.arccos(np.clip(c, -1.0, 1.0)))
 
 
+#: The obliquity of the ecliptic, J2000 (Meeus 1998, eq. 22.2: 23°26'21.4"), to 0.01°:
+#: the Sun's declination at the solstices.
+OBLIQUITY_DEG = 23.44
+
+
+def longest_night_hours(latitude_deg, sun_altitude_deg):
+    """Hours the Sun stays below ``sun_altitude_deg`` on the longest night of the year at a
+    latitude (the winter solstice; 24 in the polar night, 0 where it never gets that dark).
+    Solar hours (15°/h) and a fixed declination: minutes off, enough to say what cannot fit."""
+    winter_dec = -np.sign(latitude_deg) * OBLIQUITY_DEG if latitude_deg else OBLIQUITY_DEG
+    h = hour_angle_at_altitude_deg(latitude_deg, winter_dec, sun_altitude_deg)
+    return float((360.0 - 2.0 * h) / 15.0)
+
+
 def culmination_altitudes_deg(latitude_deg, dec_deg):
     """Altitudes (degrees) at upper and lower transit: 90 − |φ − δ| and |φ + δ| − 90."""
     phi = np.asarray(latitude_deg, dtype=float)

@@ -43,6 +43,7 @@ class PlannerApp(App):
         Binding("p", "step_night(-1)", "prev"),
         Binding("question_mark", "help", "help", key_display="?"),
         Binding("q", "quit", "quit", priority=True),
+        Binding("ctrl+c", "quit", "quit", show=False, priority=True),  # as terminal users expect (ssh too)
     ]
 
     night = reactive(None, init=False)  # dt.date shown

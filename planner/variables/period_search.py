@@ -125,17 +125,22 @@ def _power_block(prep: _Prepared, rows: slice | np.ndarray, freq: np.ndarray, nt
 
 
 def _power(prep: _Prepared, rows: np.ndarray, freq: np.ndarray, nterms: int, max_elements=2_000_000):
-    """Power for ``rows`` in chunks of stars that keep the trig tables small."""
+    """Power for ``rows`` in blocks of stars × frequencies that keep the trig tables and the
+    sums near ``max_elements`` each: a ten-year baseline has 10⁵ frequencies × 10⁴ times,
+    which as one table is 10⁹ values (12 GiB once the recurrences run)."""
     n_times = prep.w.shape[1]
     n_freq = freq.shape[-1]
     shared = freq.ndim == 1 and prep.t.ndim == 1
-    per_star = 1 if shared else n_freq * n_times
+    # Frequencies per block: the (F, T) table, and with shared times the (S, F) sums, bounded.
+    f_step = max(1, max_elements // max(n_times, len(rows) if shared else 1, 1))
+    per_star = 1 if shared else min(f_step, n_freq) * n_times
     step = max(1, len(rows)) if shared else max(1, max_elements // per_star)
     out = np.empty((len(rows), n_freq))
     for start in range(0, len(rows), step):  # chunks of stars, not single stars
         sel = rows[start : start + step]
-        f = freq if freq.ndim == 1 else freq[start : start + step]
-        out[start : start + step] = _power_block(prep, sel, f, nterms)
+        for f0 in range(0, n_freq, f_step):
+            f = freq[f0 : f0 + f_step] if freq.ndim == 1 else freq[start : start + step, f0 : f0 + f_step]
+            out[start : start + step, f0 : f0 + f_step] = _power_block(prep, sel, f, nterms)
     too_few = prep.n_valid[rows] < 2 * nterms + 2
     out[too_few] = np.nan
     return out
@@ -182,6 +187,16 @@ def coarse_frequency_step(baseline_d: float, oversample: float = 5.0) -> float:
     points per width (5–10 is VanderPlas 2018, ApJS 236, 16, §7.1) cannot step over it.
     """
     return 1.0 / (oversample * max(baseline_d, 1e-3))
+
+
+def coarse_search_terms(times_d, n_stars: int, min_period_d: float = 0.2, max_period_d: float = 1.0,
+                        oversample: float = 5.0) -> float:
+    """Stars × coarse frequencies × times: the work of :func:`recover_periods`' first step,
+    which dominates its running time (about 4·10⁻⁹ s a term on one core, measured)."""
+    t = np.asarray(times_d, dtype=float)
+    baseline = float(np.nanmax(t) - np.nanmin(t)) if np.isfinite(t).any() else 1.0
+    n_freq = (1.0 / min_period_d - 1.0 / max_period_d) / coarse_frequency_step(baseline, oversample) + 1
+    return float(n_stars) * n_freq * t.shape[-1]
 
 
 def recover_periods(
