@@ -104,6 +104,8 @@ MAX_SEARCH_TERMS = 3e10
 
 
 def _check_search_size(population, args) -> None:
+    import numpy as np
+
     from planner.inputs.variable_files import VariablesOptionError
     from planner.variables.period_search import coarse_search_terms
 
