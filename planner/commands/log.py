@@ -255,11 +255,16 @@ def run_list(args) -> int:
     from planner.reports.nightlog_json import entry_json
     from planner.sky.nights import iso_utc
 
+    from planner.reports.nightlog_json import event_json
+
     with open_logbook(args) as book:
         site, entries = _selected_entries(args, book)
+        span = night_bounds(site, common.parse_night_date(args.night, "--night")) if args.night else (None, None)
+        events = book.events(*span)
     if args.json:
         common.print_json({"logbook": str(book.path), "night": args.night,
-                           "entries": [entry_json(e) for e in entries]})
+                           "entries": [entry_json(e) for e in entries],
+                           "events": [event_json(e) for e in events]})
         return 0
     if args.night and site is None:
         common.warn_all(["no site known: the night is taken as noon to noon UTC"])
