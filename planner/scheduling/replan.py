@@ -91,20 +91,23 @@ class ReplanResult:
 
 def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(), logged=(),
                  seeing_arcsec: float | None = None, key=normalize_name, logged_closed=(),
-                 assume_done: bool = False, used_ids=(), skipped=()) -> ReplanResult:
+                 assume_done: bool = False, used_ids=(), skipped=(), base=None) -> ReplanResult:
     """The night's plan, with everything from ``now_jd`` on planned again (see the module docstring).
 
     ``done``: visit ids (or target names) the observer gives as taken; ``logged``: the
     night's log entries (``id``, ``target``, ``filter``, ``exposure_s``, ``frames``,
     ``time_jd``), target names compared by ``key``; ``closed`` and ``logged_closed``:
     closed periods given by the observer and read from the logbook; ``skipped``: visit
-    ids the observer gives as not taken.
+    ids the observer gives as not taken; ``base``: the plan followed so far when it is not
+    the campaign's (an earlier re-plan the observer accepted), else the campaign's plan.
     """
     from planner.scheduling.campaign import add_spare_work, goal_exposures, is_fill, plan_through_night
     from planner.scheduling.campaign_nights import gaps_with_reasons
 
     planned_seeing = campaign.seeing_arcsec or campaign.site.sky.typical_seeing_arcsec
     original, requests, covered = plan_through_night(campaign, night)
+    if base is not None:
+        original = base
     closed = tuple(sorted(tuple(closed) + tuple(logged_closed)))
     past, evidence = _past_statuses(original, now_jd, closed, logged_closed, done, logged, key, assume_done,
                                     skipped)

@@ -1,155 +1,688 @@
-"""The app: holds the campaign, the night shown and the clock; computes nights in a worker.
+"""The app: holds the campaign, the night shown, the clock and the logbook's account; acts.
 
-App-wide keys live here; each screen has its own.  The night's data is computed
-off the UI thread (``@work(thread=True, exclusive=True)``) and posted back with
-``call_from_thread``; a result for a night no longer asked for is dropped.
+Slow work runs in worker threads (``@work(thread=True, exclusive=True)``): the
+night's plan, the logbook's re-read, a re-plan, phase coverage, the PDF.  Each
+result says which night (and which request) it answers; one for a night or a
+request no longer wanted is dropped.  The header shows ``◌`` and what is being
+computed meanwhile.  Logbook writes are made on the spot, each its own
+committed transaction: quitting at any moment loses nothing already logged.
 """
 
 from __future__ import annotations
 
 import datetime as dt
 import math
+from pathlib import Path
 
 from textual import work
-from textual.app import App
+from textual.app import App, SystemCommand
 from textual.binding import Binding
-from textual.reactive import reactive
 
 from planner.errors import InputError
-from planner.sky.nights import datetime_to_jd
+from planner.sky.nights import datetime_to_jd, local_hhmm
 from planner.tui.clock import Clock, system_clock
-from planner.tui.night_data import NightData, campaign_night_data
+from planner.tui.screens.dialogs import AskScreen, ExposureScreen, ReplanScreen
 from planner.tui.screens.help import HelpScreen
+from planner.tui.screens.night_screen import NightScreen
+from planner.tui.screens.phases import PhaseScreen
 from planner.tui.screens.plan import PlanScreen
 from planner.tui.screens.tonight import TonightScreen
 
-#: How often the clock is read, seconds: the marks move at most a minute late.
-TICK_S = 20.0
-
-SCREEN_NAMES = ("tonight", "plan")
+#: How often the clock is read, seconds: the marks move at most this late.
+TICK_S = 10.0
+SCREEN_NAMES = ("plan", "tonight", "phases")
 
 
 class PlannerApp(App):
-    """gcplan in the terminal: ``tonight`` and ``plan`` screens over one campaign."""
+    """gcplan in the terminal: the plan (act on it), the sky now, phase coverage, over one campaign."""
 
     CSS_PATH = "app.tcss"
     TITLE = "gcplan"
-    ENABLE_COMMAND_PALETTE = False  # every action has its key; keep the footer for them
     BINDINGS = [
-        Binding("1", "show('tonight')", "tonight"),
-        Binding("2", "show('plan')", "plan"),
-        Binding("tab", "other_screen", "switch", show=False, priority=True),
-        Binding("n", "step_night(1)", "next"),
-        Binding("p", "step_night(-1)", "prev"),
-        Binding("question_mark", "help", "help", key_display="?"),
-        Binding("q", "quit", "quit", priority=True),
+        Binding("q", "quit", "quit", show=False),
+        Binding("ctrl+c", "quit", "quit", show=False, priority=True),
     ]
 
-    night = reactive(None, init=False)  # dt.date shown
-    now_jd: reactive[float] = reactive(math.nan, init=False)
-    data = reactive(None, init=False)  # NightData of ``night`` once computed
-    busy: reactive[bool] = reactive(False, init=False)
-    note: reactive[str] = reactive("", init=False)
-
-    def __init__(self, campaign, night: dt.date | None = None, clock: Clock = system_clock,
-                 seeing_arcsec: float | None = None, tick_s: float = TICK_S) -> None:
+    def __init__(self, campaign=None, night: dt.date | None = None, clock: Clock = system_clock,
+                 seeing_arcsec: float | None = None, tick_s: float = TICK_S,
+                 campaign_path: str | Path | None = None) -> None:
         super().__init__()
         self.campaign = campaign
-        self._first_night = night or campaign.nights[0]
+        self.campaign_path = campaign_path
+        self.asked_night = night
         self.clock = clock
         self.seeing_arcsec = seeing_arcsec
         self.tick_s = tick_s
-        self._nights: dict[dt.date, NightData] = {}  # computed nights, kept for n/p back and forth
+        self.night: dt.date | None = None
+        self.now_jd = math.nan
+        self.data = None  # NightData of ``night`` once computed
+        self.sky = None  # SkyNow at now (or the night's middle on another night)
+        self.record = None  # NightRecord of ``night``
+        self.states: dict[str, str] = {}
+        self.phase_table = None
+        self.key = None  # the catalog's name key
+        self.message = ""
+        self.load_error = ""
+        self._nights: dict = {}  # night → NightData
+        self._plans: dict = {}  # night → the plan followed (an accepted re-plan replaces the campaign's)
+        self._busy: dict[str, int] = {}
+        self._replan = None  # (gen, night, result) of the re-plan on show
+        self._replan_gen = 0
+        self._replan_screen = None
 
     # ------------------------------------------------------------ start, clock
 
     def on_mount(self) -> None:
-        self.install_screen(TonightScreen(), "tonight")
-        self.install_screen(PlanScreen(), "plan")
-        self.push_screen("tonight")
+        for name, screen in zip(SCREEN_NAMES, (PlanScreen(), TonightScreen(), PhaseScreen())):
+            self.install_screen(screen, name)
+        self.push_screen("plan")
         self.read_clock()
-        self.set_interval(self.tick_s, self.read_clock)
-        self.night = self._first_night
+        self.set_interval(self.tick_s, self.tick)
+        if self.campaign is None:
+            self.load_campaign()
+        else:
+            self._start()
+
+    @work(thread=True, exclusive=True, group="campaign")
+    def load_campaign(self) -> None:
+        from planner.inputs.campaign_file import read_campaign_file
+
+        self.call_from_thread(self._set_busy, "reading the campaign", 1)
+        try:
+            campaign = read_campaign_file(self.campaign_path)
+        except InputError as exc:
+            self.call_from_thread(self._campaign_failed, f"error: {exc}")
+            return
+        except Exception as exc:  # noqa: BLE001 - the app shows it, never a traceback
+            self.call_from_thread(self._campaign_failed, f"error: {self.campaign_path}: {exc}")
+            return
+        finally:
+            self.call_from_thread(self._set_busy, "reading the campaign", -1)
+        self.call_from_thread(self._campaign_ready, campaign)
+
+    def _campaign_failed(self, text: str) -> None:
+        self.load_error = text
+        self.message = "the campaign could not be read: fix the file and start again (q quits)"
+        self.show_all()
+
+    def _campaign_ready(self, campaign) -> None:
+        self.campaign = campaign
+        self._start()
+
+    def _start(self) -> None:
+        from planner.tui.night_data import night_for_moment
+
+        if self.asked_night is not None:
+            self.set_night(self.asked_night)
+            return
+        night, note = night_for_moment(self.campaign, self.clock())
+        self.message = note
+        self.set_night(night)
 
     def read_clock(self) -> None:
         self.now_jd = datetime_to_jd(self.clock())
 
-    def _screens(self):
-        return [self.get_screen(name) for name in SCREEN_NAMES]
+    def tick(self) -> None:
+        """The clock moved: the sky, the states and the marks follow; the logbook is read again
+        (frames ingested beside the app appear)."""
+        self.read_clock()
+        self._update_sky()
+        self._update_states()
+        screen = self.screen
+        if isinstance(screen, NightScreen):
+            screen.tick()
+        if self.night is not None:
+            self.load_record(self.night)
 
-    def _share(self, name: str, value) -> None:
-        for screen in self._screens():
-            setattr(screen, name, value)
+    # ------------------------------------------------------------ busy mark
 
-    def watch_now_jd(self, value: float) -> None:
-        self._share("now_jd", value)
+    def _set_busy(self, label: str, step: int) -> None:
+        n = self._busy.get(label, 0) + step
+        if n > 0:
+            self._busy[label] = n
+        else:
+            self._busy.pop(label, None)
+        screen = self.screen
+        if isinstance(screen, NightScreen) and screen._ready:
+            screen.set_header()
 
-    def watch_data(self, value) -> None:
-        self._share("data", value)
-
-    def watch_busy(self, value: bool) -> None:
-        self._share("busy", value)
-
-    def watch_note(self, value: str) -> None:
-        self._share("note", value)
+    @property
+    def busy_text(self) -> str:
+        return ", ".join(self._busy)
 
     # ------------------------------------------------------------ the night
 
-    def watch_night(self, night: dt.date) -> None:
-        self.note = ""
-        if night in self._nights:
-            self.busy = False
-            self.data = self._nights[night]
-            return
-        self.busy = True
-        self.load_night(night)
+    @property
+    def plan(self):
+        return self._plans.get(self.night, self.data.plan if self.data is not None else None)
+
+    @property
+    def next_visit_id(self) -> str | None:
+        from planner.tui.night_state import next_visit
+
+        v = next_visit(self.plan, self.now_jd)
+        return v.id if v is not None else None
+
+    def set_night(self, night: dt.date) -> None:
+        from planner.logbook.night_record import NightRecord
+
+        self.night = night
+        self.data = self._nights.get(night)
+        self.record = NightRecord(Path(""), False)
+        self.phase_table = None
+        self._update_sky()
+        self._update_states()
+        self.show_all()
+        if self.data is None:
+            self.load_night(night)
+        self.load_record(night)
 
     @work(thread=True, exclusive=True, group="night")
     def load_night(self, night: dt.date) -> None:
         """Almanac, windows and plan of ``night``, computed off the UI thread."""
+        from planner.tui.night_data import campaign_night_data, catalog_key
+
+        self.call_from_thread(self._set_busy, "planning the night", 1)
         try:
             data = campaign_night_data(self.campaign, night, self.seeing_arcsec)
-        except InputError as exc:
-            self.call_from_thread(self._night_failed, night, str(exc))
+            key = self.key or catalog_key()
+        except Exception as exc:  # noqa: BLE001 - shown in the app, never as a traceback
+            self.call_from_thread(self._night_failed, night, str(exc) or type(exc).__name__)
             return
-        self.call_from_thread(self._night_ready, data)
+        finally:
+            self.call_from_thread(self._set_busy, "planning the night", -1)
+        self.call_from_thread(self._night_ready, data, key)
 
-    def _night_ready(self, data: NightData) -> None:
+    def _night_ready(self, data, key) -> None:
         self._nights[data.night] = data
+        self.key = key
         if data.night != self.night:  # the observer has moved on: stale
             return
-        self.busy = False
         self.data = data
+        self._update_sky()
+        self._update_states()
+        self.show_all()
 
     def _night_failed(self, night: dt.date, message: str) -> None:
         if night == self.night:
-            self.busy = False
-            self.note = f"error: {message}"
+            self.load_error = f"error: {message}"
+            self.show_all()
 
-    # ------------------------------------------------------------ keys
+    @work(thread=True, exclusive=True, group="record")
+    def load_record(self, night: dt.date) -> None:
+        """The logbook's account of ``night``, read off the UI thread."""
+        try:
+            record = self._read_record(night)
+        except Exception as exc:  # noqa: BLE001 - an unreadable logbook is said, not raised
+            self.call_from_thread(self.say, f"✗ the logbook: {exc}")
+            return
+        self.call_from_thread(self._record_ready, night, record)
+
+    def _read_record(self, night):
+        from planner.logbook.night_record import read_night_record
+        from planner.tui.log_actions import logbook_path
+
+        return read_night_record(logbook_path(self.campaign), night, self.campaign.site.location.timezone)
+
+    def _record_ready(self, night, record) -> None:
+        if night != self.night:
+            return
+        old = self.record
+        same = (old is not None and old.exists == record.exists
+                and [e.id for e in old.frames] == [e.id for e in record.frames]
+                and [e.id for e in old.events] == [e.id for e in record.events])
+        self.record = record
+        if not same:
+            self._update_states()
+            self.show_all()
+            if isinstance(self.screen, PhaseScreen):
+                self.load_phases()
+
+    def reread_record(self) -> None:
+        """After a write: the logbook's account at once (a small read), so the screen shows it."""
+        try:
+            self._record_ready(self.night, self._read_record(self.night))
+        except Exception as exc:  # noqa: BLE001
+            self.say(f"✗ the logbook: {exc}")
+
+    def _moment_for_sky(self) -> float:
+        """Now, on the clock's night; else the middle of the shown night's dark window."""
+        from planner.logbook.night_record import night_span_jd
+
+        run = self.data.run
+        a, b = night_span_jd(self.night, run.site.location.timezone)
+        if a <= self.now_jd < b:
+            return self.now_jd
+        s, e = run.visibility.dark_start_jd[0], run.visibility.dark_end_jd[0]
+        return (s + e) / 2 if math.isfinite(s) else (a + b) / 2
+
+    def _update_sky(self) -> None:
+        from planner.sky.sky_now import sky_now
+
+        if self.data is None or not math.isfinite(self.now_jd):
+            self.sky = None
+            return
+        run = self.data.run
+        end = run.visibility.dark_end_jd[0]
+        jd = self._moment_for_sky()
+        self.sky = sky_now(run, self.data.places, jd, end if math.isfinite(end) else jd)
+
+    def _update_states(self) -> None:
+        from planner.tui.night_state import visit_states
+
+        plan = self.plan
+        if plan is None or self.record is None or self.key is None:
+            self.states = {v.id: "planned" for v in plan.visits} if plan is not None else {}
+            return
+        self.states = visit_states(plan, self.record, self.now_jd, self.key)
+
+    def show_all(self) -> None:
+        screen = self.screen
+        if isinstance(screen, NightScreen):
+            screen.show_night()
+
+    def say(self, text: str) -> None:
+        self.message = text
+        screen = self.screen
+        if isinstance(screen, NightScreen):
+            screen.set_message(text)
+
+    # ------------------------------------------------------------ the chosen visit
+
+    def chosen_visit(self):
+        """The visit the cursor is on (plan screen), else the one under way."""
+        plan = self.plan
+        if plan is None:
+            return None
+        screen = self.get_screen("plan")
+        vid = screen.chosen_id() if screen._ready else None
+        if vid is None or not isinstance(self.screen, PlanScreen):
+            current = next((v for v in plan.visits if v.start_jd <= self.now_jd < v.end_jd), None)
+            return current if current is not None else next(
+                (v for v in plan.visits if v.id == vid), None)
+        return next((v for v in plan.visits if v.id == vid), None)
+
+    def _ready_to_log(self) -> bool:
+        if self.campaign is None or self.night is None:
+            self.say("✗ no campaign is open")
+            return False
+        return True
+
+    def _logged(self, text: str) -> None:
+        self.reread_record()
+        self.say(f"{text} — logged {local_hhmm(self.now_jd, self.campaign.site.location.timezone)}")
+
+    def _log_failed(self, exc: Exception) -> None:
+        self.say(f"✗ not logged: {exc}")
+
+    # ------------------------------------------------------------ actions: log
+
+    def action_mark(self, status: str) -> None:
+        from planner.tui import log_actions
+        from planner.tui.night_state import mark_problem
+
+        if not self._ready_to_log():
+            return
+        self.read_clock()
+        v = self.chosen_visit()
+        problem = mark_problem(v, self.now_jd, status) if status != "planned" else (
+            None if v is not None else "choose a visit first (↑ ↓ on the plan)")
+        if problem:
+            self.say(f"✗ {problem}")
+            return
+        try:
+            log_actions.add_mark(self.campaign, self.night, v, status, self.now_jd)
+        except (InputError, OSError) as exc:
+            self._log_failed(exc)
+            return
+        word = {"done": "✓ done", "skipped": "✗ skipped", "planned": "mark taken back:"}[status]
+        self._logged(f"{word} {v.id}")
+
+    def action_partial(self) -> None:
+        from planner.tui import log_actions
+        from planner.tui.night_state import frames_problem, mark_problem
+
+        if not self._ready_to_log():
+            return
+        self.read_clock()
+        v = self.chosen_visit()
+        problem = mark_problem(v, self.now_jd, "partial")
+        total = sum(int(e.frames) for e in v.exposures) if v is not None else 0
+        if not problem and total < 2:
+            problem = f"{v.id} has one frame: mark it done (d) or skip it (s)"
+        if problem:
+            self.say(f"✗ {problem}")
+            return
+
+        def answered(text: str | None) -> None:
+            if text is None:
+                return
+            n, _ = frames_problem(text, total)
+            try:
+                log_actions.add_partial(self.campaign, self.night, v, n, self.now_jd, self.key)
+            except (InputError, OSError) as exc:
+                self._log_failed(exc)
+                return
+            self._logged(f"½ partial {v.id}: {n} of {total} frames")
+
+        self.push_screen(AskScreen(f"Partial: {v.id} {v.target}",
+                                   f"frames taken so far, of its {total} (the rest are owed):",
+                                   check=lambda t: frames_problem(t, total)[1], placeholder="e.g. 2"), answered)
+
+    def action_note(self) -> None:
+        from planner.tui import log_actions
+
+        if not self._ready_to_log():
+            return
+
+        def answered(text: str | None) -> None:
+            if text is None:
+                return
+            self.read_clock()
+            try:
+                log_actions.add_note(self.campaign, self.now_jd, text)
+            except (InputError, OSError) as exc:
+                self._log_failed(exc)
+                return
+            self._logged("note")
+
+        self.push_screen(AskScreen("Note to the log", "what happened (written with the time now):",
+                                   check=lambda t: None if t.strip() else "a note needs some words",
+                                   placeholder="e.g. cirrus from the west"), answered)
+
+    def action_weather(self) -> None:
+        closed = self.record is not None and self.record.closed_now
+        self.action_dome("open" if closed else "closed")
+
+    def action_dome(self, state: str) -> None:
+        from planner.tui import log_actions
+
+        if not self._ready_to_log():
+            return
+        self.read_clock()
+        try:
+            log_actions.add_weather(self.campaign, self.now_jd, state, f"dome {state} (weather)")
+        except (InputError, OSError) as exc:
+            self._log_failed(exc)
+            return
+        hint = " · r re-plans the rest" if state == "open" else " · w when it opens"
+        self._logged(f"dome {state} for weather{hint}")
+
+    # ------------------------------------------------------------ re-plan
+
+    def action_replan(self) -> None:
+        if self.plan is None or self.data is None:
+            self.say("✗ no plan to re-plan on this night")
+            return
+        seeing = self.plan.seeing_arcsec
+        self._replan_screen = ReplanScreen(seeing, self.start_replan)
+        self.push_screen(self._replan_screen, self._replan_closed)
+
+    def start_replan(self, seeing: float) -> None:
+        self._replan_gen += 1
+        self._replan = None
+        self.read_clock()
+        self.compute_replan(self._replan_gen, self.night, self.now_jd, seeing)
+
+    @work(thread=True, exclusive=True, group="replan")
+    def compute_replan(self, gen: int, night: dt.date, now_jd: float, seeing: float) -> None:
+        from planner.scheduling.plan_diff import diff_plans
+        from planner.scheduling.replan import replan_night
+
+        self.call_from_thread(self._set_busy, "re-planning", 1)
+        try:
+            record = self._read_record(night)
+            base = self._plans.get(night)
+            used = set(record.recorded_ids) | ({v.id for v in base.visits} if base is not None else set())
+            result = replan_night(self.campaign, night, now_jd, done=record.ids_marked("done"), logged=record.frames,
+                                  seeing_arcsec=seeing, key=self.key, logged_closed=record.closed,
+                                  used_ids=used, skipped=record.ids_marked("skipped"), base=base)
+            current = base if base is not None else result.original
+            diff = diff_plans(current.visits, result.plan.visits, now_jd)
+        except Exception as exc:  # noqa: BLE001 - shown in the box, never as a traceback
+            self.call_from_thread(self._replan_failed, gen, str(exc) or type(exc).__name__)
+            return
+        finally:
+            self.call_from_thread(self._set_busy, "re-planning", -1)
+        self.call_from_thread(self._replan_ready, gen, night, result, diff)
+
+    def _replan_ready(self, gen, night, result, diff) -> None:
+        from planner.tui.replan_text import changes_text
+
+        if gen != self._replan_gen or night != self.night or self._replan_screen is None:
+            return  # stale: another re-plan was asked for, or the box is closed
+        self._replan = (gen, night, result)
+        zone = self.campaign.site.location.timezone
+        self._replan_screen.show_changes(changes_text(result, diff, zone), bool(result.reasons))
+
+    def _replan_failed(self, gen, text) -> None:
+        if gen == self._replan_gen and self._replan_screen is not None:
+            self._replan_screen.show_failure(text)
+
+    def _replan_closed(self, accepted: bool | None) -> None:
+        from planner.tui import log_actions
+
+        self._replan_screen = None
+        replan, self._replan = self._replan, None
+        self._replan_gen += 1  # anything still computing is stale now
+        if not accepted or replan is None or replan[1] != self.night:
+            self.say("the plan stands as it was")
+            return
+        _, night, result = replan
+        self._plans[night] = result.plan
+        zone = self.campaign.site.location.timezone
+        try:
+            log_actions.record_plan(self.campaign, night, result.plan)
+            log_actions.add_note(self.campaign, result.now_jd,
+                                 f"re-planned from {local_hhmm(result.now_jd, zone)}: " + "; ".join(result.reasons))
+        except (InputError, OSError) as exc:
+            self._log_failed(exc)
+        self._update_states()
+        self.phase_table = None
+        self.show_all()
+        self.reread_record()
+        self.say(f"re-plan accepted: {len(result.plan.visits)} visits from {local_hhmm(result.now_jd, zone)}")
+        screen = self.get_screen("plan")
+        if screen._ready:
+            screen.to_current()
+
+    # ------------------------------------------------------------ exposure check
+
+    def action_exposure(self) -> None:
+        if self.campaign is None or self.data is None:
+            self.say("✗ the night is not computed yet")
+            return
+        v = self.chosen_visit()
+        target = v.target if v is not None else self.campaign.targets[0].name
+        filt = v.exposures[0].filter if v is not None and v.exposures else next(iter(self.campaign.site.filters))
+        level = v.purpose if v is not None and v.purpose in ("tip", "hb", "turnoff") else "hb"
+        seeing = self.plan.seeing_arcsec if self.plan is not None else self.campaign.site.sky.typical_seeing_arcsec
+        values = {"target": target, "filter": filt, "level": level, "snr": "100", "seeing": f"{seeing:g}"}
+        self.push_screen(ExposureScreen(values, self.exposure_answer))
+
+    def exposure_answer(self, fields: dict):
+        from planner.tui.night_state import check_exposure, parse_exposure_fields
+
+        run = self.data.run
+        want = self.key(fields["target"]) if self.key else fields["target"].strip()
+        k = next((i for i, t in enumerate(run.targets)
+                  if (self.key(t.name) if self.key else t.name) == want), None)
+        if k is None:
+            names = ", ".join(t.name for t in run.targets)
+            return [], "target", f"one of the campaign's targets: {names} (got {fields['target'].strip()!r})"
+        ask, field, hint = parse_exposure_fields(self.campaign, run.targets[k], fields["filter"], fields["level"],
+                                                 fields["snr"], fields["seeing"])
+        if ask is None:
+            return [], field, hint
+        self._update_sky()
+        s = self.sky
+        lines, why = check_exposure(self.campaign, ask, float(s.airmass[k]), s.moon_illumination,
+                                    float(s.moon_separation_deg[k]), s.moon_altitude_deg)
+        return (lines, None, None) if why is None else ([], None, why)
+
+    # ------------------------------------------------------------ phases
+
+    def load_phases(self) -> None:
+        if self.campaign is not None and self.data is not None and self.key is not None:
+            self.compute_phases(self.night, self.now_jd, self.plan)
+
+    @work(thread=True, exclusive=True, group="phases")
+    def compute_phases(self, night, now_jd, plan) -> None:
+        from planner.logbook.store import Logbook
+        from planner.tui.log_actions import logbook_path
+        from planner.tui.night_state import phase_table
+
+        self.call_from_thread(self._set_busy, "phase coverage", 1)
+        try:
+            path = logbook_path(self.campaign)
+            frames = []
+            if path.is_file():
+                with Logbook(path) as book:
+                    frames = book.entries()
+            table = phase_table(self.campaign, frames, plan, now_jd, self.key)
+        except Exception as exc:  # noqa: BLE001
+            self.call_from_thread(self.say, f"✗ phase coverage: {exc}")
+            return
+        finally:
+            self.call_from_thread(self._set_busy, "phase coverage", -1)
+        self.call_from_thread(self._phases_ready, night, table)
+
+    def _phases_ready(self, night, table) -> None:
+        if night != self.night:
+            return
+        self.phase_table = table
+        self.show_all()
+
+    # ------------------------------------------------------------ files
+
+    def action_write_sheet(self) -> None:
+        from planner.tui.log_actions import write_night_sheet
+
+        if self.plan is None:
+            self.say("✗ no plan on this night: no night sheet")
+            return
+        try:
+            path = write_night_sheet(self.campaign, self.plan, self.night)
+        except OSError as exc:
+            self.say(f"✗ night sheet not written: {exc}")
+            return
+        self.say(f"night sheet written: {path}")
+
+    def action_write_log(self) -> None:
+        if self.campaign is None or self.night is None:
+            return
+        self.write_log(self.night)
+
+    @work(thread=True, exclusive=True, group="output")
+    def write_log(self, night) -> None:
+        from planner.tui.log_actions import write_night_log
+
+        self.call_from_thread(self._set_busy, "writing the night log", 1)
+        try:
+            path = write_night_log(self.campaign, night)
+        except Exception as exc:  # noqa: BLE001
+            self.call_from_thread(self.say, f"✗ night log not written: {exc}")
+            return
+        finally:
+            self.call_from_thread(self._set_busy, "writing the night log", -1)
+        self.call_from_thread(self.say, f"night log written: {path}")
+
+    # ------------------------------------------------------------ moving about
 
     def action_show(self, name: str) -> None:
-        if self.screen is not self.get_screen(name) and not isinstance(self.screen, HelpScreen):
+        if self.screen is not self.get_screen(name):
             self.switch_screen(name)
 
     def action_other_screen(self) -> None:
-        if isinstance(self.screen, HelpScreen):
-            return
-        current = "plan" if self.screen is self.get_screen("plan") else "tonight"
-        self.switch_screen("tonight" if current == "plan" else "plan")
+        names = list(SCREEN_NAMES)
+        current = next((n for n in names if self.screen is self.get_screen(n)), names[0])
+        self.switch_screen(names[(names.index(current) + 1) % len(names)])
 
     def action_step_night(self, step: int) -> None:
         """The next or previous night: within the campaign by its list, else by a day."""
-        nights = self.campaign.nights
+        if self.campaign is None or self.night is None:
+            return
+        nights = list(self.campaign.nights)
         if self.night in nights:
             k = nights.index(self.night) + step
             if not 0 <= k < len(nights):
-                self.notify("the campaign's " + ("last" if step > 0 else "first") + " night", timeout=2)
+                self.say("the campaign's " + ("last" if step > 0 else "first") + " night")
                 return
-            self.night = nights[k]
+            night = nights[k]
         else:
-            self.night = self.night + dt.timedelta(days=step)
+            night = self.night + dt.timedelta(days=step)
+        self.message = ""
+        self.set_night(night)
+
+    def action_go_night(self) -> None:
+        if self.campaign is None:
+            return
+
+        def check(text: str) -> str | None:
+            try:
+                dt.date.fromisoformat(text.strip())
+            except ValueError:
+                return (f"a date YYYY-MM-DD, the night's local evening (got {text.strip()!r}); "
+                        f"the campaign runs {self.campaign.nights[0]} to {self.campaign.nights[-1]}")
+            return None
+
+        def answered(text: str | None) -> None:
+            if text:
+                self.message = ""
+                self.set_night(dt.date.fromisoformat(text.strip()))
+
+        self.push_screen(AskScreen("Go to a night", "the night's local evening date:", f"{self.night}", check),
+                         answered)
+
+    def action_tonight(self) -> None:
+        from planner.tui.night_data import night_for_moment
+
+        if self.campaign is None:
+            return
+        night, note = night_for_moment(self.campaign, self.clock())
+        self.message = note
+        self.set_night(night)
+
+    def action_to_current(self) -> None:
+        self.action_show("plan")
+        screen = self.get_screen("plan")
+        if screen._ready:
+            screen.to_current()
 
     def action_help(self) -> None:
         if not isinstance(self.screen, HelpScreen):
             self.push_screen(HelpScreen())
+
+    # ------------------------------------------------------------ the command palette
+
+    def get_system_commands(self, screen):
+        """Every action by name (ctrl+p); the key beside it in the help text."""
+        commands = [
+            ("Mark the chosen visit done", "d: the visit under way, or the one the cursor is on",
+             lambda: self.action_mark("done")),
+            ("Mark the chosen visit partial (frames taken)", "p: how many frames were taken; the rest are owed",
+             self.action_partial),
+            ("Skip the chosen visit", "s: not taken; a re-plan gives its request time again",
+             lambda: self.action_mark("skipped")),
+            ("Take back the mark of the chosen visit", "u", lambda: self.action_mark("planned")),
+            ("Add a note to the log", "n", self.action_note),
+            ("Dome closed for weather", "w toggles: closed now", lambda: self.action_dome("closed")),
+            ("Dome open again after weather", "w toggles: open now", lambda: self.action_dome("open")),
+            ("Replan the rest of the night from now", "r: seeing, then what changes; accept or keep",
+             self.action_replan),
+            ("Check an exposure under the sky now", "e: level or magnitude, S/N, seeing", self.action_exposure),
+            ("Write the night log (PDF)", "l: beside the campaign file", self.action_write_log),
+            ("Write the night sheet (text)", "o: beside the campaign file", self.action_write_sheet),
+            ("Show the plan", "1", lambda: self.action_show("plan")),
+            ("Show the sky now", "2", lambda: self.action_show("tonight")),
+            ("Show the phase coverage", "3", lambda: self.action_show("phases")),
+            ("Next night", "]", lambda: self.action_step_night(1)),
+            ("Previous night", "[", lambda: self.action_step_night(-1)),
+            ("Go to a night by date", "g", self.action_go_night),
+            ("Tonight: the night the clock is in", "t", self.action_tonight),
+            ("Back to the visit under way", "c", self.action_to_current),
+            ("Help: the keys", "?", self.action_help),
+            ("Quit", "q (everything logged is saved already)", self.exit),
+        ]
+        for title, help_text, callback in commands:
+            yield SystemCommand(title, help_text, callback)
