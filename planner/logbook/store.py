@@ -483,14 +483,14 @@ class Logbook:
         return {k: m for k, m in out.items() if m.status != "planned"}
 
     def events(self, start_jd: float | None = None, end_jd: float | None = None) -> list[NightEvent]:
-        """Notes, weather changes and visit marks in time order (ties: notes, weather, marks)."""
+        """Notes, weather changes and visit marks in time order (at one instant: weather, notes, marks)."""
         out = [NightEvent(f"note-{n.id}", n.time_jd, "note", n.text) for n in self.notes(start_jd, end_jd)]
         out += [NightEvent(f"weather-{w.id}", w.time_jd, w.state, w.note or f"dome {w.state}")
                 for w in self.weather(start_jd, end_jd)]
         out += [NightEvent(f"mark-{m.id}", m.time_jd, m.status,
                            f"{m.plan_id} {m.status}" + (f": {m.note}" if m.note else ""))
                 for m in self.visit_marks(start_jd, end_jd)]
-        order = {"note": 0, "closed": 1, "open": 1}
+        order = {"closed": 0, "open": 0, "note": 1}
         return sorted(out, key=lambda e: (e.time_jd, order.get(e.kind, 2)))
 
     def _between(self, sql: str, start_jd, end_jd):

@@ -120,14 +120,16 @@ class PlannerApp(App):
         self.set_night(night)
 
     def read_clock(self) -> None:
+        """The time now, and what follows from it (the sky, the visits' states): the header
+        and the marks always agree with the clock."""
         self.now_jd = datetime_to_jd(self.clock())
+        self._update_sky()
+        self._update_states()
 
     def tick(self) -> None:
         """The clock moved: the sky, the states and the marks follow; the logbook is read again
         (frames ingested beside the app appear)."""
         self.read_clock()
-        self._update_sky()
-        self._update_states()
         screen = self.screen
         if isinstance(screen, NightScreen):
             screen.tick()
@@ -662,13 +664,13 @@ class PlannerApp(App):
              lambda: self.action_mark("done")),
             ("Mark the chosen visit partial (frames taken)", "p: how many frames were taken; the rest are owed",
              self.action_partial),
-            ("Skip the chosen visit", "s: not taken; a re-plan gives its request time again",
+            ("Mark the chosen visit skipped", "s: not taken; a re-plan gives its request time again",
              lambda: self.action_mark("skipped")),
             ("Take back the mark of the chosen visit", "u", lambda: self.action_mark("planned")),
             ("Add a note to the log", "n", self.action_note),
             ("Dome closed for weather", "w toggles: closed now", lambda: self.action_dome("closed")),
             ("Dome open again after weather", "w toggles: open now", lambda: self.action_dome("open")),
-            ("Replan the rest of the night from now", "r: seeing, then what changes; accept or keep",
+            ("Make a replan of the rest of the night from now", "r: seeing, then what changes; accept or keep",
              self.action_replan),
             ("Check an exposure under the sky now", "e: level or magnitude, S/N, seeing", self.action_exposure),
             ("Write the night log (PDF)", "l: beside the campaign file", self.action_write_log),

@@ -3,6 +3,8 @@ re-plan says of the visits before now."""
 
 from __future__ import annotations
 
+import re
+
 from planner.sky.nights import local_hhmm
 
 
@@ -11,11 +13,14 @@ def changes_text(result, diff, zone: str, limit: int = 12) -> str:
     if not result.reasons:
         return "nothing changed since the plan was made: it stands as it is"
     c = diff.counts()
-    lines = ["because " + "; ".join(result.reasons),
+    # The core's reasons list the ids of the visits missed; the lines below say which.
+    reasons = [re.sub(r" \((?:[\w-]+, )*[\w-]+\)", "", r) for r in result.reasons]
+    lines = ["because " + "; ".join(reasons),
              f"moved {c['moved']} · dropped {c['dropped']} · added {c['added']} · kept {c['kept']}"]
-    if diff.past:
-        lines.append("before now: " + ", ".join(f"{vid} {status}" for vid, status in diff.past[:6])
-                     + (" …" if len(diff.past) > 6 else ""))
+    past = [(vid, status) for vid, status in diff.past if status != "unknown"]
+    if past:
+        lines.append("before now: " + ", ".join(f"{vid} {status}" for vid, status in past[:4])
+                     + (f" and {len(past) - 4} more" if len(past) > 4 else ""))
     shown = [ch for ch in diff.changes if ch.kind != "kept"]
     for ch in shown[:limit]:
         if ch.kind == "moved":

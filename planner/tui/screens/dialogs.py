@@ -30,7 +30,7 @@ class AskScreen(ModalScreen[str | None]):
         with Vertical(classes="dialog"):
             yield Static(self.title_text, classes="dialog-title")
             yield Static(self.prompt, classes="dialog-text")
-            yield Input(self.value, placeholder=self.placeholder, id="answer")
+            yield Input(self.value, placeholder=self.placeholder, id="answer", classes="field")
             yield Static("enter: keep it · esc: cancel", id="hint", classes="hint")
 
     def on_input_submitted(self, event: Input.Submitted) -> None:
@@ -102,7 +102,7 @@ class ReplanScreen(ModalScreen[bool]):
         with Vertical(classes="dialog wide"):
             yield Static("Re-plan the rest of the night from now", classes="dialog-title")
             yield Static("seeing now, arcsec (enter to re-plan):", classes="dialog-text")
-            yield Input(f"{self.seeing:g}", id="seeing")
+            yield Input(f"{self.seeing:g}", id="seeing", classes="field")
             yield Static("what the logbook says (done, closures, marks) is read as of now", id="hint", classes="hint")
             yield Static("", id="changes", classes="dialog-text changes")
 
