@@ -28,6 +28,12 @@ from planner.tui.screens.phases import PhaseScreen
 from planner.tui.screens.plan import PlanScreen
 from planner.tui.screens.tonight import TonightScreen
 
+#: The app's own dark theme: the command palette, the footer and the fields in the same dim,
+#: warm tones as app.tcss (no bright panel anywhere).
+NIGHT_THEME = dict(name="gcplan-night", primary="#c07a50", secondary="#9c5a4c", accent="#ffb347",
+                   warning="#e0905a", error="#ff8a65", success="#b0a060", foreground="#d9c1ab",
+                   background="#120b09", surface="#1b110d", panel="#2a1914", dark=True)
+
 #: How often the clock is read, seconds: the marks move at most this late.
 TICK_S = 10.0
 SCREEN_NAMES = ("plan", "tonight", "phases")
@@ -73,6 +79,10 @@ class PlannerApp(App):
     # ------------------------------------------------------------ start, clock
 
     def on_mount(self) -> None:
+        from textual.theme import Theme
+
+        self.register_theme(Theme(**NIGHT_THEME))
+        self.theme = "gcplan-night"
         for name, screen in zip(SCREEN_NAMES, (PlanScreen(), TonightScreen(), PhaseScreen())):
             self.install_screen(screen, name)
         self.push_screen("plan")

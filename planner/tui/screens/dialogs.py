@@ -10,7 +10,7 @@ from typing import Callable
 
 from textual.app import ComposeResult
 from textual.binding import Binding
-from textual.containers import Vertical
+from textual.containers import Horizontal, Vertical
 from textual.screen import ModalScreen
 from textual.widgets import Input, Static
 
@@ -61,8 +61,9 @@ class ExposureScreen(ModalScreen[None]):
             yield Static("Exposure check — under the sky now (Moon, airmass of the target now)",
                          classes="dialog-title")
             for name, label in self.FIELDS:
-                yield Static(label, classes="label")
-                yield Input(self.values.get(name, ""), id=f"f-{name}", classes="field")
+                with Horizontal(classes="field-row"):
+                    yield Static(label, classes="label")
+                    yield Input(self.values.get(name, ""), id=f"f-{name}", classes="field")
             yield Static("enter: compute · tab: next field · esc: close", id="hint", classes="hint")
             yield Static("", id="result", classes="dialog-text")
 
