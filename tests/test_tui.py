@@ -541,3 +541,20 @@ def test_app_command_starts_a_rehearsal_clock(monkeypatch):
     assert main(["app", "--now", "2027-01-07T03:00Z"]) == 0
     assert abs((seen["now"] - NOW).total_seconds()) < 5
     assert str(seen["path"]) == str(app_command.demo_campaign_path())
+
+
+@pytest.mark.slow
+def test_the_readme_picture_is_regenerated_by_its_script(tmp_path):
+    """tests/make_app_svg.py (which writes docs/app.svg) makes the picture of the app the README
+    shows: the plan at 80×24 with a visit done and one skipped."""
+    import importlib.util
+    from pathlib import Path
+
+    spec = importlib.util.spec_from_file_location("make_app_svg", Path(__file__).with_name("make_app_svg.py"))
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    out = module.make_svg(tmp_path / "app.svg")
+    svg = out.read_text(encoding="utf-8")
+    text = html.unescape(re.sub(r"<[^>]+>", "", svg)).replace("\xa0", " ")
+    assert "night Wed 2027-01-06" in text and "NOW" in text and "skipped" in text and "done" in text
+    assert (Path(__file__).parent.parent / "docs" / "app.svg").is_file()
