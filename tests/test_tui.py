@@ -558,3 +558,62 @@ def test_the_readme_picture_is_regenerated_by_its_script(tmp_path):
     text = html.unescape(re.sub(r"<[^>]+>", "", svg)).replace("\xa0", " ")
     assert "night Wed 2027-01-06" in text and "NOW" in text and "skipped" in text and "done" in text
     assert (Path(__file__).parent.parent / "docs" / "app.svg").is_file()
+
+
+def test_partial_frames_are_logged_as_entries_the_evidence_rule_counts(campaign_file, demo_plan):
+    """A visit of V 3 × 19 s marked partial with 2 frames: the logbook gets 2 frames of it
+    (manual entries inside its span) and the mark; the visit's state is the re-planner's
+    ``partial``, with one frame owed (planner.model.evidence)."""
+    from dataclasses import replace
+
+    from planner.logbook.night_record import read_night_record
+    from planner.model.evidence import match_visits
+    from planner.scheduling.visits import Exposure
+    from planner.tui import log_actions
+    from planner.tui.night_data import catalog_key
+    from planner.tui.night_state import visit_states
+
+    campaign = read_campaign_file(campaign_file)
+    visit = replace(under_way(demo_plan, NOW), exposures=(Exposure("V", 3, 19.0),))
+    plan = replace(demo_plan, visits=(visit,))
+    now_jd = datetime_to_jd(NOW)
+    ids = log_actions.add_partial(campaign, NIGHT, visit, 2, now_jd, catalog_key())
+    assert len(ids) == 1
+    record = read_night_record(campaign_file.with_name("logbook.sqlite"), NIGHT, campaign.site.location.timezone)
+    assert [(e.filter, e.frames, e.exposure_s) for e in record.frames] == [("V", 2, 19.0)]
+    assert record.ids_marked("partial") == (visit.id,)
+    assert visit_states(plan, record, now_jd + 0.01, catalog_key()) == {visit.id: "partial"}
+    evidence = match_visits([visit], record.frames, catalog_key())[visit.id]
+    assert evidence.status == "partial" and [(o.filter, o.frames) for o in evidence.owed] == [("V", 1)]
+
+
+def test_a_target_without_a_distance_gets_a_message_for_that_check_only(campaign_file):
+    """The hb level needs a distance: a target without one says so (naming no command-line
+    option); a magnitude typed instead still gives an answer."""
+    from planner.model.target import Target
+    from planner.tui.night_state import check_exposure, parse_exposure_fields
+
+    campaign = read_campaign_file(campaign_file)
+    bare = Target("Nameless", 10.0, -30.0)
+    ask, field, hint = parse_exposure_fields(campaign, bare, "V", "hb", "100", "1.2")
+    assert field is None
+    lines, why = check_exposure(campaign, ask, 1.2, 0.1, 90.0, -20.0)
+    assert lines == [] and "distance" in why and "--" not in why
+    ask, _, _ = parse_exposure_fields(campaign, bare, "V", "17.5", "100", "1.2")
+    lines, why = check_exposure(campaign, ask, 1.2, 0.1, 90.0, -20.0)
+    assert why is None and "S/N 100" in lines[0]
+    for fields, bad in ((("X", "hb", "100", "1"), "filter"), (("V", "hb", "lots", "1"), "snr"),
+                        (("V", "hb", "100", "0"), "seeing")):
+        assert parse_exposure_fields(campaign, bare, *fields)[1] == bad
+
+
+def test_ctrl_c_quits(campaign_file):
+    async def go():
+        app = make_app(campaign_file, SetClock(NOW))
+        async with app.run_test(size=(80, 24)) as pilot:
+            await settle(pilot)
+            await pilot.press("ctrl+c")
+            await pilot.pause()
+        return app
+
+    assert asyncio.run(go()).return_code == 0

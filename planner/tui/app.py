@@ -28,6 +28,23 @@ from planner.tui.screens.phases import PhaseScreen
 from planner.tui.screens.plan import PlanScreen
 from planner.tui.screens.tonight import TonightScreen
 
+def guarded(method):
+    """An action or a result handler that never lets an exception reach the screen as a
+    traceback: it is said on the message line, and the app carries on (what was logged
+    stays logged: every write is committed on its own)."""
+    import functools
+
+    @functools.wraps(method)
+    def run(self, *args, **kwargs):
+        try:
+            return method(self, *args, **kwargs)
+        except Exception as exc:  # noqa: BLE001 - the one place the app turns a fault into a line
+            self.say(f"✗ {type(exc).__name__}: {exc}")
+            return None
+
+    return run
+
+
 #: The app's own dark theme: the command palette, the footer and the fields in the same dim,
 #: warm tones as app.tcss (no bright panel anywhere).
 NIGHT_THEME = dict(name="gcplan-night", primary="#c07a50", secondary="#9c5a4c", accent="#ffb347",
@@ -115,6 +132,7 @@ class PlannerApp(App):
         self.message = "the campaign could not be read: fix the file and start again (q quits)"
         self.show_all()
 
+    @guarded
     def _campaign_ready(self, campaign) -> None:
         self.campaign = campaign
         self._start()
@@ -136,6 +154,7 @@ class PlannerApp(App):
         self._update_sky()
         self._update_states()
 
+    @guarded
     def tick(self) -> None:
         """The clock moved: the sky, the states and the marks follow; the logbook is read again
         (frames ingested beside the app appear)."""
@@ -205,6 +224,7 @@ class PlannerApp(App):
             self.call_from_thread(self._set_busy, "planning the night", -1)
         self.call_from_thread(self._night_ready, data, key)
 
+    @guarded
     def _night_ready(self, data, key) -> None:
         self._nights[data.night] = data
         self.key = key
@@ -236,6 +256,7 @@ class PlannerApp(App):
 
         return read_night_record(logbook_path(self.campaign), night, self.campaign.site.location.timezone)
 
+    @guarded
     def _record_ready(self, night, record) -> None:
         if night != self.night:
             return
@@ -293,6 +314,10 @@ class PlannerApp(App):
         if isinstance(screen, NightScreen):
             screen.show_night()
 
+    def _safe(self, callback):
+        """A dialog's callback, guarded as the actions are."""
+        return lambda *args: guarded(lambda app, *a: callback(*a))(self, *args)
+
     def say(self, text: str) -> None:
         self.message = text
         screen = self.screen
@@ -329,6 +354,7 @@ class PlannerApp(App):
 
     # ------------------------------------------------------------ actions: log
 
+    @guarded
     def action_mark(self, status: str) -> None:
         from planner.tui import log_actions
         from planner.tui.night_state import mark_problem
@@ -350,6 +376,7 @@ class PlannerApp(App):
         word = {"done": "✓ done", "skipped": "✗ skipped", "planned": "mark taken back:"}[status]
         self._logged(f"{word} {v.id}")
 
+    @guarded
     def action_partial(self) -> None:
         from planner.tui import log_actions
         from planner.tui.night_state import frames_problem, mark_problem
@@ -379,8 +406,9 @@ class PlannerApp(App):
 
         self.push_screen(AskScreen(f"Partial: {v.id} {v.target}",
                                    f"frames taken so far, of its {total} (the rest are owed):",
-                                   check=lambda t: frames_problem(t, total)[1], placeholder="e.g. 2"), answered)
+                                   check=lambda t: frames_problem(t, total)[1], placeholder="e.g. 2"), self._safe(answered))
 
+    @guarded
     def action_note(self) -> None:
         from planner.tui import log_actions
 
@@ -400,12 +428,14 @@ class PlannerApp(App):
 
         self.push_screen(AskScreen("Note to the log", "what happened (written with the time now):",
                                    check=lambda t: None if t.strip() else "a note needs some words",
-                                   placeholder="e.g. cirrus from the west"), answered)
+                                   placeholder="e.g. cirrus from the west"), self._safe(answered))
 
+    @guarded
     def action_weather(self) -> None:
         closed = self.record is not None and self.record.closed_now
         self.action_dome("open" if closed else "closed")
 
+    @guarded
     def action_dome(self, state: str) -> None:
         from planner.tui import log_actions
 
@@ -422,6 +452,7 @@ class PlannerApp(App):
 
     # ------------------------------------------------------------ re-plan
 
+    @guarded
     def action_replan(self) -> None:
         if self.plan is None or self.data is None:
             self.say("✗ no plan to re-plan on this night")
@@ -430,6 +461,7 @@ class PlannerApp(App):
         self._replan_screen = ReplanScreen(seeing, self.start_replan)
         self.push_screen(self._replan_screen, self._replan_closed)
 
+    @guarded
     def start_replan(self, seeing: float) -> None:
         self._replan_gen += 1
         self._replan = None
@@ -458,6 +490,7 @@ class PlannerApp(App):
             self.call_from_thread(self._set_busy, "re-planning", -1)
         self.call_from_thread(self._replan_ready, gen, night, result, diff)
 
+    @guarded
     def _replan_ready(self, gen, night, result, diff) -> None:
         from planner.tui.replan_text import changes_text
 
@@ -467,10 +500,12 @@ class PlannerApp(App):
         zone = self.campaign.site.location.timezone
         self._replan_screen.show_changes(changes_text(result, diff, zone), bool(result.reasons))
 
+    @guarded
     def _replan_failed(self, gen, text) -> None:
         if gen == self._replan_gen and self._replan_screen is not None:
             self._replan_screen.show_failure(text)
 
+    @guarded
     def _replan_closed(self, accepted: bool | None) -> None:
         from planner.tui import log_actions
 
@@ -500,6 +535,7 @@ class PlannerApp(App):
 
     # ------------------------------------------------------------ exposure check
 
+    @guarded
     def action_exposure(self) -> None:
         if self.campaign is None or self.data is None:
             self.say("✗ the night is not computed yet")
@@ -513,6 +549,12 @@ class PlannerApp(App):
         self.push_screen(ExposureScreen(values, self.exposure_answer))
 
     def exposure_answer(self, fields: dict):
+        try:
+            return self._exposure_answer(fields)
+        except Exception as exc:  # noqa: BLE001 - said in the box, never a traceback
+            return [], None, f"{type(exc).__name__}: {exc}"
+
+    def _exposure_answer(self, fields: dict):
         from planner.tui.night_state import check_exposure, parse_exposure_fields
 
         run = self.data.run
@@ -534,6 +576,7 @@ class PlannerApp(App):
 
     # ------------------------------------------------------------ phases
 
+    @guarded
     def load_phases(self) -> None:
         if self.campaign is not None and self.data is not None and self.key is not None:
             self.compute_phases(self.night, self.now_jd, self.plan)
@@ -559,6 +602,7 @@ class PlannerApp(App):
             self.call_from_thread(self._set_busy, "phase coverage", -1)
         self.call_from_thread(self._phases_ready, night, table)
 
+    @guarded
     def _phases_ready(self, night, table) -> None:
         if night != self.night:
             return
@@ -567,6 +611,7 @@ class PlannerApp(App):
 
     # ------------------------------------------------------------ files
 
+    @guarded
     def action_write_sheet(self) -> None:
         from planner.tui.log_actions import write_night_sheet
 
@@ -580,6 +625,7 @@ class PlannerApp(App):
             return
         self.say(f"night sheet written: {path}")
 
+    @guarded
     def action_write_log(self) -> None:
         if self.campaign is None or self.night is None:
             return
@@ -601,15 +647,18 @@ class PlannerApp(App):
 
     # ------------------------------------------------------------ moving about
 
+    @guarded
     def action_show(self, name: str) -> None:
         if self.screen is not self.get_screen(name):
             self.switch_screen(name)
 
+    @guarded
     def action_other_screen(self) -> None:
         names = list(SCREEN_NAMES)
         current = next((n for n in names if self.screen is self.get_screen(n)), names[0])
         self.switch_screen(names[(names.index(current) + 1) % len(names)])
 
+    @guarded
     def action_step_night(self, step: int) -> None:
         """The next or previous night: within the campaign by its list, else by a day."""
         if self.campaign is None or self.night is None:
@@ -626,6 +675,7 @@ class PlannerApp(App):
         self.message = ""
         self.set_night(night)
 
+    @guarded
     def action_go_night(self) -> None:
         if self.campaign is None:
             return
@@ -644,8 +694,9 @@ class PlannerApp(App):
                 self.set_night(dt.date.fromisoformat(text.strip()))
 
         self.push_screen(AskScreen("Go to a night", "the night's local evening date:", f"{self.night}", check),
-                         answered)
+                         self._safe(answered))
 
+    @guarded
     def action_tonight(self) -> None:
         from planner.tui.night_data import night_for_moment
 
@@ -655,6 +706,7 @@ class PlannerApp(App):
         self.message = note
         self.set_night(night)
 
+    @guarded
     def action_to_current(self) -> None:
         self.action_show("plan")
         screen = self.get_screen("plan")
