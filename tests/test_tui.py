@@ -331,6 +331,7 @@ def test_replan_refuses_a_nonsense_seeing_in_place(campaign_file):
     asyncio.run(go())
 
 
+@pytest.mark.slow
 def test_switch_night_and_back(campaign_file):
     async def go():
         app = make_app(campaign_file, SetClock(NOW))
@@ -449,6 +450,7 @@ def test_phase_screen_counts_logged_epochs(campaign_file):
 
 # --- the palette, help, quitting, bad input ------------------------------------------------
 
+@pytest.mark.slow
 def test_every_action_is_in_the_command_palette(campaign_file):
     async def go():
         app = make_app(campaign_file, SetClock(NOW))

@@ -211,12 +211,15 @@ class PlannerApp(App):
     @work(thread=True, exclusive=True, group="night")
     def load_night(self, night: dt.date) -> None:
         """Almanac, windows and plan of ``night``, computed off the UI thread."""
-        from planner.tui.night_data import campaign_night_data, catalog_key
+        from planner.tui.night_data import campaign_night_data, catalog_key, night_sky_data
 
         self.call_from_thread(self._set_busy, "planning the night", 1)
         try:
-            data = campaign_night_data(self.campaign, night, self.seeing_arcsec)
             key = self.key or catalog_key()
+            sky = night_sky_data(self.campaign, night)
+            # The sky first (header, Moon, what is up): useful while the plan is made.
+            self.call_from_thread(self._night_ready, sky, key)
+            data = campaign_night_data(self.campaign, night, self.seeing_arcsec, sky)
         except Exception as exc:  # noqa: BLE001 - shown in the app, never as a traceback
             self.call_from_thread(self._night_failed, night, str(exc) or type(exc).__name__)
             return
@@ -226,7 +229,8 @@ class PlannerApp(App):
 
     @guarded
     def _night_ready(self, data, key) -> None:
-        self._nights[data.night] = data
+        if not data.planning:
+            self._nights[data.night] = data
         self.key = key
         if data.night != self.night:  # the observer has moved on: stale
             return

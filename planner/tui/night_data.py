@@ -28,17 +28,29 @@ class NightData:
     places: object
     plan: object | None  # planner.scheduling.night_plan.NightPlan
     plan_note: str = ""
+    planning: bool = False  # the sky is known, the plan is still being made
 
 
-def campaign_night_data(campaign, night: dt.date, seeing_arcsec: float | None = None) -> NightData:
-    """Almanac, target windows, places and (for a campaign night) the plan of ``night``."""
-    from planner.scheduling.campaign import plan_campaign_night
+def night_sky_data(campaign, night: dt.date) -> NightData:
+    """The night's almanac, windows and places without its plan (shown while it is made)."""
     from planner.sky.nights import night_spans_jd
     from planner.sky.sky_now import night_places
 
     run = run_of_nights(campaign.site, list(campaign.targets), [night], campaign.constraints)
     s, e = night_spans_jd([night], campaign.site.location.timezone)
-    places = night_places(run, float(s[0]), float(e[0]))
+    planning = night in campaign.nights
+    return NightData(night, run, night_places(run, float(s[0]), float(e[0])), None,
+                     "planning the night…" if planning else "", planning)
+
+
+def campaign_night_data(campaign, night: dt.date, seeing_arcsec: float | None = None,
+                        sky: NightData | None = None) -> NightData:
+    """Almanac, target windows, places and (for a campaign night) the plan of ``night``
+    (``sky``: the night's :func:`night_sky_data`, if made already)."""
+    from planner.scheduling.campaign import plan_campaign_night
+
+    sky = sky or night_sky_data(campaign, night)
+    run, places = sky.run, sky.places
     if night not in campaign.nights:
         note = (f"{night} is not a night of this campaign "
                 f"({campaign.nights[0]} to {campaign.nights[-1]}): no plan")

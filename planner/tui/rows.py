@@ -154,7 +154,8 @@ def _target_index(run, name: str) -> int | None:
     return None
 
 
-def now_lines(plan, run, sky, states: dict, now_jd: float, width: int = LINE_WIDTH) -> list[str]:
+def now_lines(plan, run, sky, states: dict, now_jd: float, width: int = LINE_WIDTH,
+              no_plan: str = "no plan for this night") -> list[str]:
     """Three lines: the visit under way (or what the night is waiting for), the next visit
     and the Moon, and the night's end with the dome's state."""
     zone = run.site.location.timezone
@@ -172,7 +173,7 @@ def now_lines(plan, run, sky, states: dict, now_jd: float, width: int = LINE_WID
                  + ("" if state == "under way" else f" · {state}"))
         focus = current
     elif plan is None:
-        first, focus = "no plan for this night", None
+        first, focus = no_plan, None
     elif visits and now_jd < visits[0].start_jd:
         first, focus = f"the night's first visit at {local_hhmm(visits[0].start_jd, zone)}", visits[0]
     elif nxt is None:

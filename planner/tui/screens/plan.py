@@ -42,10 +42,12 @@ class PlanScreen(NightScreen):
             return
         w = self.width
         self.query_one("#plan-head", Static).update(plan_head(w))
-        self.query_one("#now", Static).update("\n".join(now_lines(plan, data.run, app.sky, app.states, app.now_jd, w)))
+        self.query_one("#now", Static).update("\n".join(now_lines(
+            plan, data.run, app.sky, app.states, app.now_jd, w,
+            "the plan is being made…" if data.planning else "no plan for this night")))
         if plan is None:
             self.query_one("#summary", Static).update(data.plan_note)
-            rows.show([], empty="no plan for this night")
+            rows.show([], empty="planning the night…" if data.planning else "no plan for this night")
             return
         self.query_one("#summary", Static).update(plan_summary(plan, app.states, w))
         nxt = app.next_visit_id
