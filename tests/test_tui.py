@@ -619,3 +619,28 @@ def test_ctrl_c_quits(campaign_file):
         return app
 
     assert asyncio.run(go()).return_code == 0
+
+
+@pytest.mark.slow
+def test_night_sheet_and_night_log_are_written_beside_the_campaign(campaign_file, demo_plan):
+    """o writes the night sheet the command line prints (night_sheet of the plan the app
+    holds); l writes the night log PDF of the logbook's night, with the note just made."""
+    from planner.reports.schedule_report import night_sheet
+
+    async def go():
+        app = make_app(campaign_file, SetClock(NOW))
+        async with app.run_test(size=(80, 24)) as pilot:
+            await settle(pilot)
+            await pilot.press("n", *"seeing 1.4", "enter", "o")
+            await pilot.pause()
+            assert "night sheet written" in screen_text(app)
+            await pilot.press("l")
+            await settle(pilot)
+            assert "night log written" in screen_text(app)
+            return app.campaign
+
+    campaign = asyncio.run(go())
+    sheet = campaign_file.with_name("night-2027-01-06-sheet.txt").read_text(encoding="utf-8")
+    assert sheet == night_sheet(campaign.site, demo_plan) + "\n"
+    pdf = campaign_file.with_name("night-2027-01-06-log.pdf").read_bytes()
+    assert pdf.startswith(b"%PDF")
