@@ -18,6 +18,7 @@ import html
 import json
 import re
 import shutil
+from pathlib import Path
 
 import pytest
 from rich.cells import cell_len
@@ -74,8 +75,9 @@ async def settle(pilot) -> None:
     for _ in range(400):
         await app.workers.wait_for_complete()
         await pilot.pause()
-        if (app.data is not None or app.load_error) and not app.busy_text and not any(
-                w.is_running for w in app.workers):
+        done = app.load_error or (app.data is not None and not app.data.planning and app.record is not None
+                                  and app.record.path != Path(""))
+        if done and not app.busy_text and not any(w.is_running or w.state.name == "PENDING" for w in app.workers):
             return
         await asyncio.sleep(0.02)
     raise AssertionError("the app did not settle")
