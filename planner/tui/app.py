@@ -172,9 +172,23 @@ class PlannerApp(NightActions, App):
         return self._plans.get(self.night, self.data.plan if self.data is not None else None)
 
     @property
+    def lst_deg(self) -> float:
+        """Local sidereal time now (the header's): the sky's own when it is of now, else the
+        mean sidereal time (Meeus 12.4; UT1 taken as UTC, < 1 s) at the site's longitude."""
+        if self.sky is not None and abs(self.sky.jd - self.now_jd) < 1e-6:
+            return self.sky.lst_deg
+        if self.campaign is None or not math.isfinite(self.now_jd):
+            return math.nan
+        from planner.sky.sidereal import gmst_deg
+
+        return float(gmst_deg(self.now_jd) + self.campaign.site.location.longitude_deg) % 360.0
+
+    @property
     def next_visit_id(self) -> str | None:
         from planner.tui.night_state import next_visit
 
+        if self.sky is not None and abs(self.sky.jd - self.now_jd) > 1e-6:
+            return None  # the clock is not in this night: nothing here is next
         v = next_visit(self.plan, self.now_jd)
         return v.id if v is not None else None
 
@@ -182,6 +196,7 @@ class PlannerApp(NightActions, App):
         from planner.logbook.night_record import NightRecord
 
         self.night = night
+        self.load_error = ""
         self.data = self._nights.get(night)
         self.record = NightRecord(Path(""), False)
         self.phase_table = None
@@ -348,12 +363,13 @@ class PlannerApp(NightActions, App):
             return
 
         def check(text: str) -> str | None:
+            from planner.sky.nights import night_out_of_range
+
             try:
-                dt.date.fromisoformat(text.strip())
+                return night_out_of_range(dt.date.fromisoformat(text.strip()))
             except ValueError:
                 return (f"a date YYYY-MM-DD, the night's local evening (got {text.strip()!r}); "
                         f"the campaign runs {self.campaign.nights[0]} to {self.campaign.nights[-1]}")
-            return None
 
         def answered(text: str | None) -> None:
             if text:

@@ -160,6 +160,8 @@ def now_lines(plan, run, sky, states: dict, now_jd: float, width: int = LINE_WID
     and the Moon, and the night's end with the dome's state."""
     zone = run.site.location.timezone
     visits = plan.visits if plan is not None else ()
+    if sky is not None and abs(sky.jd - now_jd) > 1e-6:  # another night than the clock's
+        return other_night_lines(plan, run, sky, width, no_plan)
     current = next((v for v in visits if v.start_jd <= now_jd < v.end_jd), None)
     nxt = next((v for v in visits if v.start_jd > now_jd), None)
     if current is not None:
@@ -196,11 +198,35 @@ def now_lines(plan, run, sky, states: dict, now_jd: float, width: int = LINE_WID
         else:
             moon = f"Moon down, {lit}"
         third.append(moon)
-    end = run.visibility.dark_end_jd[0]
-    if np.isfinite(end):
-        third.append(f"dark until {local_hhmm(end, zone)} ({hm((end - now_jd) * 1440)})" if now_jd < end
-                     else f"dark ended {local_hhmm(end, zone)}")
+    start, end = run.visibility.dark_start_jd[0], run.visibility.dark_end_jd[0]
+    if not np.isfinite(end):
+        third.append(f"no {run.constraints.twilight} darkness")
+    elif now_jd < start:
+        third.append(f"dark {local_hhmm(start, zone)}–{local_hhmm(end, zone)}, in {hm((start - now_jd) * 1440)}")
+    elif now_jd < end:
+        third.append(f"dark until {local_hhmm(end, zone)} ({hm((end - now_jd) * 1440)})")
+    else:
+        third.append(f"dark ended {local_hhmm(end, zone)}")
     return [clip(first, width), clip(second, width), clip(" · ".join(third), width)]
+
+
+def other_night_lines(plan, run, sky, width: int = LINE_WIDTH, no_plan: str = "") -> list[str]:
+    """The three lines for a night the clock is not in: nothing is under way there."""
+    zone = run.site.location.timezone
+    visits = plan.visits if plan is not None else ()
+    first = "not the clock's night: nothing under way (t: tonight)"
+    if visits:
+        second = (f"{len(visits)} visits, the first {local_hhmm(visits[0].start_jd, zone)} "
+                  f"{visits[0].id}, the last ending {local_hhmm(visits[-1].end_jd, zone)}")
+    else:
+        second = no_plan or "no visits"
+    start, end = run.visibility.dark_start_jd[0], run.visibility.dark_end_jd[0]
+    dark = (f"dark {local_hhmm(start, zone)}–{local_hhmm(end, zone)}" if np.isfinite(start)
+            else f"no {run.constraints.twilight} darkness")
+    moon = (f"Moon {'up ' + deg(sky.moon_altitude_deg) if sky.moon_altitude_deg > -0.833 else 'down'}, "
+            f"{sky.moon_illumination * 100:.0f}% lit")
+    return [clip(first, width), clip(second, width),
+            clip(f"{dark} · at {local_hhmm(sky.jd, zone)}: {moon}", width)]
 
 
 # --- what is up now -------------------------------------------------------------------

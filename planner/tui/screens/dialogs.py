@@ -18,7 +18,7 @@ from textual.widgets import Input, Static
 class AskScreen(ModalScreen[str | None]):
     """One line to type; ``check`` returns a hint when the answer will not do (None: fine)."""
 
-    BINDINGS = [Binding("escape", "dismiss(None)", "cancel")]
+    BINDINGS = [Binding("escape", "dismiss(None)", "cancel", priority=True)]
 
     def __init__(self, title: str, prompt: str, value: str = "", check: Callable[[str], str | None] | None = None,
                  placeholder: str = "") -> None:
@@ -48,7 +48,7 @@ class ExposureScreen(ModalScreen[None]):
 
     ``compute(fields)`` returns ``(lines, None, None)`` or ``([], field, hint)``."""
 
-    BINDINGS = [Binding("escape", "dismiss(None)", "close")]
+    BINDINGS = [Binding("escape", "dismiss(None)", "close", priority=True)]
     FIELDS = (("target", "target"), ("filter", "filter"), ("level", "level or mag"), ("snr", "S/N"),
               ("seeing", "seeing ″"))
 
@@ -91,7 +91,7 @@ class ExposureScreen(ModalScreen[None]):
 class ReplanScreen(ModalScreen[bool]):
     """Re-plan from now: the seeing to plan for, then what changes; a accepts, k keeps the old plan."""
 
-    BINDINGS = [Binding("escape", "keep", "keep the plan"), Binding("k", "keep", "keep", show=False),
+    BINDINGS = [Binding("escape", "keep", "keep the plan", priority=True), Binding("k", "keep", "keep", show=False),
                 Binding("a", "accept", "accept", show=False)]
 
     def __init__(self, seeing: float, start: Callable[[float], None]) -> None:

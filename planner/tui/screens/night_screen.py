@@ -69,7 +69,7 @@ class NightScreen(Screen):
         h.zone = app.campaign.site.location.timezone if app.campaign else "UTC"
         h.night = app.night
         h.now_jd = app.now_jd
-        h.lst_deg = app.sky.lst_deg if app.sky is not None else float("nan")
+        h.lst_deg = app.lst_deg
         h.busy = app.busy_text
 
     def set_message(self, text: str) -> None:

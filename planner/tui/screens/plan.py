@@ -59,8 +59,11 @@ class PlanScreen(NightScreen):
     def to_current(self) -> None:
         """The cursor to the visit under way, else the next one, else the last."""
         rows = self.query_one(RowList)
-        if not rows.move_to_kind("under-way", "next"):
-            rows.action_move(100000)
+        if rows.move_to_kind("under-way", "next"):
+            return
+        app = self.app
+        ended = app.plan is not None and app.now_jd >= app.plan.window_end_jd
+        rows.action_move(100000 if ended else -100000)  # a night over: its end; a night ahead: its start
 
     def chosen_id(self) -> str | None:
         row = self.query_one(RowList).current

@@ -29,7 +29,13 @@ class TonightScreen(NightScreen):
         app = self.app
         self.set_header()
         data = app.data
-        self.query_one("#message", Static).update(app.message or ("; ".join(data.run.warnings) if data else ""))
+        message = app.message or ("; ".join(data.run.warnings) if data else "")
+        if data is not None and app.sky is not None and abs(app.sky.jd - app.now_jd) > 1e-6:
+            from planner.sky.nights import local_hhmm
+
+            message = (f"the sky at {local_hhmm(app.sky.jd, data.run.site.location.timezone)}, mid-dark: "
+                       "the clock is in another night (t: tonight)")
+        self.query_one("#message", Static).update(message)
         if data is None or app.sky is None:
             self.query_one("#almanac", Static).update(app.load_error or "computing the night…")
             self.query_one(RowList).show([], empty="")
