@@ -150,3 +150,26 @@ def test_a_skipped_visit_is_missed_and_wants_time_again():
     assert result.reasons and current.id in result.reasons[0]
     assert any(v.request_key == current.request_key and v.start_jd >= now and v.status == "planned"
                for v in result.plan.visits)
+
+
+@pytest.mark.slow
+def test_a_visit_stopped_part_way_frees_its_time_and_owes_its_frames():
+    """The observer's partial mark on a visit still running (the app's p): the re-plan takes
+    it as stopped now, keeps the frames the logbook holds and plans the rest again."""
+    from planner.scheduling.campaign import plan_campaign_night
+    from planner.scheduling.replan import replan_night
+
+    campaign = read_campaign_file(targets_dir() / "demo" / "campaign.toml")
+    night = dt.date(2027, 1, 7)
+    plan, _ = plan_campaign_night(campaign, night)
+    visit = next(v for v in plan.visits if sum(e.frames for e in v.exposures) >= 2)
+    now = (visit.start_jd + visit.end_jd) / 2
+    first = visit.exposures[0]
+    frame = SimpleNamespace(id=1, time_jd=visit.science_start_jd, target=visit.target, filter=first.filter,
+                            exposure_s=first.exposure_s, frames=1)
+    result = replan_night(campaign, night, now, logged=[frame], stopped=[visit.id])
+    kept = next(v for v in result.plan.visits if v.id == visit.id)
+    assert (kept.status, kept.status_source) == ("partial", "observer") and kept.end_jd == pytest.approx(now)
+    owed = [v for v in result.plan.visits if v.request_key.endswith(f"owed by {visit.id}")]
+    assert len(owed) == 1 and sum(e.frames for e in owed[0].exposures) == sum(e.frames for e in visit.exposures) - 1
+    assert min(v.start_jd for v in result.plan.visits if v.status == "planned") < visit.end_jd

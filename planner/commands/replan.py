@@ -55,11 +55,12 @@ def run(args) -> int:
     closed = tuple(parse_closed(text, night, zone) for text in args.closed)
     record = read_logbook_night(campaign, night, args.logbook)
     note = record.note()
-    # The observer's marks in the logbook (the app's done and skip) count as --done does.
+    # The observer's marks in the logbook (the app's done, partial and skip) count as --done does.
     result = replan_night(campaign, night, now, closed=closed, done=tuple(args.done) + record.ids_marked("done"),
                           logged=record.frames, seeing_arcsec=args.seeing, key=_catalog_key(),
                           logged_closed=record.closed, assume_done=args.assume_done,
-                          used_ids=record.recorded_ids, skipped=record.ids_marked("skipped"))
+                          used_ids=record.recorded_ids, skipped=record.ids_marked("skipped"),
+                          stopped=record.ids_marked("partial"))
     if args.json:
         data = schedule_json(campaign.site, result.plan)
         data["replan"] = result.summary()

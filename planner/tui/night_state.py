@@ -28,7 +28,7 @@ def visit_states(plan, record, now_jd: float, key) -> dict[str, str]:
         return states
     skipped = record.ids_marked("skipped")
     past = past_statuses(plan, now_jd, logged_closed=record.closed, done=record.ids_marked("done"),
-                         logged=record.frames, key=key, skipped=skipped)
+                         logged=record.frames, key=key, skipped=skipped, stopped=record.ids_marked("partial"))
     for v in past:
         states[v.id] = "skipped" if (v.status == "missed" and v.id in skipped) else v.status
     return states
@@ -55,10 +55,12 @@ def frames_problem(text: str, total: int) -> tuple[int | None, str | None]:
     try:
         n = int(text.strip())
     except ValueError:
-        return None, f"type a whole number of frames, 1 to {total - 1} (got {text.strip()!r})"
+        return None, f"type a whole number of frames, {'1' if total == 2 else f'1 to {total - 1}'} (got {text.strip()!r})"
     if not 1 <= n < total:
-        return None, (f"a partial visit took 1 to {total - 1} of its {total} frames (got {n})" if total > 1
-                      else "a visit of one frame is done or not: mark it done or skip it")
+        if total <= 1:
+            return None, "a visit of one frame is done or not: mark it done or skip it"
+        some = "1" if total == 2 else f"1 to {total - 1}"
+        return None, f"a partial visit took {some} of its {total} frames (got {n})"
     return n, None
 
 
