@@ -646,3 +646,29 @@ def test_night_sheet_and_night_log_are_written_beside_the_campaign(campaign_file
     assert sheet == night_sheet(campaign.site, demo_plan) + "\n"
     pdf = campaign_file.with_name("night-2027-01-06-log.pdf").read_bytes()
     assert pdf.startswith(b"%PDF")
+
+
+def test_frames_logged_beside_the_app_appear_on_the_next_tick(campaign_file, demo_plan):
+    """A frame of the visit under way written by another process's logbook (as
+    ``gcplan log ingest --watch`` does) shows that visit done at the next clock tick."""
+    from planner.logbook.store import NewEntry
+
+    current = under_way(demo_plan, NOW)
+    line = current.exposures[0]
+
+    async def go():
+        app = make_app(campaign_file, SetClock(NOW))
+        async with app.run_test(size=(80, 24)) as pilot:
+            await settle(pilot)
+            assert app.states[current.id] == "under way"
+            with Logbook(campaign_file.with_name("logbook.sqlite")) as book:
+                book.add_entry(NewEntry(time_jd=current.science_start_jd, target=current.target,
+                                        filter=line.filter, exposure_s=line.exposure_s, frames=line.frames,
+                                        source="fits"))
+            app.tick()
+            await settle(pilot)
+            assert app.states[current.id] == "done"
+            row = next(l for l in screen_lines(app) if current.id in l and "NOW" not in l)
+            assert row.strip().startswith("✓")
+
+    asyncio.run(go())
