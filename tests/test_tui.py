@@ -78,6 +78,8 @@ async def settle(pilot) -> None:
         done = app.load_error or (app.data is not None and not app.data.planning and app.record is not None
                                   and app.record.path != Path(""))
         if done and not app.busy_text and not any(w.is_running or w.state.name == "PENDING" for w in app.workers):
+            for _ in range(3):  # the list scrolls to the cursor after a refresh
+                await pilot.pause()
             return
         await asyncio.sleep(0.02)
     raise AssertionError("the app did not settle")

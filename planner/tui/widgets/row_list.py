@@ -95,8 +95,19 @@ class RowList(VerticalScroll, can_focus=True):
         if i < len(lines):
             lines[i].add_class("-cursor")
             if scroll:
-                self.call_after_refresh(self.scroll_to_widget, lines[i], animate=False, center=True)
+                self.call_after_refresh(self._scroll_to_cursor, 20)
         self.post_message(self.Moved(self.current))
+
+    def _scroll_to_cursor(self, tries: int) -> None:
+        """Centre the cursor's line once it is laid out (lines just mounted may not be yet)."""
+        lines = self._lines()
+        if not 0 <= self.cursor < len(lines):
+            return
+        line = lines[self.cursor]
+        if line.virtual_region.height == 0 and tries > 0:
+            self.call_after_refresh(self._scroll_to_cursor, tries - 1)
+            return
+        self.scroll_to_widget(line, animate=False, center=True)
 
     def action_move(self, step: int) -> None:
         if not self.rows:
