@@ -27,7 +27,7 @@ from planner.inputs.campaign_file import read_campaign_file
 from planner.inputs.resources import targets_dir
 from planner.logbook.store import Logbook
 from planner.scheduling.campaign import plan_campaign_night
-from planner.sky.nights import datetime_to_jd, jd_to_datetime
+from planner.sky.nights import datetime_to_jd
 
 SIZES = [(80, 24), (160, 50)]
 NIGHT = dt.date(2027, 1, 6)
@@ -306,8 +306,7 @@ def test_close_for_weather_then_replan_accept(campaign_file, demo_plan, capsys):
     record = read_night_record(path, NIGHT, campaign.site.location.timezone)
     assert [(a, b) for a, b in record.closed] == [(datetime_to_jd(NOW), datetime_to_jd(reopen))]
     expected = replan_night(campaign, NIGHT, datetime_to_jd(reopen), logged=record.frames, key=catalog_key(),
-                            logged_closed=record.closed, used_ids=set(demo_plan.visits and
-                                                                      {v.id for v in demo_plan.visits}))
+                            logged_closed=record.closed, used_ids={v.id for v in demo_plan.visits})
     assert [v.id for v in accepted.visits] == [v.id for v in expected.plan.visits]
     shut = (datetime_to_jd(NOW), datetime_to_jd(reopen))
     assert not any(v.status == "planned" and v.start_jd < shut[1] and v.end_jd > shut[0] for v in accepted.visits)

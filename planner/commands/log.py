@@ -252,10 +252,8 @@ def _selected_entries(args, book):
 
 
 def run_list(args) -> int:
-    from planner.reports.nightlog_json import entry_json
+    from planner.reports.nightlog_json import entry_json, event_json
     from planner.sky.nights import iso_utc
-
-    from planner.reports.nightlog_json import event_json
 
     with open_logbook(args) as book:
         site, entries = _selected_entries(args, book)
