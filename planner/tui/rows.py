@@ -57,10 +57,16 @@ def deg(value: float, width: int = 0) -> str:
 def header_text(site_name: str, night, now_jd: float, zone: str, lst_deg: float = float("nan"),
                 width: int = LINE_WIDTH) -> str:
     """``site · night Wed 2027-01-06 · 00:12 local 03:12 UTC · LST 05:24``: the site's name gives way first."""
+    import datetime as dt
+
     now = jd_to_datetime(now_jd, zone)
     clock = "clock —" if now is None else f"{local_hhmm(now_jd, zone)} local {utc_hhmm(now_jd)} UTC"
+    if now is not None and (now - dt.timedelta(hours=12)).date() != night:
+        clock = f"now {now:%d %b %Y} {clock}" if width >= 100 else f"now {now:%d %b} {clock}"
     lst = "" if not np.isfinite(lst_deg) else f" · LST {int(lst_deg / 15):02d}:{int(lst_deg / 15 * 60) % 60:02d}"
     tail = f" · night {night:%a %Y-%m-%d} · {clock}{lst}"
+    if len(tail) + 8 > width:  # the clock is in another night: its date first, LST gives way
+        tail = f" · night {night:%a %Y-%m-%d} · {clock}"
     return clip(site_name, max(8, width - len(tail))) + tail
 
 
