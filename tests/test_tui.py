@@ -612,12 +612,15 @@ def test_a_target_without_a_distance_gets_a_message_for_that_check_only(campaign
         assert parse_exposure_fields(campaign, bare, *fields)[1] == bad
 
 
-def test_ctrl_c_quits(campaign_file):
+@pytest.mark.parametrize("key", ["ctrl+c", "ctrl+q"])
+def test_ctrl_c_and_ctrl_q_quit(campaign_file, key):
     async def go():
         app = make_app(campaign_file, SetClock(NOW))
         async with app.run_test(size=(80, 24)) as pilot:
             await settle(pilot)
-            await pilot.press("ctrl+c")
+            await pilot.press("n")  # even from a dialog
+            await pilot.pause()
+            await pilot.press(key)
             await pilot.pause()
         return app
 
