@@ -676,3 +676,22 @@ def test_frames_logged_beside_the_app_appear_on_the_next_tick(campaign_file, dem
             assert row.strip().startswith("✓")
 
     asyncio.run(go())
+
+
+def test_a_logbook_given_apart_from_the_campaign_is_the_one_written(campaign_file, tmp_path, demo_plan, capsys):
+    """``gcplan app --logbook FILE``: marks go there, and nothing is written beside the campaign."""
+    other = tmp_path / "elsewhere" / "night.sqlite"
+    other.parent.mkdir()
+    current = under_way(demo_plan, NOW)
+
+    async def go():
+        app = make_app(campaign_file, SetClock(NOW), logbook=other)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await settle(pilot)
+            await pilot.press("d")
+            await pilot.pause()
+
+    asyncio.run(go())
+    assert not campaign_file.with_name("logbook.sqlite").exists()
+    with Logbook(other) as book:
+        assert {k: m.status for k, m in book.latest_marks(NIGHT).items()} == {current.id: "done"}

@@ -28,6 +28,8 @@ def register(sub) -> None:
                    help="the night's local evening date (default: the campaign night the clock is in, "
                    "or the next one)")
     p.add_argument("--seeing", type=float, metavar="FWHM", help="seeing planned for, arcsec")
+    p.add_argument("--logbook", metavar="FILE",
+                   help="the logbook the app reads and writes (default: logbook.sqlite beside the campaign file)")
     p.add_argument("--now", metavar="YYYY-MM-DDTHH:MM",
                    help="rehearse a night: the clock starts at this UTC time and runs on in real time "
                    "(default: the computer's clock)")
@@ -45,7 +47,8 @@ def run_app(args) -> int:
     common.check_seeing(seeing)
     clock = rehearsal_clock(parse_now(args.now)) if getattr(args, "now", None) else system_clock
     path = getattr(args, "campaign", None) or demo_campaign_path()
-    PlannerApp(night=night, clock=clock, seeing_arcsec=seeing, campaign_path=path).run()
+    PlannerApp(night=night, clock=clock, seeing_arcsec=seeing, campaign_path=path,
+               logbook=getattr(args, "logbook", None)).run()
     return 0
 
 

@@ -52,10 +52,11 @@ class PlannerApp(NightActions, App):
 
     def __init__(self, campaign=None, night: dt.date | None = None, clock: Clock = system_clock,
                  seeing_arcsec: float | None = None, tick_s: float = TICK_S,
-                 campaign_path: str | Path | None = None) -> None:
+                 campaign_path: str | Path | None = None, logbook: str | Path | None = None) -> None:
         super().__init__()
         self.campaign = campaign
         self.campaign_path = campaign_path
+        self.logbook_file = Path(logbook) if logbook else None  # else the campaign's, beside its file
         self.asked_night = night
         self.clock = clock
         self.seeing_arcsec = seeing_arcsec
@@ -257,7 +258,8 @@ class PlannerApp(NightActions, App):
         from planner.logbook.night_record import read_night_record
         from planner.tui.log_actions import logbook_path
 
-        return read_night_record(logbook_path(self.campaign), night, self.campaign.site.location.timezone)
+        return read_night_record(logbook_path(self.campaign, self.logbook_file), night,
+                                 self.campaign.site.location.timezone)
 
     @guarded
     def _record_ready(self, night, record) -> None:

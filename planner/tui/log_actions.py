@@ -14,27 +14,28 @@ from pathlib import Path
 from planner.logbook.store import Logbook, NewEntry, default_logbook_path
 
 
-def logbook_path(campaign) -> Path:
-    return default_logbook_path(campaign.source)
+def logbook_path(campaign, logbook: Path | None = None) -> Path:
+    """``logbook`` if given (``gcplan app --logbook``), else the campaign's, beside its file."""
+    return Path(logbook) if logbook else default_logbook_path(campaign.source)
 
 
-def _book(campaign) -> Logbook:
-    return Logbook(logbook_path(campaign))
+def _book(campaign, logbook=None) -> Logbook:
+    return Logbook(logbook_path(campaign, logbook))
 
 
-def add_mark(campaign, night, visit, status: str, now_jd: float, note: str | None = None) -> int:
+def add_mark(campaign, night, visit, status: str, now_jd: float, note: str | None = None, logbook=None) -> int:
     """The observer's word on ``visit`` (done, skipped, planned to take a mark back)."""
-    with _book(campaign) as book:
+    with _book(campaign, logbook) as book:
         return book.add_visit_mark(now_jd, night, visit.id, status, note)
 
 
-def add_partial(campaign, night, visit, frames: int, now_jd: float, key=None) -> list[int]:
+def add_partial(campaign, night, visit, frames: int, now_jd: float, key=None, logbook=None) -> list[int]:
     """``frames`` of ``visit``'s frames taken, in the order of its sequence: one manual entry
     per filter touched (the frames the evidence rule then counts, so the rest are owed), then
     the mark.  Entries are dated at the visit's science start, inside its span."""
     ids = []
     left = int(frames)
-    with _book(campaign) as book:
+    with _book(campaign, logbook) as book:
         for line in visit.exposures:
             k = min(left, int(line.frames))
             if k <= 0:
@@ -50,23 +51,23 @@ def add_partial(campaign, night, visit, frames: int, now_jd: float, key=None) ->
     return ids
 
 
-def add_note(campaign, now_jd: float, text: str) -> int:
-    with _book(campaign) as book:
+def add_note(campaign, now_jd: float, text: str, logbook=None) -> int:
+    with _book(campaign, logbook) as book:
         return book.add_note(now_jd, text)
 
 
-def add_weather(campaign, now_jd: float, state: str, note: str | None = None) -> int:
-    with _book(campaign) as book:
+def add_weather(campaign, now_jd: float, state: str, note: str | None = None, logbook=None) -> int:
+    with _book(campaign, logbook) as book:
         return book.add_weather(now_jd, state, note)
 
 
-def record_plan(campaign, night, plan) -> int:
+def record_plan(campaign, night, plan, logbook=None) -> int:
     """Store an accepted plan's visits (one planned visit per filter of each visit, as
     ``schedule --record`` does): their ids are then used, and ingested frames link to them."""
     rows = [{"target": v.target, "filter": e.filter, "exposure_s": e.exposure_s, "frames": e.frames,
              "start_jd": v.start_jd, "end_jd": v.end_jd, "plan_id": v.id, "line": n}
             for v in plan.visits if v.status in ("planned", "under way") for n, e in enumerate(v.exposures)]
-    with _book(campaign) as book:
+    with _book(campaign, logbook) as book:
         return len(book.add_planned_visits(night, rows))
 
 
@@ -83,11 +84,11 @@ def write_night_sheet(campaign, plan, night) -> Path:
     return path
 
 
-def write_night_log(campaign, night) -> Path:
+def write_night_log(campaign, night, logbook=None) -> Path:
     """The printed night log (PDF) of the logbook's night, beside the campaign."""
     from planner.reports.nightlog import collect_night_log, write_night_log_pdf
 
     path = output_folder(campaign) / f"night-{night:%Y-%m-%d}-log.pdf"
-    with Logbook(logbook_path(campaign)) as book:
+    with Logbook(logbook_path(campaign, logbook)) as book:
         log = collect_night_log(book, campaign.site, night)
     return write_night_log_pdf(log, path)

@@ -81,7 +81,7 @@ class NightActions:
             self.say(f"✗ {problem}")
             return
         try:
-            log_actions.add_mark(self.campaign, self.night, v, status, self.now_jd)
+            log_actions.add_mark(self.campaign, self.night, v, status, self.now_jd, logbook=self.logbook_file)
         except (InputError, OSError) as exc:
             self._log_failed(exc)
             return
@@ -110,7 +110,8 @@ class NightActions:
                 return
             n, _ = frames_problem(text, total)
             try:
-                log_actions.add_partial(self.campaign, self.night, v, n, self.now_jd, self.key)
+                log_actions.add_partial(self.campaign, self.night, v, n, self.now_jd, self.key,
+                                        logbook=self.logbook_file)
             except (InputError, OSError) as exc:
                 self._log_failed(exc)
                 return
@@ -132,7 +133,7 @@ class NightActions:
                 return
             self.read_clock()
             try:
-                log_actions.add_note(self.campaign, self.now_jd, text)
+                log_actions.add_note(self.campaign, self.now_jd, text, logbook=self.logbook_file)
             except (InputError, OSError) as exc:
                 self._log_failed(exc)
                 return
@@ -155,7 +156,8 @@ class NightActions:
             return
         self.read_clock()
         try:
-            log_actions.add_weather(self.campaign, self.now_jd, state, f"dome {state} (weather)")
+            log_actions.add_weather(self.campaign, self.now_jd, state, f"dome {state} (weather)",
+                                    logbook=self.logbook_file)
         except (InputError, OSError) as exc:
             self._log_failed(exc)
             return
@@ -232,9 +234,10 @@ class NightActions:
         self._plans[night] = result.plan
         zone = self.campaign.site.location.timezone
         try:
-            log_actions.record_plan(self.campaign, night, result.plan)
+            log_actions.record_plan(self.campaign, night, result.plan, logbook=self.logbook_file)
             log_actions.add_note(self.campaign, result.now_jd,
-                                 f"re-planned from {local_hhmm(result.now_jd, zone)}: " + "; ".join(result.reasons))
+                                 f"re-planned from {local_hhmm(result.now_jd, zone)}: " + "; ".join(result.reasons),
+                                 logbook=self.logbook_file)
         except (InputError, OSError) as exc:
             self._log_failed(exc)
         self._update_states()
@@ -302,7 +305,7 @@ class NightActions:
 
         self.call_from_thread(self._set_busy, "phase coverage", 1)
         try:
-            path = logbook_path(self.campaign)
+            path = logbook_path(self.campaign, self.logbook_file)
             frames = []
             if path.is_file():
                 with Logbook(path) as book:
@@ -350,7 +353,7 @@ class NightActions:
 
         self.call_from_thread(self._set_busy, "writing the night log", 1)
         try:
-            path = write_night_log(self.campaign, night)
+            path = write_night_log(self.campaign, night, self.logbook_file)
         except Exception as exc:  # noqa: BLE001
             self.call_from_thread(self.say, f"✗ night log not written: {exc}")
             return
