@@ -315,6 +315,17 @@ def test_close_for_weather_then_replan_accept(campaign_file, demo_plan, capsys):
     kinds = [e["kind"] for e in log_list_json(campaign_file, capsys)["events"]]
     assert kinds[:2] == ["closed", "open"] and "note" in kinds
 
+    async def again():  # a restarted app follows the accepted re-plan, kept in the logbook
+        app = make_app(campaign_file, clock)
+        async with app.run_test(size=(80, 24)) as pilot:
+            await settle(pilot)
+            assert "following the re-plan accepted earlier" in screen_text(app)
+            return app.plan
+
+    restored = asyncio.run(again())
+    assert [(v.id, v.start_jd, v.status) for v in restored.visits] == [
+        (v.id, v.start_jd, v.status) for v in accepted.visits]
+
 
 def test_replan_refuses_a_nonsense_seeing_in_place(campaign_file):
     async def go():

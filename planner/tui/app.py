@@ -220,17 +220,34 @@ class PlannerApp(NightActions, App):
             # The sky first (header, Moon, what is up): useful while the plan is made.
             self.call_from_thread(self._night_ready, sky, key)
             data = campaign_night_data(self.campaign, night, self.seeing_arcsec, sky)
+            accepted, why = self._accepted_plan(night, data.plan)
         except Exception as exc:  # noqa: BLE001 - shown in the app, never as a traceback
             self.call_from_thread(self._night_failed, night, str(exc) or type(exc).__name__)
             return
         finally:
             self.call_from_thread(self._set_busy, "planning the night", -1)
-        self.call_from_thread(self._night_ready, data, key)
+        self.call_from_thread(self._night_ready, data, key, accepted, why)
+
+    def _accepted_plan(self, night, campaign_plan):
+        """A re-plan accepted earlier for ``night`` (kept in the logbook), or (None, why/None)."""
+        from planner.tui.accepted_plan import read_accepted_plan
+        from planner.tui.log_actions import logbook_path
+
+        try:
+            return read_accepted_plan(logbook_path(self.campaign, self.logbook_file), night, campaign_plan)
+        except Exception as exc:  # noqa: BLE001 - an unreadable logbook: the campaign's plan stands
+            return None, f"the logbook could not be read for an accepted re-plan ({exc})"
 
     @guarded
-    def _night_ready(self, data, key) -> None:
+    def _night_ready(self, data, key, accepted=None, why=None) -> None:
         if not data.planning:
             self._nights[data.night] = data
+        if accepted is not None and data.night not in self._plans:
+            self._plans[data.night] = accepted  # the re-plan the observer accepted before
+            if data.night == self.night:
+                self.message = "following the re-plan accepted earlier tonight (kept in the logbook)"
+        if why and data.night == self.night:
+            self.message = why
         self.key = key
         if data.night != self.night:  # the observer has moved on: stale
             return

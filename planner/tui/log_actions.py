@@ -61,14 +61,19 @@ def add_weather(campaign, now_jd: float, state: str, note: str | None = None, lo
         return book.add_weather(now_jd, state, note)
 
 
-def record_plan(campaign, night, plan, logbook=None) -> int:
+def record_plan(campaign, night, plan, logbook=None, now_jd: float | None = None) -> int:
     """Store an accepted plan's visits (one planned visit per filter of each visit, as
-    ``schedule --record`` does): their ids are then used, and ingested frames link to them."""
+    ``schedule --record`` does): their ids are then used, and ingested frames link to them;
+    and the plan itself (:mod:`planner.tui.accepted_plan`), so a restarted app follows it."""
+    from planner.tui.accepted_plan import meta_key, plan_to_json
+
     rows = [{"target": v.target, "filter": e.filter, "exposure_s": e.exposure_s, "frames": e.frames,
              "start_jd": v.start_jd, "end_jd": v.end_jd, "plan_id": v.id, "line": n}
             for v in plan.visits if v.status in ("planned", "under way") for n, e in enumerate(v.exposures)]
     with _book(campaign, logbook) as book:
-        return len(book.add_planned_visits(night, rows))
+        added = len(book.add_planned_visits(night, rows))
+        book.set_meta(meta_key(night), plan_to_json(plan, float("nan") if now_jd is None else now_jd))
+    return added
 
 
 def output_folder(campaign) -> Path:

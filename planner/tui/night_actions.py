@@ -234,7 +234,7 @@ class NightActions:
         self._plans[night] = result.plan
         zone = self.campaign.site.location.timezone
         try:
-            log_actions.record_plan(self.campaign, night, result.plan, logbook=self.logbook_file)
+            log_actions.record_plan(self.campaign, night, result.plan, logbook=self.logbook_file, now_jd=result.now_jd)
             log_actions.add_note(self.campaign, result.now_jd,
                                  f"re-planned from {local_hhmm(result.now_jd, zone)}: " + "; ".join(result.reasons),
                                  logbook=self.logbook_file)
