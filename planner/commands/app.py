@@ -15,33 +15,40 @@ def demo_campaign_path():
 def register(sub) -> None:
     p = sub.add_parser(
         "app",
-        help="the terminal app: tonight's almanac and targets, and the night's plan",
-        description="A keyboard-driven terminal view of one campaign night: the almanac and each "
-        "target's window, and the night's timed plan with the visit under way marked. Keys: 1/2 or "
-        "tab switch screens, n/p next/previous night, ? help, q quit. Without --campaign it opens "
-        "the bundled (invented) demo campaign.",
+        help="the terminal app: run the night from the keyboard — act, log, re-plan",
+        description="A keyboard-driven terminal app for a campaign night: the plan with the visit "
+        "under way, marking visits done, partial or skipped, notes and weather closures written to the "
+        "logbook beside the campaign file as they are made, re-planning from now, an exposure check "
+        "under the sky now, phase coverage, the sky now, the night sheet and night log. ? lists the "
+        "keys, ctrl+p every action by name, q quits. Without --campaign it opens the bundled "
+        "(invented) demo campaign.",
     )
     p.add_argument("--campaign", metavar="FILE", help="campaign file (TOML); default: the bundled demo")
     p.add_argument("--date", metavar="YYYY-MM-DD",
-                   help="the night's local evening date (default: the campaign's first night)")
+                   help="the night's local evening date (default: the campaign night the clock is in, "
+                   "or the next one)")
     p.add_argument("--seeing", type=float, metavar="FWHM", help="seeing planned for, arcsec")
+    p.add_argument("--logbook", metavar="FILE",
+                   help="the logbook the app reads and writes (default: logbook.sqlite beside the campaign file)")
     p.add_argument("--now", metavar="YYYY-MM-DDTHH:MM",
-                   help="rehearse a night: the clock stopped at this UTC time (default: the computer's clock)")
+                   help="rehearse a night: the clock starts at this UTC time and runs on in real time "
+                   "(default: the computer's clock)")
     p.set_defaults(run=run_app)
 
 
 def run_app(args) -> int:
-    """Read the campaign (bad input fails here, as one line), then run the app until q."""
-    from planner.inputs.campaign_file import read_campaign_file
+    """Run the app until q.  The campaign is read inside the app: a file that fails shows its
+    one-line error there."""
     from planner.tui.app import PlannerApp
-    from planner.tui.clock import frozen_clock, system_clock
+    from planner.tui.clock import rehearsal_clock, system_clock
 
     night = common.parse_night_date(args.date) if getattr(args, "date", None) else None
     seeing = getattr(args, "seeing", None)
     common.check_seeing(seeing)
-    clock = frozen_clock(parse_now(args.now)) if getattr(args, "now", None) else system_clock
-    campaign = read_campaign_file(getattr(args, "campaign", None) or demo_campaign_path())
-    PlannerApp(campaign, night=night, clock=clock, seeing_arcsec=seeing).run()
+    clock = rehearsal_clock(parse_now(args.now)) if getattr(args, "now", None) else system_clock
+    path = getattr(args, "campaign", None) or demo_campaign_path()
+    PlannerApp(night=night, clock=clock, seeing_arcsec=seeing, campaign_path=path,
+               logbook=getattr(args, "logbook", None)).run()
     return 0
 
 

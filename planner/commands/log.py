@@ -295,23 +295,28 @@ def run_observer(args) -> int:
     return 0
 
 
-def _selected_entries(args):
+def _selected_entries(args, events: bool = False):
+    """The logbook, its site, the entries of ``--night`` (or all), and with ``events`` the
+    night's events (notes, weather, the observer's marks) too."""
     night = common.parse_night_date(args.night, "--night") if args.night else None
     with open_logbook(args, write=False) as book:
         site = site_for(args, book, required=False)
-        if night is None:
-            return book, site, book.entries()
-        return book, site, book.entries(*night_bounds(site, night))
+        span = (None, None) if night is None else night_bounds(site, night)
+        entries = book.entries() if night is None else book.entries(*span)
+        if events:
+            return book, site, entries, book.events(*span)
+        return book, site, entries
 
 
 def run_list(args) -> int:
-    from planner.reports.nightlog_json import entry_json
+    from planner.reports.nightlog_json import entry_json, event_json
     from planner.sky.nights import iso_utc
 
-    book, site, entries = _selected_entries(args)
+    book, site, entries, events = _selected_entries(args, events=True)
     if args.json:
         common.print_json({"logbook": str(book.path), "night": args.night,
-                           "entries": [entry_json(e) for e in entries]})
+                           "entries": [entry_json(e) for e in entries],
+                           "events": [event_json(e) for e in events]})
         return 0
     if args.night and site is None:
         common.warn_all(["no site known: the night is taken as noon to noon UTC"])

@@ -53,11 +53,14 @@ def run(args) -> int:
     zone = campaign.site.location.timezone
     now = parse_now(args.now, night, zone)
     closed = tuple(parse_closed(text, night, zone) for text in args.closed)
-    logged, log_closed, recorded, note = read_logbook_night(campaign, night, args.logbook)
-    result = replan_night(campaign, night, now, closed=closed, done=tuple(args.done), logged=logged,
-                          seeing_arcsec=args.seeing, key=_catalog_key(), logged_closed=log_closed,
-                          assume_done=args.assume_done, used_ids=recorded,
-                          cache=plan_cache_for(campaign.source))
+    record = read_logbook_night(campaign, night, args.logbook)
+    note = record.note()
+    # The observer's marks in the logbook (the app's done, partial and skip) count as --done does.
+    result = replan_night(campaign, night, now, closed=closed, done=tuple(args.done) + record.ids_marked("done"),
+                          logged=record.frames, seeing_arcsec=args.seeing, key=_catalog_key(),
+                          logged_closed=record.closed, assume_done=args.assume_done,
+                          used_ids=record.recorded_ids, skipped=record.ids_marked("skipped"),
+                          stopped=record.ids_marked("partial"), cache=plan_cache_for(campaign.source))
     if args.json:
         data = schedule_json(campaign.site, result.plan)
         data["replan"] = result.summary()
@@ -136,32 +139,15 @@ def _catalog_key():
 
 
 def read_logbook_night(campaign, night, path: str | None = None):
-    """What the logbook says of a night: its entries, its closed periods ('closed' until
-    the next 'open', or the night's end), the visit ids of its recorded plan, and a note
-    on what was read.  The file is ``path``, else ``logbook.sqlite`` beside the campaign
-    file; with neither present, nothing is known from it."""
-    from planner.sky.nights import local_noon_jd
-
+    """What the logbook says of a night (:func:`planner.logbook.night_record.read_night_record`,
+    the app's reader too): the file is ``path``, else ``logbook.sqlite`` beside the campaign file;
+    with neither present, nothing is known from it."""
     from pathlib import Path
 
-    from planner.logbook.store import (
-        Logbook,
-        LogbookError,
-        closed_periods,
-        default_logbook_path,
-    )
+    from planner.logbook.night_record import read_night_record
+    from planner.logbook.store import LogbookError, default_logbook_path
+
     p = Path(path) if path else default_logbook_path(campaign.source)
-    if not p.is_file():
-        if path:
-            raise LogbookError(f"--logbook {path!r}: no such file")
-        return (), (), set(), f"no logbook at {p}: nothing is read from one"
-    zone = campaign.site.location.timezone
-    a, b = local_noon_jd(night, zone), local_noon_jd(night + dt.timedelta(days=1), zone)
-    with Logbook(p, readonly=True) as book:
-        frames = tuple(book.entries(a, b))
-        events = sorted(book.weather(a, b), key=lambda e: e.time_jd)
-        recorded = book.planned_ids(night)
-    periods = tuple(closed_periods(events, b))
-    note = (f"logbook {p}: {len(frames)} entr{'y' if len(frames) == 1 else 'ies'} this night, "
-            f"{len(periods)} closed period(s), {len(recorded)} recorded visit(s)")
-    return frames, periods, recorded, note
+    if path and not p.is_file():
+        raise LogbookError(f"--logbook {path!r}: no such file")
+    return read_night_record(p, night, campaign.site.location.timezone)

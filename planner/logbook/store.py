@@ -22,6 +22,8 @@ migration applied, and :data:`_MIGRATIONS` brings an older file up to date)::
     planned_visits(id, night, target, filter, exposure_s, frames,
                    start_jd, end_jd, done_entry_id -> entries,
                    plan_id, line, UNIQUE(night, plan_id, line))
+    visit_marks(id, time_jd, night, plan_id, status 'done'|'partial'|'skipped'|'planned',
+                note)                   created by the first mark written (see below)
 
 A planned visit is one line of frames (one filter) of a plan's visit: ``plan_id``
 is the plan's visit id (:mod:`planner.scheduling.visit_ids`), ``line`` its
@@ -29,6 +31,13 @@ place in the visit's sequence; recording a plan again adds nothing.  An entry
 is linked to the planned visit its frames are evidence for
 (:func:`planner.model.evidence.line_fits`: target, filter, exposure, time), and
 ``done_entry_id`` is set by the entry that completes the visit's frames.
+
+``visit_marks`` holds what the observer says of a planned visit (the app's done,
+partial, skip; ``planned`` takes a mark back).  It is made by the first mark
+written — ``CREATE TABLE IF NOT EXISTS`` inside that write's transaction — so a
+file only ever read keeps its schema, and readers find no marks in a file
+without the table.  :meth:`Logbook.events` gives the notes, weather changes and
+marks of a span as one list in time order.
 
 Times are Julian dates on the UTC scale.
 """
@@ -54,6 +63,11 @@ DEFAULT_LOGBOOK_NAME = "logbook.sqlite"
 #: How long a writer waits for another (a watcher and a manual entry at once), seconds.
 BUSY_TIMEOUT_S = 30.0
 WEATHER_STATES = ("closed", "open")
+#: What the observer can say of a planned visit; ``planned`` withdraws an earlier mark.
+MARK_STATES = ("done", "partial", "skipped", "planned")
+_MARKS_TABLE = """CREATE TABLE IF NOT EXISTS visit_marks (
+    id INTEGER PRIMARY KEY, time_jd REAL NOT NULL, night TEXT NOT NULL, plan_id TEXT NOT NULL,
+    status TEXT NOT NULL CHECK (status IN ('done', 'partial', 'skipped', 'planned')), note TEXT)"""
 
 
 class LogbookError(InputError):
@@ -122,6 +136,31 @@ class WeatherEvent:
 class NightNote:
     id: int
     time_jd: float
+    text: str
+
+
+@dataclass(frozen=True)
+class VisitMark:
+    """The observer's word on a planned visit (``plan_id``), at ``time_jd``."""
+
+    id: int
+    time_jd: float
+    night: str
+    plan_id: str
+    status: str  # one of MARK_STATES
+    note: str | None
+
+
+@dataclass(frozen=True)
+class NightEvent:
+    """A note, a weather change or a visit mark, as one line of the night's events.
+
+    ``id`` names the table and row (``note-3``, ``weather-2``, ``mark-5``): each table numbers its own rows.
+    """
+
+    id: str
+    time_jd: float
+    kind: str  # "note" | "closed" | "open" | "done" | "partial" | "skipped" | "planned"
     text: str
 
 
@@ -472,6 +511,54 @@ class Logbook:
 
     def notes(self, start_jd: float | None = None, end_jd: float | None = None) -> list[NightNote]:
         return [NightNote(*r) for r in self._between("SELECT id, time_jd, text FROM notes", start_jd, end_jd)]
+
+    def add_visit_mark(self, time_jd: float, night: dt.date | str, plan_id: str, status: str,
+                       note: str | None = None) -> int:
+        """Record the observer's word on visit ``plan_id`` of ``night`` (its own transaction; the
+        table is made by the first mark)."""
+        if status not in MARK_STATES:
+            raise LogbookError(f"a visit's mark must be one of {', '.join(MARK_STATES)} (got {status!r})")
+        if not str(plan_id).strip():
+            raise LogbookError("a visit's mark needs the visit's id (got an empty one)")
+        with self._transaction("mark"):
+            self._db.execute(_MARKS_TABLE)
+            cur = self._db.execute("INSERT INTO visit_marks (time_jd, night, plan_id, status, note) "
+                                   "VALUES (?, ?, ?, ?, ?)", (time_jd, str(night), str(plan_id).strip(), status, note))
+        return int(cur.lastrowid)
+
+    def _has_marks(self) -> bool:
+        return self._db.execute("SELECT 1 FROM sqlite_master WHERE type = 'table' AND name = 'visit_marks'"
+                                ).fetchone() is not None
+
+    def visit_marks(self, start_jd: float | None = None, end_jd: float | None = None) -> list[VisitMark]:
+        """Marks in the order they were made (none in a file that never had one)."""
+        if not self._has_marks():
+            return []
+        return [VisitMark(*r) for r in self._between(
+            "SELECT id, time_jd, night, plan_id, status, note FROM visit_marks", start_jd, end_jd)]
+
+    def latest_marks(self, night: dt.date | str) -> dict[str, VisitMark]:
+        """Each visit's last mark on ``night`` (a later mark overrides an earlier one); ``planned``
+        marks (taken back) are left out."""
+        if not self._has_marks():
+            return {}
+        rows = self._db.execute("SELECT id, time_jd, night, plan_id, status, note FROM visit_marks "
+                                "WHERE night = ? ORDER BY id", (str(night),))
+        out: dict[str, VisitMark] = {}
+        for r in rows:
+            out[r[3]] = VisitMark(*r)
+        return {k: m for k, m in out.items() if m.status != "planned"}
+
+    def events(self, start_jd: float | None = None, end_jd: float | None = None) -> list[NightEvent]:
+        """Notes, weather changes and visit marks in time order (at one instant: weather, notes, marks)."""
+        out = [NightEvent(f"note-{n.id}", n.time_jd, "note", n.text) for n in self.notes(start_jd, end_jd)]
+        out += [NightEvent(f"weather-{w.id}", w.time_jd, w.state, w.note or f"dome {w.state}")
+                for w in self.weather(start_jd, end_jd)]
+        out += [NightEvent(f"mark-{m.id}", m.time_jd, m.status,
+                           f"{m.plan_id} {m.status}" + (f": {m.note}" if m.note else ""))
+                for m in self.visit_marks(start_jd, end_jd)]
+        order = {"closed": 0, "open": 0, "note": 1}
+        return sorted(out, key=lambda e: (e.time_jd, order.get(e.kind, 2)))
 
     def _between(self, sql: str, start_jd, end_jd):
         if start_jd is not None and end_jd is not None:

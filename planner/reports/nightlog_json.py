@@ -16,6 +16,12 @@ def entry_json(e) -> dict:
             "fingerprint": e.fingerprint, "visit_id": e.visit_id, "source": e.source}
 
 
+def event_json(e) -> dict:
+    """One of the night's events (:class:`planner.logbook.store.NightEvent`): a note, a weather
+    change or the observer's mark on a visit."""
+    return {"id": e.id, "time": iso_utc(e.time_jd), "kind": e.kind, "text": e.text}
+
+
 def night_log_json(log) -> dict:
     """One night of the logbook (:class:`planner.reports.nightlog.NightLog`), as the printed log holds it."""
     return {

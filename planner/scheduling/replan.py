@@ -9,12 +9,13 @@ Rules:
   - ``done`` — the logbook holds its frames (:func:`planner.model.evidence.match_visits`:
     same cluster, filter, exposure within 10 %, inside the visit's span), source
     ``logbook``; or the observer said so (``--done``), source ``observer``;
-  - ``partial`` — the logbook holds some of its frames (source ``logbook``): it keeps
-    its place and the frames still owed are planned again;
+  - ``partial`` — the logbook holds some of its frames (source ``logbook``), or the
+    observer says it stopped part-way (``stopped``, source ``observer``, even while its
+    time runs): it keeps its place and the frames still owed are planned again;
   - ``under way`` — started, not finished, and not done;
-  - ``missed`` — inside a closed period, or not among what the logbook or the observer
-    gives as taken when either gives an account of the night: its request wants
-    time again;
+  - ``missed`` — inside a closed period, skipped by the observer (``skipped``), or
+    not among what the logbook or the observer gives as taken when either gives an
+    account of the night: its request wants time again;
   - ``unknown`` — nothing says (no frame of the night in the logbook, no ``--done``):
     it keeps its place, nothing is claimed; ``assume_done`` makes these ``done``
     with source ``assumed``.
@@ -91,22 +92,30 @@ class ReplanResult:
 
 def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(), logged=(),
                  seeing_arcsec: float | None = None, key=normalize_name, logged_closed=(),
-                 assume_done: bool = False, used_ids=(), cache=None) -> ReplanResult:
+                 assume_done: bool = False, used_ids=(), skipped=(), base=None, stopped=(),
+                 cache=None) -> ReplanResult:
     """The night's plan, with everything from ``now_jd`` on planned again (see the module docstring).
 
     ``done``: visit ids (or target names) the observer gives as taken; ``logged``: the
     night's log entries (``id``, ``target``, ``filter``, ``exposure_s``, ``frames``,
     ``time_jd``), target names compared by ``key``; ``closed`` and ``logged_closed``:
-    closed periods given by the observer and read from the logbook; ``cache``: the
-    campaign's nights kept for re-use (:mod:`planner.scheduling.plan_cache`).
+    closed periods given by the observer and read from the logbook; ``skipped``: visit
+    ids the observer gives as not taken; ``stopped``: visit ids the observer gives as stopped
+    part-way (the frames the logbook holds of them count, the rest are owed); ``base``: the
+    plan followed so far when it is not the campaign's (an earlier re-plan the observer
+    accepted), else the campaign's plan; ``cache``: the campaign's nights kept for re-use
+    (:mod:`planner.scheduling.plan_cache`).
     """
     from planner.scheduling.campaign import add_spare_work, goal_exposures, is_fill, plan_through_night
     from planner.scheduling.campaign_nights import gaps_with_reasons
 
     planned_seeing = campaign.seeing_arcsec or campaign.site.sky.typical_seeing_arcsec
     original, requests, covered = plan_through_night(campaign, night, cache=cache)
+    if base is not None:
+        original = base
     closed = tuple(sorted(tuple(closed) + tuple(logged_closed)))
-    past, evidence = _past_statuses(original, now_jd, closed, logged_closed, done, logged, key, assume_done)
+    past, evidence = _past_statuses(original, now_jd, closed, logged_closed, done, logged, key, assume_done,
+                                    skipped, stopped)
     reasons = []
     unmatched = [d for d in done if not any(same_visit_id(d, v.id) or key(v.target) == key(d) for v in past)]
     notes = tuple(f"--done {d!r} names no visit of this plan before now (ids as the night sheet shows them, "
@@ -158,7 +167,18 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
                         tuple(reasons))
 
 
-def _past_statuses(original, now_jd, closed, logged_closed, done, logged, key, assume_done):
+def past_statuses(plan, now_jd: float, *, closed=(), logged_closed=(), done=(), logged=(),
+                  key=normalize_name, assume_done: bool = False, skipped=(), stopped=()) -> list:
+    """The visits of ``plan`` that started before ``now_jd``, each with the status and source
+    a re-plan from ``now_jd`` gives it (the rules of the module docstring), without re-planning:
+    what the app shows of the night so far."""
+    closed = tuple(sorted(tuple(closed) + tuple(logged_closed)))
+    return _past_statuses(plan, now_jd, closed, logged_closed, done, logged, key, assume_done, skipped,
+                          stopped)[0]
+
+
+def _past_statuses(original, now_jd, closed, logged_closed, done, logged, key, assume_done, skipped=(),
+                   stopped=()):
     """The original plan's visits that started before ``now_jd``, each with its status and source."""
     before = [v for v in original.visits if v.start_jd < now_jd]
     evidence = match_visits(before, logged, key)
@@ -171,6 +191,10 @@ def _past_statuses(original, now_jd, closed, logged_closed, done, logged, key, a
         found = evidence[v.id].status
         if found == "done":
             status, source = "done", "logbook"
+        elif any(same_visit_id(s, v.id) for s in skipped):
+            status, source = "missed", "observer"
+        elif any(same_visit_id(s, v.id) for s in stopped):
+            status, source = "partial", "observer"
         elif said:
             status, source = "done", "observer"
         elif v.end_jd > now_jd and not shut:
@@ -185,6 +209,8 @@ def _past_statuses(original, now_jd, closed, logged_closed, done, logged, key, a
             status, source = "done", "assumed"
         else:
             status, source = "unknown", None
+        if status == "partial" and source == "observer" and v.end_jd > now_jd:
+            v = replace(v, end_jd=now_jd)  # stopped now: the rest of its time is free again
         out.append(replace(v, status=status, status_source=source))
     return out, evidence
 

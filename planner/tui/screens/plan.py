@@ -1,59 +1,70 @@
-"""The plan: the campaign night's visits and gaps, the visit under way and the next marked."""
+"""The plan: where the night stands, then the night's visits with their ids and states.
+
+The cursor chooses the visit the keys act on (done, partial, skip); it starts on
+the visit under way.
+"""
 
 from __future__ import annotations
 
 from textual.app import ComposeResult
-from textual.binding import Binding
 from textual.widgets import Footer, Static
 
-from planner.cautions import PLAN_CAUTION
-from planner.tui.rows import PLAN_HEAD, PLAN_SUBHEAD, plan_rows, plan_summary
+from planner.tui.rows import now_lines, plan_head, plan_rows, plan_summary
 from planner.tui.screens.night_screen import NightScreen
 from planner.tui.widgets.night_header import NightHeader
 from planner.tui.widgets.row_list import RowList
 
 
 class PlanScreen(NightScreen):
-    """The night's timed visits (``gcplan schedule --campaign``) with the caution at the foot."""
-
-    BINDINGS = [Binding("c", "to_current", "now")]
+    """The night's timed visits, the one under way and the next marked, each with its state."""
 
     def compose(self) -> ComposeResult:
         yield NightHeader(id="header")
+        yield Static("", id="now", classes="panel")
         yield Static("", id="summary", classes="block")
-        yield Static(PLAN_HEAD + "\n" + PLAN_SUBHEAD, id="plan-head", classes="head")
+        yield Static(plan_head(), id="plan-head", classes="head")
         yield RowList(id="visits")
-        yield Static(PLAN_CAUTION, id="caution")
-        yield Footer()
+        yield Static("", id="message", classes="message")
+        yield Footer(show_command_palette=False, compact=True)
 
-    def on_screen_resume(self) -> None:
-        self.action_to_current()
-
-    def watch_data(self) -> None:
-        self.redraw()
-        self.action_to_current()
-
-    def watch_note(self) -> None:
-        self.redraw()
-
-    def action_to_current(self) -> None:
-        """Scroll to the visit under way, else the next one."""
-        if self._ready:
-            self.query_one(RowList).scroll_to_first("now", "next")
-
-    def redraw(self) -> None:
-        if not self._ready or self.data is None:
+    def show_night(self) -> None:
+        if not self._ready:
             return
-        run, plan = self.data.run, self.data.plan
-        header = self.query_one(NightHeader)
-        header.site_name = run.site.location.name
-        header.zone = run.site.location.timezone
-        header.night = self.data.night
-        header.now_jd = self.now_jd
+        app = self.app
+        self.set_header()
+        self.query_one("#message", Static).update(app.message)
+        data, plan = app.data, app.plan
         rows = self.query_one(RowList)
-        if plan is None:
-            self.query_one("#summary", Static).update(self.note or self.data.plan_note)
-            rows.show([], empty="no plan for this night")
+        if data is None:
+            self.query_one("#now", Static).update(app.load_error or "computing the night…")
+            self.query_one("#summary", Static).update("")
+            rows.show([], empty="")
             return
-        self.query_one("#summary", Static).update(self.note or plan_summary(plan))
-        rows.show(plan_rows(plan, run.site.location.timezone, self.now_jd), empty="no visits planned")
+        w = self.width
+        self.query_one("#plan-head", Static).update(plan_head(w))
+        self.query_one("#now", Static).update("\n".join(now_lines(
+            plan, data.run, app.sky, app.states, app.now_jd, w,
+            "the plan is being made…" if data.planning else "no plan for this night")))
+        if plan is None:
+            self.query_one("#summary", Static).update(data.plan_note)
+            rows.show([], empty="planning the night…" if data.planning else "no plan for this night")
+            return
+        self.query_one("#summary", Static).update(plan_summary(plan, app.states, w))
+        nxt = app.next_visit_id
+        fresh = rows.current is None
+        rows.show(plan_rows(plan, app.states, data.run.site.location.timezone, nxt, w), empty="no visits planned")
+        if fresh:
+            self.to_current()
+
+    def to_current(self) -> None:
+        """The cursor to the visit under way, else the next one, else the last."""
+        rows = self.query_one(RowList)
+        if rows.move_to_kind("under-way", "next"):
+            return
+        app = self.app
+        ended = app.plan is not None and app.now_jd >= app.plan.window_end_jd
+        rows.action_move(100000 if ended else -100000)  # a night over: its end; a night ahead: its start
+
+    def chosen_id(self) -> str | None:
+        row = self.query_one(RowList).current
+        return row.key if row is not None and row.key else None

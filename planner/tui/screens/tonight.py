@@ -1,41 +1,45 @@
-"""Tonight: the almanac block and each target's window, the targets up now marked."""
+"""The sky now: the almanac, then every target with its altitude, azimuth, airmass, the time
+left inside the limits and, for those out, the reason."""
 
 from __future__ import annotations
 
 from textual.app import ComposeResult
 from textual.widgets import Footer, Static
 
-from planner.tui.rows import TARGET_HEAD, almanac_lines, target_rows
+from planner.tui.rows import almanac_lines, sky_head, sky_rows
 from planner.tui.screens.night_screen import NightScreen
 from planner.tui.widgets.night_header import NightHeader
 from planner.tui.widgets.row_list import RowList
 
 
 class TonightScreen(NightScreen):
-    """The night's Sun, twilights and Moon, and when each target is observable."""
-
+    """The night's Sun, twilights and Moon, and what is up right now."""
 
     def compose(self) -> ComposeResult:
         yield NightHeader(id="header")
         yield Static("", id="almanac", classes="block")
-        yield Static(TARGET_HEAD, id="target-head", classes="head")
+        yield Static(sky_head(), id="target-head", classes="head")
         yield RowList(id="targets")
-        yield Static("", id="note", classes="note")
-        yield Footer()
+        yield Static("", id="message", classes="message")
+        yield Footer(show_command_palette=False, compact=True)
 
-    def watch_note(self, note: str) -> None:
-        if self._ready:
-            self.query_one("#note", Static).update(note)
-
-    def redraw(self) -> None:
-        if not self._ready or self.data is None:
+    def show_night(self) -> None:
+        if not self._ready:
             return
-        run = self.data.run
-        header = self.query_one(NightHeader)
-        header.site_name = run.site.location.name
-        header.zone = run.site.location.timezone
-        header.night = self.data.night
-        header.now_jd = self.now_jd
-        self.query_one("#almanac", Static).update("\n".join(almanac_lines(run)))
-        self.query_one(RowList).show(target_rows(run, self.now_jd), empty="no targets")
-        self.query_one("#note", Static).update(self.note or "; ".join(run.warnings))
+        app = self.app
+        self.set_header()
+        data = app.data
+        message = app.message or ("; ".join(data.run.warnings) if data else "")
+        if data is not None and app.sky is not None and abs(app.sky.jd - app.now_jd) > 1e-6:
+            from planner.sky.nights import local_hhmm
+
+            message = (f"the sky at {local_hhmm(app.sky.jd, data.run.site.location.timezone)}, mid-dark: "
+                       "the clock is in another night (t: tonight)")
+        self.query_one("#message", Static).update(message)
+        if data is None or app.sky is None:
+            self.query_one("#almanac", Static).update(app.load_error or "computing the night…")
+            self.query_one(RowList).show([], empty="")
+            return
+        w = self.width
+        self.query_one("#almanac", Static).update("\n".join(almanac_lines(data.run, 0, w)))
+        self.query_one(RowList).show(sky_rows(data.run, app.sky, w), empty="no targets")
