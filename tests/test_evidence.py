@@ -105,3 +105,12 @@ def test_a_grouped_entry_counts_its_frames_across_lines():
     ev = match_visits([v], frames, KEY)[v.id]
     assert (ev.status, ev.frames_found, ev.frames_planned) == ("partial", 4, 5)
     assert [(o.filter, o.frames) for o in ev.owed] == [("I", 1)]
+
+
+def test_a_frame_on_the_boundary_of_two_visits_back_to_back_is_the_later_ones():
+    """Two like visits of one cluster back to back (one's end is the next one's start): a frame
+    that starts on the boundary cannot belong to the visit that ends there."""
+    first = _visit("0105-N5272-hbV1", lines=(Line("V", 1, 20.0),))
+    second = _visit("0105-N5272-hbV2", lines=(Line("V", 1, 20.0),), start=first.end_jd)
+    assert _status([first, second], [Frame(1, "NGC 5272", "V", 20.0, second.start_jd)]) == {
+        first.id: None, second.id: "done"}

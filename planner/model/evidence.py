@@ -11,7 +11,8 @@ links from frames to planned visits):
   :data:`TIME_TOLERANCE_D` on either side (observers start a little late or
   early; a frame outside that is another visit's, or none);
 * each frame counts once: it goes to the matching visit whose span it falls in,
-  else the nearest one, and never beyond the frames a line asks for;
+  else the nearest one (on the boundary of two visits back to back, the later one),
+  and never beyond the frames a line asks for;
 * a visit with all its frames is ``done``; with some but not all ``partial``
   (:attr:`VisitEvidence.owed` lists the frames still to take); with none, the
   log holds no evidence for it.
@@ -86,11 +87,14 @@ def match_visits(visits: Sequence, frames: Iterable, key: Callable[[str], str] =
     entries: dict[str, list] = {v.id: [] for v in visits}
     for f in sorted(frames, key=lambda f: (f.time_jd, f.id if f.id is not None else 0)):
         left = max(int(f.frames or 1), 1)
-        # Candidates: (distance outside the span, start, visit, line) with frames still wanted.
-        cands = sorted(((outside_span_d(v, f.time_jd), v.start_jd, n, v, k) for n, v in enumerate(visits)
+        # Candidates: (distance outside the span, distance from the science start, start, visit,
+        # line) with frames still wanted.  The second key settles a frame on the boundary of two
+        # visits back to back (one's end is the next one's start): it is the later one's.
+        cands = sorted(((outside_span_d(v, f.time_jd), abs(f.time_jd - getattr(v, "science_start_jd", v.start_jd)), v.start_jd, n, v, k)
+                        for n, v in enumerate(visits)
                         for k, line in enumerate(v.exposures) if line_fits(v, line, f, key)),
-                       key=lambda c: c[:3])
-        for _, _, _, v, k in cands:
+                       key=lambda c: c[:4])
+        for _, _, _, _, v, k in cands:
             take = min(left, need[v.id][k] - got[v.id][k])
             if take <= 0:
                 continue
