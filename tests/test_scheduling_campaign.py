@@ -353,6 +353,27 @@ def test_cadence_is_spread_over_each_clusters_hours(demo_plan):
                 assert span * 60 > 1.5 * (len(mids) - 1) * c.min_spacing_min
 
 
+def test_spare_depth_frames_back_to_back_are_one_visit(demo_plan):
+    """A run of spare-time frames of one target, filter and exposure is one pointing at the
+    telescope (one acquisition), not a visit per frame: no two such visits back to back, and
+    the merged visits keep the visit model's time (acquisition + frames × (exposure + readout))."""
+    from planner.scheduling.campaign import is_fill
+    from planner.scheduling.visits import body_s
+
+    campaign, plan = demo_plan
+    merged = 0
+    for p in plan.nights:
+        visits = sorted(p.visits, key=lambda v: v.start_jd)
+        for a, b in zip(visits, visits[1:]):
+            assert not (is_fill(a) and is_fill(b) and a.purpose != "variables" and a.request_key == b.request_key
+                        and a.exposures == b.exposures and b.start_jd <= a.end_jd + 2 / 86400), (a.id, b.id)
+        for v in visits:
+            if is_fill(v) and v.purpose != "variables" and v.exposures[0].frames > 1:
+                merged += 1
+                assert abs((v.end_jd - v.science_start_jd) * 86400 - body_s(campaign.site, v.exposures)) < 0.01
+    assert merged > 0
+
+
 def test_extra_epochs_keep_the_minimum_spacing_from_the_goals_epochs(demo_plan):
     """Spare-time cadence epochs add phase only when they are apart from every other epoch
     of the cluster that night, the goals' included: no two variables visits of a cluster

@@ -19,6 +19,7 @@ import json
 import re
 import shutil
 from pathlib import Path
+from zoneinfo import ZoneInfo
 
 import pytest
 from rich.cells import cell_len
@@ -237,17 +238,24 @@ def test_mark_done_skip_and_note_are_logged_as_made(campaign_file, demo_plan, ca
     assert {e["time"] for e in events} == {"2027-01-07T03:00:00Z"}
 
 
+def _moment_of_jd(jd: float) -> dt.datetime:
+    return dt.datetime(2000, 1, 1, 12, tzinfo=dt.timezone.utc) + dt.timedelta(days=jd - 2451545.0)
+
+
 def test_a_later_visit_and_a_one_frame_partial_are_refused_with_a_hint(campaign_file, demo_plan):
-    current = under_way(demo_plan, NOW)
+    # the clock in the middle of the night's first one-frame visit from NOW on
+    current = next(v for v in demo_plan.visits if v.start_jd >= datetime_to_jd(NOW)
+                   and sum(e.frames for e in v.exposures) == 1)
+    moment = _moment_of_jd(0.5 * (current.start_jd + current.end_jd))
 
     async def go():
-        app = make_app(campaign_file, SetClock(NOW))
+        app = make_app(campaign_file, SetClock(moment))
         async with app.run_test(size=(80, 24)) as pilot:
             await settle(pilot)
             await pilot.press("down", "d")  # the next visit has not started
             await pilot.pause()
             assert "has not started yet" in screen_text(app)
-            await pilot.press("up", "p")  # the demo's visits are single frames
+            await pilot.press("up", "p")  # a single frame: nothing to be partial
             await pilot.pause()
             assert f"{current.id} has one frame: mark it done (d) or skip it (s)" in screen_text(app)
 
@@ -381,9 +389,12 @@ def test_clock_ticks_update_lines_in_place(campaign_file, demo_plan):
 
     clock = SetClock(NOW)
     current = under_way(demo_plan, NOW)
-    later = NOW + dt.timedelta(minutes=2)
+    # a minute into the next visit (its start is the current one's end, or later)
+    nxt = next(v for v in demo_plan.visits if v.start_jd >= current.end_jd - 1e-9)
+    later = _moment_of_jd(nxt.start_jd) + dt.timedelta(minutes=1)
     after = under_way(demo_plan, later)
     assert after.id != current.id
+    local = later.astimezone(ZoneInfo(read_campaign_file(campaign_file).site.location.timezone))
 
     async def go():
         app = make_app(campaign_file, clock)
@@ -395,8 +406,8 @@ def test_clock_ticks_update_lines_in_place(campaign_file, demo_plan):
             app.tick()
             await settle(pilot)
             assert rows.rebuilds == built
-            assert "02:01 local 05:01 UTC" not in screen_text(app)
-            assert "00:02 local 03:02 UTC" in screen_text(app)
+            # the site's local clock (not UTC shown twice)
+            assert f"{local:%H:%M} local {later:%H:%M} UTC" in screen_text(app)
             line = next(l for l in screen_lines(app) if after.id in l and "NOW" not in l)
             assert line.strip().startswith("▶")
 

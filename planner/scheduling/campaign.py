@@ -46,6 +46,7 @@ from planner.scheduling.campaign_nights import (
     STEP_MIN,
     assign_depth,
     cadence_spacing,
+    merge_spare_runs,
     fits,
     gaps_with_reasons,
     goal_runs,
@@ -506,7 +507,8 @@ def add_spare_work(campaign, night, w0, w1, eph, goal_visits, extra, covered, se
     more = plan_night(site, constraints, extra, night, w0, w1, eph, seeing_arcsec=seeing, fixed=held,
                       covered_bins=bins, id_offset=len(goal_visits), closed=closed, not_before_jd=not_before_jd)
     own = {v.id: v for v in goal_visits}
-    return reconcile(site, [own.get(v.id, v) for v in more.visits], is_fill), more.value
+    placed = reconcile(site, [own.get(v.id, v) for v in more.visits], is_fill)
+    return merge_spare_runs(site, placed, is_fill), more.value
 
 
 def _prefix_ids(plan: NightPlan, night: dt.date) -> NightPlan:

@@ -223,6 +223,43 @@ def reconcile(site, visits, is_fill) -> list:
     return out
 
 
+def merge_spare_runs(site, visits, is_fill) -> list:
+    """Spare-time depth visits of one target, filter and exposure placed back to back become
+    one visit over the same time: one acquisition instead of one per frame, and the time
+    that frees filled with more frames of the same kind.  The planner places such work one
+    frame a visit (so it fits between cadence visits); at the telescope a run of them is one
+    pointing.  The merged visit's S/N is its first part's scaled by √(frames ratio), exact
+    for a stack of like frames."""
+    import re
+
+    cam, tel = site.camera, site.telescope
+    out, run_end = [], -np.inf  # run_end: where the last merged piece ended as placed
+    for v in sorted(visits, key=lambda v: v.start_jd):
+        prev = out[-1] if out else None
+        if (prev is not None and is_fill(prev) and is_fill(v) and v.purpose != "variables"
+                and v.request_key == prev.request_key and len(v.exposures) == len(prev.exposures) == 1
+                and v.exposures[0].filter == prev.exposures[0].filter
+                and v.exposures[0].exposure_s == prev.exposures[0].exposure_s
+                and v.start_jd <= max(prev.end_jd, run_end) + 1e-9):
+            line = prev.exposures[0]
+            span_s = (v.end_jd - prev.science_start_jd) * 86400.0
+            n = max(int((span_s - tel.acquisition_s + 1e-6) // (line.exposure_s + cam.readout_s)), 1)
+            exposures = (replace(line, frames=n),)
+            w0, w1 = prev.exposures[0].frames, v.exposures[0].frames
+            snr = None if prev.snr_planned is None else prev.snr_planned * (n / line.frames) ** 0.5
+            notes = tuple(re.sub(r"^(?:one|\d+) more (.+?) frames?$", rf"{n} more \1 frames", x) if n > 1 else x
+                          for x in prev.notes)
+            out[-1] = replace(prev, exposures=exposures,
+                              end_jd=prev.science_start_jd + body_s(site, exposures) / 86400.0,
+                              airmass_end=v.airmass_end, snr_planned=snr, notes=notes,
+                              airmass_mid=(prev.airmass_mid * w0 + v.airmass_mid * w1) / (w0 + w1))
+            run_end = v.end_jd
+            continue
+        out.append(v)
+        run_end = v.end_jd
+    return out
+
+
 def free_time(w0: float, w1: float, visits, closed) -> list[tuple[float, float, bool]]:
     """The usable window's time outside the visits, as (start, end, closed) pieces."""
     free, t = [], w0
