@@ -83,7 +83,9 @@ def step_night(site, targets, night, out):
     from planner.reports.night_report import night_json, night_text
     from planner.sky.night_summary import night_curves, run_of_nights
 
-    run_ = run_of_nights(site, targets, [night], constraints_for_site(site))
+    from planner.cache.sun_moon import default_store
+
+    run_ = run_of_nights(site, targets, [night], constraints_for_site(site), store=default_store())
     _write(out / "night.txt", night_text(run_))
     common.write_json(out / "night.json", night_json(run_))
     save_night_chart(run_, night_curves(run_), out / "night.png")
@@ -105,12 +107,15 @@ def step_semester(site, targets, night, out):
 
     nights = [night + dt.timedelta(days=i) for i in range(SEMESTER_NIGHTS)]
     constraints = constraints_for_site(site)
-    run_ = run_of_nights(site, targets, nights, constraints)
+    from planner.cache.sun_moon import default_store
+
+    store = default_store()
+    run_ = run_of_nights(site, targets, nights, constraints, store=store)
     _write(out / "semester.txt", observability_text(run_, seasons(run_)))
     common.write_json(out / "semester.json", observability_json(run_, seasons(run_)))
     save_observability_chart(run_, out / "semester.png")
     # The whole bundled catalog as well: which other clusters the site could take.
-    everything = run_of_nights(site, catalog_targets(load_catalog()), nights, constraints)
+    everything = run_of_nights(site, catalog_targets(load_catalog()), nights, constraints, store=store)
     _write(out / "semester_catalog.txt", observability_text(everything, seasons(everything)))
     return [
         ("semester.txt", f"{SEMESTER_NIGHTS} nights from {night}: hours, best nights and months"),
@@ -264,7 +269,10 @@ def write_demo_schedule(out_dir, site=None):
         campaign = replace(campaign, site=site, constraints=constraints_for_site(
             site, twilight=c.twilight, max_airmass=c.max_airmass, min_altitude_deg=c.min_altitude_deg,
             min_moon_separation_deg=c.min_moon_separation_deg))
-    plan = plan_campaign(campaign)
+    from planner.cache.sun_moon import default_store
+
+    store = default_store()
+    plan = plan_campaign(campaign, store=store)
     written = []
     for night_plan in plan.nights:
         p = out / f"schedule_{night_plan.night.isoformat()}.txt"
@@ -272,7 +280,8 @@ def write_demo_schedule(out_dir, site=None):
         written.append(p)
     written.append(common.write_json(out / "campaign.json", campaign_json(plan)))
     first = plan.nights[0]
-    written.append(save_schedule_plot(campaign.site, first, out / f"schedule_{first.night.isoformat()}.png"))
+    written.append(save_schedule_plot(campaign.site, first, out / f"schedule_{first.night.isoformat()}.png",
+                                      store=store))
     return written
 
 

@@ -44,6 +44,7 @@ def register(sub) -> None:
 def run(args) -> int:
     from planner.reports.schedule_report import night_sheet, schedule_json
     from planner.cache.plans import plan_cache_for
+    from planner.cache.sun_moon import default_store
     from planner.scheduling.replan import replan_night
 
     night = common.parse_night_date(args.date)
@@ -57,7 +58,7 @@ def run(args) -> int:
     result = replan_night(campaign, night, now, closed=closed, done=tuple(args.done), logged=logged,
                           seeing_arcsec=args.seeing, key=_catalog_key(), logged_closed=log_closed,
                           assume_done=args.assume_done, used_ids=recorded,
-                          cache=plan_cache_for(campaign.source))
+                          cache=plan_cache_for(campaign.source), store=default_store())
     if args.json:
         data = schedule_json(campaign.site, result.plan)
         data["replan"] = result.summary()
