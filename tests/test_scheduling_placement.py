@@ -200,3 +200,17 @@ def test_the_bound_holds_with_fixed_visits_and_a_late_start():
     assert validate_plan(SITE, again, requests) == []
     assert all(v.start_jd >= now - 1e-9 for v in again.visits if v not in fixed)
     assert again.value <= again.bound_value * (1 + 1e-9)
+
+
+@pytest.mark.parametrize("seed", range(5))
+def test_the_rows_running_maximum_is_each_rows_sliding_window(seed):
+    """The bound's U for all requests at once (a sparse table) against the plain sliding
+    window of each row (numpy's sliding_window_view; common practice, no source)."""
+    from planner.scheduling.bound import window_max, window_max_rows
+
+    rng = np.random.default_rng(seed)
+    rows, points = int(rng.integers(1, 12)), int(rng.integers(1, 400))
+    v = rng.random((rows, points)) * (rng.random((rows, points)) > 0.3)
+    half = rng.integers(0, 150, rows)
+    expect = np.array([window_max(v[r], int(half[r])) for r in range(rows)])
+    assert np.array_equal(window_max_rows(v, half), expect)

@@ -83,6 +83,32 @@ def window_max(v: np.ndarray, half_width: int) -> np.ndarray:
     return sliding_window_view(padded, 2 * half_width + 1).max(axis=-1)
 
 
+def window_max_rows(v: np.ndarray, half_widths: np.ndarray) -> np.ndarray:
+    """:func:`window_max` of every row of ``v`` at once, row r over ±``half_widths[r]`` points.
+
+    A sparse table (the maximum over 2^j points from each point, j = 0, 1, …) answers any
+    window with two overlapping lookups; log2 of the widest window array operations
+    instead of a sliding window per row."""
+    n_rows, n = v.shape
+    h = np.asarray(half_widths, dtype=int)
+    pad = int(h.max()) if n_rows else 0
+    levels = [np.pad(v, ((0, 0), (pad, pad)), constant_values=0.0)]
+    length = 2 * h + 1
+    top = np.floor(np.log2(length)).astype(int)
+    while len(levels) <= int(top.max()):
+        a, span = levels[-1], 1 << (len(levels) - 1)
+        levels.append(np.maximum(a[:, :-span], a[:, span:]))
+    out = np.empty_like(v, dtype=float)
+    i = np.arange(n)
+    for j in np.unique(top):
+        rows = np.flatnonzero(top == j)
+        lo = pad + i[None, :] - h[rows, None]
+        hi = lo + length[rows, None] - (1 << int(j))
+        tab = levels[int(j)][rows]
+        out[rows] = np.maximum(np.take_along_axis(tab, lo, axis=1), np.take_along_axis(tab, hi, axis=1))
+    return out
+
+
 def night_bound(v_point, ok_point, free, count, body_min_min, reach_min, slot_min=1.0) -> Bound:
     """Solve the relaxation.
 
@@ -98,11 +124,8 @@ def night_bound(v_point, ok_point, free, count, body_min_min, reach_min, slot_mi
     n_int = n_pts - 1
     if n_req == 0 or n_int <= 0 or not np.any(count > 0):
         return Bound(0.0, METHOD, np.zeros(max(n_int, 0)), np.zeros((n_req, max(n_int, 0))))
-    u_int = np.zeros((n_req, n_int))
-    for r in range(n_req):
-        w = int(np.ceil(reach_min[r] / slot_min)) + 1
-        u = window_max(v_point[r], w)
-        u_int[r] = np.maximum(u[:-1], u[1:])
+    u = window_max_rows(v_point, np.ceil(np.asarray(reach_min) / slot_min).astype(int) + 1)
+    u_int = np.maximum(u[:, :-1], u[:, 1:])
     ok_int = ok_point[:, :-1] & ok_point[:, 1:]
     k_of = np.arange(n_int) // BOUND_SLOT_MIN
     n_k = int(k_of[-1]) + 1
