@@ -16,7 +16,7 @@ import numpy as np
 
 from planner.reports.altitude_chart import night_chart
 from planner.reports.figure_common import A4_LANDSCAPE_IN, TARGET_COLOURS, jd_to_mdate, save_figure
-from planner.scheduling.campaign import FILL_SUFFIX
+from planner.scheduling.night_plan import FILL_SUFFIX
 
 
 def schedule_chart(site, plan, fig=None, store=None):

@@ -55,7 +55,7 @@ from planner.scheduling.campaign_nights import (
     visit_minutes,
 )
 from planner.scheduling.night import plan_night
-from planner.scheduling.night_plan import NightPlan
+from planner.scheduling.night_plan import FILL_SUFFIX, NightPlan
 from planner.scheduling.night_sky import night_sky
 from planner.scheduling.visits import Exposure, VisitRequest, body_s, setup_s, shutter_s
 from planner.sky.visibility import angular_separation_deg
@@ -64,9 +64,9 @@ from planner.sky.visibility import angular_separation_deg
 EXPOSURE_AIRMASS = 1.2
 #: Seed of the recovery forecast's simulation (the forecast must be reproducible).
 FORECAST_SEED = 1
-#: Request keys of spare-time work end so (the goals' own keys are ``TARGET/LEVEL-FILTER``
-#: and ``TARGET/variables``); its visits carry :data:`FILL_NOTE`.
-FILL_SUFFIX = "/fill"
+#: Request keys of spare-time work end in FILL_SUFFIX (planner.scheduling.night_plan; the
+#: goals' own keys are ``TARGET/LEVEL-FILTER`` and ``TARGET/variables``); its visits carry
+#: :data:`FILL_NOTE`.
 FILL_NOTE = "extra (beyond the goals)"
 #: A campaign whose goals take less than this share of its usable time is told so (our choice).
 LOW_DEMAND = 0.25
