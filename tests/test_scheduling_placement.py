@@ -214,3 +214,50 @@ def test_the_rows_running_maximum_is_each_rows_sliding_window(seed):
     half = rng.integers(0, 150, rows)
     expect = np.array([window_max(v[r], int(half[r])) for r in range(rows)])
     assert np.array_equal(window_max_rows(v, half), expect)
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_the_bound_is_the_relaxations_optimum_from_milp(seed):
+    """night_bound's value against the same relaxation written out here from its definition
+    (planner/scheduling/bound.py's docstring), point by point with plain loops, and solved by
+    scipy's milp with no integer variables (HiGHS through another entry point): equal."""
+    from scipy.optimize import Bounds, LinearConstraint, milp
+
+    from planner.scheduling.bound import BOUND_SLOT_MIN, night_bound
+
+    rng = np.random.default_rng(500 + seed)
+    n_req, n_pts = int(rng.integers(2, 8)), int(rng.integers(20, 90))
+    ok = rng.random((n_req, n_pts)) > 0.25
+    v = np.where(ok, rng.random((n_req, n_pts)) * rng.integers(1, 4, n_req)[:, None], 0.0)
+    free = np.clip(rng.random(n_pts - 1) * 1.5, 0.0, 1.0)
+    count = rng.integers(0, 3, n_req).astype(float)
+    body = rng.uniform(3.0, 25.0, n_req)
+    reach = rng.uniform(1.0, 20.0, n_req)
+    got = night_bound(v, ok, free, count, body, reach).value
+
+    n_int = n_pts - 1
+    n_k = (n_int - 1) // BOUND_SLOT_MIN + 1
+    cap = np.zeros(n_k)
+    ok_min = np.zeros((n_req, n_k))
+    big_u = np.zeros((n_req, n_k))
+    for r in range(n_req):
+        w = int(np.ceil(reach[r])) + 1
+        u_pt = [max(v[r, max(0, i - w): i + w + 1]) for i in range(n_pts)]
+        for i in range(n_int):
+            k = i // BOUND_SLOT_MIN
+            if r == 0:
+                cap[k] += free[i]
+            if ok[r, i] and ok[r, i + 1]:
+                ok_min[r, k] += free[i]
+                big_u[r, k] = max(big_u[r, k], u_pt[i], u_pt[i + 1])
+    c = (big_u / body[:, None]).ravel()  # variable r * n_k + k
+    a = np.zeros((n_k + n_req, n_req * n_k))
+    for r in range(n_req):
+        for k in range(n_k):
+            a[k, r * n_k + k] = 1.0
+            a[n_k + r, r * n_k + k] = 1.0
+    upper = np.where(count[:, None] > 0, ok_min, 0.0).ravel()
+    res = milp(-c, constraints=LinearConstraint(a, -np.inf, np.concatenate([cap, count * body])),
+               bounds=Bounds(np.zeros(c.size), upper), integrality=np.zeros(c.size))
+    assert res.status == 0
+    assert got == pytest.approx(-res.fun, rel=1e-7, abs=1e-9)
