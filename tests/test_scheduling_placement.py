@@ -261,3 +261,63 @@ def test_the_bound_is_the_relaxations_optimum_from_milp(seed):
                bounds=Bounds(np.zeros(c.size), upper), integrality=np.zeros(c.size))
     assert res.status == 0
     assert got == pytest.approx(-res.fun, rel=1e-7, abs=1e-9)
+
+
+def _random_transport(rng):
+    n_k, n_req = int(rng.integers(5, 60)), int(rng.integers(2, 25))
+    use = rng.random((n_req, n_k)) > 0.3
+    rr, kk = np.nonzero(use)
+    n = rr.size
+    return (-rng.random(n), np.arange(0, 2 * n + 1, 2), np.column_stack([kk, n_k + rr]).ravel(), np.ones(2 * n),
+            np.concatenate([rng.uniform(0, 5, n_k), rng.uniform(0, 15, n_req)]), rng.uniform(0, 5, n))
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_highs_called_directly_gives_what_linprog_gives(seed):
+    """The bound's LP through HiGHS's compiled module against scipy.optimize.linprog (the
+    public API, the same method and options): the same optimum, solution and duals."""
+    from planner.scheduling.highs import _compiled, solve_lp
+
+    if _compiled("_highspy._core") is None:
+        pytest.skip("this scipy's HiGHS module cannot be loaded directly: linprog is used")
+    args = _random_transport(np.random.default_rng(seed))
+    direct, public = solve_lp(*args), solve_lp(*args, direct=False)
+    assert direct[0] == pytest.approx(public[0], rel=1e-12, abs=1e-12)
+    np.testing.assert_allclose(direct[1], public[1], atol=1e-12)
+    np.testing.assert_allclose(direct[2], public[2], atol=1e-12)
+
+
+def test_the_linear_assignment_is_scipys():
+    from scipy.optimize import linear_sum_assignment as public
+
+    from planner.scheduling.highs import linear_sum_assignment
+
+    cost = np.random.default_rng(3).random((7, 9))
+    got, expect = linear_sum_assignment(cost), public(cost)
+    assert all(np.array_equal(a, b) for a, b in zip(got, expect))
+
+
+def test_a_schedule_loads_no_scipy_optimize_and_scipy_optimize_still_imports_after():
+    """The whole of scipy.optimize stays unloaded while a night is planned (its import costs
+    more than the plan), and importing it afterwards reuses the modules already loaded."""
+    import subprocess
+    import sys
+    import textwrap
+
+    script = textwrap.dedent("""
+        import sys
+        import numpy as np
+        from planner.scheduling.bound import night_bound
+        from planner.scheduling.highs import linear_sum_assignment
+        rng = np.random.default_rng(0)
+        v = rng.random((4, 60)); ok = v > 0.2
+        b = night_bound(v, ok, np.ones(59), np.ones(4), np.full(4, 10.0), np.full(4, 5.0))
+        linear_sum_assignment(rng.random((3, 3)))
+        print("scipy.optimize" in sys.modules, b.value > 0)
+        from scipy.optimize import linear_sum_assignment as lsa, linprog
+        r = linprog([-1.0, -2.0], A_ub=[[1.0, 1.0]], b_ub=[1.0], bounds=[(0, 1), (0, 1)])
+        print(r.status == 0 and abs(r.fun + 2.0) < 1e-9, lsa(np.eye(2))[1].tolist())
+    """)
+    done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.split() == ["False", "True", "True", "[1,", "0]"]  # the least-cost pairing of eye(2)
