@@ -200,3 +200,124 @@ def test_the_bound_holds_with_fixed_visits_and_a_late_start():
     assert validate_plan(SITE, again, requests) == []
     assert all(v.start_jd >= now - 1e-9 for v in again.visits if v not in fixed)
     assert again.value <= again.bound_value * (1 + 1e-9)
+
+
+@pytest.mark.parametrize("seed", range(5))
+def test_the_rows_running_maximum_is_each_rows_sliding_window(seed):
+    """The bound's U for all requests at once (a sparse table) against the plain sliding
+    window of each row (numpy's sliding_window_view; common practice, no source)."""
+    from planner.scheduling.bound import window_max, window_max_rows
+
+    rng = np.random.default_rng(seed)
+    rows, points = int(rng.integers(1, 12)), int(rng.integers(1, 400))
+    v = rng.random((rows, points)) * (rng.random((rows, points)) > 0.3)
+    half = rng.integers(0, 150, rows)
+    expect = np.array([window_max(v[r], int(half[r])) for r in range(rows)])
+    assert np.array_equal(window_max_rows(v, half), expect)
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_the_bound_is_the_relaxations_optimum_from_milp(seed):
+    """night_bound's value against the same relaxation written out here from its definition
+    (planner/scheduling/bound.py's docstring), point by point with plain loops, and solved by
+    scipy's milp with no integer variables (HiGHS through another entry point): equal."""
+    from scipy.optimize import Bounds, LinearConstraint, milp
+
+    from planner.scheduling.bound import BOUND_SLOT_MIN, night_bound
+
+    rng = np.random.default_rng(500 + seed)
+    n_req, n_pts = int(rng.integers(2, 8)), int(rng.integers(20, 90))
+    ok = rng.random((n_req, n_pts)) > 0.25
+    v = np.where(ok, rng.random((n_req, n_pts)) * rng.integers(1, 4, n_req)[:, None], 0.0)
+    free = np.clip(rng.random(n_pts - 1) * 1.5, 0.0, 1.0)
+    count = rng.integers(0, 3, n_req).astype(float)
+    body = rng.uniform(3.0, 25.0, n_req)
+    reach = rng.uniform(1.0, 20.0, n_req)
+    got = night_bound(v, ok, free, count, body, reach).value
+
+    n_int = n_pts - 1
+    n_k = (n_int - 1) // BOUND_SLOT_MIN + 1
+    cap = np.zeros(n_k)
+    ok_min = np.zeros((n_req, n_k))
+    big_u = np.zeros((n_req, n_k))
+    for r in range(n_req):
+        w = int(np.ceil(reach[r])) + 1
+        u_pt = [max(v[r, max(0, i - w): i + w + 1]) for i in range(n_pts)]
+        for i in range(n_int):
+            k = i // BOUND_SLOT_MIN
+            if r == 0:
+                cap[k] += free[i]
+            if ok[r, i] and ok[r, i + 1]:
+                ok_min[r, k] += free[i]
+                big_u[r, k] = max(big_u[r, k], u_pt[i], u_pt[i + 1])
+    c = (big_u / body[:, None]).ravel()  # variable r * n_k + k
+    a = np.zeros((n_k + n_req, n_req * n_k))
+    for r in range(n_req):
+        for k in range(n_k):
+            a[k, r * n_k + k] = 1.0
+            a[n_k + r, r * n_k + k] = 1.0
+    upper = np.where(count[:, None] > 0, ok_min, 0.0).ravel()
+    res = milp(-c, constraints=LinearConstraint(a, -np.inf, np.concatenate([cap, count * body])),
+               bounds=Bounds(np.zeros(c.size), upper), integrality=np.zeros(c.size))
+    assert res.status == 0
+    assert got == pytest.approx(-res.fun, rel=1e-7, abs=1e-9)
+
+
+def _random_transport(rng):
+    n_k, n_req = int(rng.integers(5, 60)), int(rng.integers(2, 25))
+    use = rng.random((n_req, n_k)) > 0.3
+    rr, kk = np.nonzero(use)
+    n = rr.size
+    return (-rng.random(n), np.arange(0, 2 * n + 1, 2), np.column_stack([kk, n_k + rr]).ravel(), np.ones(2 * n),
+            np.concatenate([rng.uniform(0, 5, n_k), rng.uniform(0, 15, n_req)]), rng.uniform(0, 5, n))
+
+
+@pytest.mark.parametrize("seed", range(8))
+def test_highs_called_directly_gives_what_linprog_gives(seed):
+    """The bound's LP through HiGHS's compiled module against scipy.optimize.linprog (the
+    public API, the same method and options): the same optimum, solution and duals."""
+    from planner.scheduling.highs import _compiled, solve_lp
+
+    if _compiled("_highspy._core") is None:
+        pytest.skip("this scipy's HiGHS module cannot be loaded directly: linprog is used")
+    args = _random_transport(np.random.default_rng(seed))
+    direct, public = solve_lp(*args), solve_lp(*args, direct=False)
+    assert direct[0] == pytest.approx(public[0], rel=1e-12, abs=1e-12)
+    np.testing.assert_allclose(direct[1], public[1], atol=1e-12)
+    np.testing.assert_allclose(direct[2], public[2], atol=1e-12)
+
+
+def test_the_linear_assignment_is_scipys():
+    from scipy.optimize import linear_sum_assignment as public
+
+    from planner.scheduling.highs import linear_sum_assignment
+
+    cost = np.random.default_rng(3).random((7, 9))
+    got, expect = linear_sum_assignment(cost), public(cost)
+    assert all(np.array_equal(a, b) for a, b in zip(got, expect))
+
+
+def test_a_schedule_loads_no_scipy_optimize_and_scipy_optimize_still_imports_after():
+    """The whole of scipy.optimize stays unloaded while a night is planned (its import costs
+    more than the plan), and importing it afterwards reuses the modules already loaded."""
+    import subprocess
+    import sys
+    import textwrap
+
+    script = textwrap.dedent("""
+        import sys
+        import numpy as np
+        from planner.scheduling.bound import night_bound
+        from planner.scheduling.highs import linear_sum_assignment
+        rng = np.random.default_rng(0)
+        v = rng.random((4, 60)); ok = v > 0.2
+        b = night_bound(v, ok, np.ones(59), np.ones(4), np.full(4, 10.0), np.full(4, 5.0))
+        linear_sum_assignment(rng.random((3, 3)))
+        print("scipy.optimize" in sys.modules, b.value > 0)
+        from scipy.optimize import linear_sum_assignment as lsa, linprog
+        r = linprog([-1.0, -2.0], A_ub=[[1.0, 1.0]], b_ub=[1.0], bounds=[(0, 1), (0, 1)])
+        print(r.status == 0 and abs(r.fun + 2.0) < 1e-9, lsa(np.eye(2))[1].tolist())
+    """)
+    done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.split() == ["False", "True", "True", "[1,", "0]"]  # the least-cost pairing of eye(2)

@@ -9,6 +9,7 @@ processes writing the same year at once, a folder that cannot be written.
 
 from __future__ import annotations
 
+import json
 import os
 import subprocess
 import sys
@@ -218,3 +219,66 @@ def test_where_the_cache_is(monkeypatch, tmp_path):
     from platformdirs import user_cache_dir
 
     assert cache_folder() == Path(user_cache_dir("gcplan", appauthor=False)) / "sun-moon"
+
+
+def test_versions_read_without_importing_agree_with_the_packages():
+    import astropy
+    import erfa
+
+    from planner.cache.sun_moon import package_version
+
+    assert package_version("astropy") == astropy.__version__
+    assert package_version("erfa") == erfa.__version__
+
+
+_SCHEDULE = ["schedule", "--site", "demo", *[a for name in ("NGC 104", "NGC 362", "NGC 1851", "NGC 2808",
+                                                            "NGC 6397", "NGC 6752") for a in ("--target", name)],
+             "--date", "2027-05-12", "--visit", "filter=V,frames=2,exposure=300", "--max-airmass", "2", "--json"]
+_NIGHT = ["night", "--site", "demo", "--targets", "all", "--date", "2027-01-10", "--json"]
+_CAMPAIGN_NIGHT = ["schedule", "--campaign", str(Path(__file__).resolve().parents[1] / "targets" / "demo" / "campaign.toml"),
+                   "--date", "2027-01-07", "--json"]
+
+# Runs the command and says which heavy modules it loaded (stdout: the command's own, then one line).
+_PROBE = textwrap.dedent("""
+    import contextlib, io, json, sys
+    import planner.sky.ephemeris as ephemeris
+    from planner.cli import main
+    made = []
+    compute = ephemeris.sun_moon_samples
+    ephemeris.sun_moon_samples = lambda jd: made.append(len(jd)) or compute(jd)
+    out = io.StringIO()
+    with contextlib.redirect_stdout(out):
+        status = main(sys.argv[1:])
+    print(out.getvalue())
+    print(json.dumps({"status": status, "made": len(made), "coordinates": "astropy.coordinates" in sys.modules}))
+""")
+
+
+def _run(argv, env):
+    done = subprocess.run([sys.executable, "-c", _PROBE, *argv], capture_output=True, text=True, env=env,
+                          timeout=300)
+    assert done.returncode == 0, done.stderr
+    text, _, probe = done.stdout.rstrip("\n").rpartition("\n")
+    probe = json.loads(probe)
+    assert probe["status"] == 0, done.stderr
+    return text, probe
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("argv", [_SCHEDULE, _NIGHT, _CAMPAIGN_NIGHT], ids=["schedule", "night", "campaign night"])
+def test_plans_are_the_same_with_and_without_the_cache(tmp_path, argv):
+    """The command's JSON without a cache, with an empty one and with a warm one: the same bytes;
+    the warm run makes no Sun and Moon samples (they come from the file) and, for the one-night
+    commands, loads no astropy.coordinates at all."""
+    base = {k: v for k, v in os.environ.items() if k not in ("GCPLAN_CACHE_DIR", "GCPLAN_NO_CACHE")}
+    fresh, p0 = _run(argv, {**base, "GCPLAN_NO_CACHE": "1"})
+    cached = {**base, "GCPLAN_CACHE_DIR": str(tmp_path)}
+    cold, p1 = _run(argv, cached)
+    assert list((tmp_path / "sun-moon").glob("*.npz"))  # the year was saved
+    warm, p2 = _run(argv, cached)
+    assert json.loads(fresh)  # a whole JSON document
+    assert cold == fresh and warm == fresh
+    assert p0["made"] and p1["made"]  # computed with astropy's ephemeris
+    assert not p2["made"]
+    if argv is not _CAMPAIGN_NIGHT:  # (the demo campaign's ECSV target list is read by astropy.table, which loads it)
+        assert p0["coordinates"] and not p2["coordinates"]

@@ -25,6 +25,7 @@ def run(args) -> int:
 
     from planner.errors import OutputError
     from planner.cache.plans import plan_cache_for
+    from planner.cache.sun_moon import default_store
     from planner.reports.campaign_report import campaign_json, campaign_text
     from planner.reports.schedule_report import night_sheet
     from planner.scheduling.campaign import plan_campaign
@@ -38,7 +39,8 @@ def run(args) -> int:
         if not out.parent.is_dir():
             raise OutputError(f"--out {args.out!r}: folder {str(out.parent)!r} does not exist")
     campaign = common.campaign_from_args(args)
-    plan = plan_campaign(campaign, seeing_arcsec=args.seeing, cache=plan_cache_for(campaign.source))
+    store = default_store()
+    plan = plan_campaign(campaign, seeing_arcsec=args.seeing, cache=plan_cache_for(campaign.source), store=store)
     data = campaign_json(plan)
     if args.json:
         common.print_json(data)
@@ -55,7 +57,7 @@ def run(args) -> int:
             with common.output_file(out / f"schedule_{p.night.isoformat()}.txt", "--out") as tmp:
                 tmp.write_text(night_sheet(campaign.site, p) + "\n", encoding="utf-8")
             with common.output_file(out / f"schedule_{p.night.isoformat()}.png", "--out") as tmp:
-                save_schedule_plot(campaign.site, p, tmp)
+                save_schedule_plot(campaign.site, p, tmp, store=store)
         common.write_json(out / "campaign.json", data)
         if not args.json:
             print(f"\nwritten to {out}/: a night sheet and a plot per night, campaign.json")

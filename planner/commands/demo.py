@@ -84,7 +84,9 @@ def step_night(site, targets, night, out):
     from planner.reports.night_report import night_json, night_text
     from planner.sky.night_summary import night_curves, run_of_nights
 
-    run_ = run_of_nights(site, targets, [night], constraints_for_site(site))
+    from planner.cache.sun_moon import default_store
+
+    run_ = run_of_nights(site, targets, [night], constraints_for_site(site), store=default_store())
     _write(out / "night.txt", night_text(run_))
     common.write_json(out / "night.json", night_json(run_))
     with common.output_file(out / "night.png", "--out") as tmp:
@@ -107,13 +109,16 @@ def step_semester(site, targets, night, out):
 
     nights = [night + dt.timedelta(days=i) for i in range(SEMESTER_NIGHTS)]
     constraints = constraints_for_site(site)
-    run_ = run_of_nights(site, targets, nights, constraints)
+    from planner.cache.sun_moon import default_store
+
+    store = default_store()
+    run_ = run_of_nights(site, targets, nights, constraints, store=store)
     _write(out / "semester.txt", observability_text(run_, seasons(run_)))
     common.write_json(out / "semester.json", observability_json(run_, seasons(run_)))
     with common.output_file(out / "semester.png", "--out") as tmp:
         save_observability_chart(run_, tmp)
     # The whole bundled catalog as well: which other clusters the site could take.
-    everything = run_of_nights(site, catalog_targets(load_catalog()), nights, constraints)
+    everything = run_of_nights(site, catalog_targets(load_catalog()), nights, constraints, store=store)
     _write(out / "semester_catalog.txt", observability_text(everything, seasons(everything)))
     return [
         ("semester.txt", f"{SEMESTER_NIGHTS} nights from {night}: hours, best nights and months"),
@@ -269,7 +274,10 @@ def write_demo_schedule(out_dir, site=None):
         campaign = replace(campaign, site=site, constraints=constraints_for_site(
             site, twilight=c.twilight, max_airmass=c.max_airmass, min_altitude_deg=c.min_altitude_deg,
             min_moon_separation_deg=c.min_moon_separation_deg))
-    plan = plan_campaign(campaign)
+    from planner.cache.sun_moon import default_store
+
+    store = default_store()
+    plan = plan_campaign(campaign, store=store)
     written = []
     for night_plan in plan.nights:
         p = out / f"schedule_{night_plan.night.isoformat()}.txt"
@@ -279,7 +287,7 @@ def write_demo_schedule(out_dir, site=None):
     first = plan.nights[0]
     chart = out / f"schedule_{first.night.isoformat()}.png"
     with common.output_file(chart, "--out") as tmp:
-        save_schedule_plot(campaign.site, first, tmp)
+        save_schedule_plot(campaign.site, first, tmp, store=store)
     written.append(chart)
     return written
 

@@ -24,6 +24,7 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
+    from planner.cache.sun_moon import default_store
     from planner.reports.night_report import night_json, night_text
     from planner.sky.night_summary import run_of_nights
 
@@ -33,7 +34,7 @@ def run(args) -> int:
     targets = common.targets_from_args(args)
     constraints = common.constraints_from_args(site, args)
     plot_path = common.check_output_path(args.plot, (".png", ".pdf"), "--plot") if args.plot else None
-    run_ = run_of_nights(site, targets, [night], constraints)
+    run_ = run_of_nights(site, targets, [night], constraints, store=default_store())
     check = None
     if args.cross_check:
         from planner.reports.cross_check import cross_check

@@ -75,6 +75,7 @@ def _outputs(args) -> dict:
 
 
 def run(args) -> int:
+    from planner.cache.sun_moon import default_store
     from planner.reports.proposal_tables import proposal_json, proposal_text
     from planner.scheduling.proposal import make_proposal
 
@@ -82,7 +83,7 @@ def run(args) -> int:
     outputs = _outputs(args)
     campaign = common.campaign_from_args(args)
     label, nights = nights_from_args(args, campaign.site.proposal)
-    proposal = make_proposal(campaign, nights, label, seeing_arcsec=args.seeing)
+    proposal = make_proposal(campaign, nights, label, seeing_arcsec=args.seeing, store=default_store())
     data = proposal_json(proposal)
     if args.json:
         common.print_json(data)

@@ -44,6 +44,7 @@ def register(sub) -> None:
 def run(args) -> int:
     from planner.reports.schedule_report import night_sheet, schedule_json
     from planner.cache.plans import plan_cache_for
+    from planner.cache.sun_moon import default_store
     from planner.scheduling.replan import replan_night
 
     night = common.parse_night_date(args.date)
@@ -60,7 +61,8 @@ def run(args) -> int:
                           logged=record.frames, seeing_arcsec=args.seeing, key=_catalog_key(),
                           logged_closed=record.closed, assume_done=args.assume_done,
                           used_ids=record.recorded_ids, skipped=record.ids_marked("skipped"),
-                          stopped=record.ids_marked("partial"), cache=plan_cache_for(campaign.source))
+                          stopped=record.ids_marked("partial"), cache=plan_cache_for(campaign.source),
+                          store=default_store())
     if args.json:
         data = schedule_json(campaign.site, result.plan)
         data["replan"] = result.summary()

@@ -74,8 +74,10 @@ def run(args) -> int:
     if plot_path is not None:
         from planner.reports.schedule_plot import save_schedule_plot
 
+        from planner.cache.sun_moon import default_store
+
         with common.output_file(plot_path, "--plot") as tmp:
-            save_schedule_plot(site, plan, tmp)
+            save_schedule_plot(site, plan, tmp, store=default_store())
     if not args.json and (out_path or plot_path):
         print("\n" + "\n".join(f"written: {p}" for p in (out_path, plot_path) if p))
     common.warn_all(warnings)
@@ -85,16 +87,19 @@ def run(args) -> int:
 def _campaign_plan(args, night):
     """The campaign file's site and its plan of ``night`` (earlier nights' progress counts)."""
     from planner.cache.plans import plan_cache_for
+    from planner.cache.sun_moon import default_store
     from planner.scheduling.campaign import plan_campaign_night
 
     campaign = common.campaign_from_args(args)
     common.check_campaign_night(campaign, night)
-    plan, _requests = plan_campaign_night(campaign, night, args.seeing, cache=plan_cache_for(campaign.source))
+    plan, _requests = plan_campaign_night(campaign, night, args.seeing, cache=plan_cache_for(campaign.source),
+                                          store=default_store())
     return campaign.site, plan
 
 
 def _ad_hoc_plan(args, night):
     """The site and the plan of every target once with the visit of ``--visit``."""
+    from planner.cache.sun_moon import default_store
     from planner.scheduling.night_sky import night_sky, requests_for_targets
     from planner.scheduling.night import plan_night
     from planner.scheduling.visits import body_s, parse_visit_spec
@@ -104,7 +109,7 @@ def _ad_hoc_plan(args, night):
     constraints = common.constraints_from_args(site, args)
     exposures = parse_visit_spec(args.visit, site, "--visit")
     requests = requests_for_targets(targets, exposures)
-    frame = night_sky(site, [night], constraints)
+    frame = night_sky(site, [night], constraints, store=default_store())
     w0, w1 = float(frame.window_start_jd[0]), float(frame.window_end_jd[0])
     need = body_s(site, exposures)
     if math.isfinite(w0) and need > (w1 - w0) * 86400.0:

@@ -16,18 +16,19 @@ import numpy as np
 
 from planner.reports.altitude_chart import night_chart
 from planner.reports.figure_common import A4_LANDSCAPE_IN, TARGET_COLOURS, jd_to_mdate, save_figure
-from planner.scheduling.campaign import FILL_SUFFIX
+from planner.scheduling.night_plan import FILL_SUFFIX
 
 
-def schedule_chart(site, plan, fig=None):
-    """Draw ``plan`` (a :class:`~planner.scheduling.night_plan.NightPlan`) on a figure and return it."""
+def schedule_chart(site, plan, fig=None, store=None):
+    """Draw ``plan`` (a :class:`~planner.scheduling.night_plan.NightPlan`) on a figure and return it
+    (``store``: the Sun and Moon samples kept between runs, as for ``run_of_nights``)."""
     from planner.model.target import Target
     from planner.sky.night_summary import night_curves, run_of_nights
 
     names = list(dict.fromkeys(v.target for v in plan.visits))
     pos = {v.target: (v.ra_deg, v.dec_deg) for v in plan.visits}
     targets = [Target(n, *pos[n]) for n in names] or [Target("zenith", 0.0, site.location.latitude_deg)]
-    run = run_of_nights(site, targets, [plan.night], plan.constraints)
+    run = run_of_nights(site, targets, [plan.night], plan.constraints, store=store)
     curves = night_curves(run)
     if fig is None:
         from matplotlib.figure import Figure
@@ -137,5 +138,5 @@ def _free_place(anchor, size, px_per_pt, frame, labels, taken):
     return (float(dx), float(dy)), Bbox.from_bounds(cx - w / 2, cy - h / 2, w, h)
 
 
-def save_schedule_plot(site, plan, path) -> Path:
-    return save_figure(schedule_chart(site, plan), path)
+def save_schedule_plot(site, plan, path, store=None) -> Path:
+    return save_figure(schedule_chart(site, plan, store=store), path)

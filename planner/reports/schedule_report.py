@@ -8,7 +8,7 @@ import textwrap
 import numpy as np
 
 from planner.cautions import PLAN_CAUTION
-from planner.scheduling.campaign import FILL_SUFFIX
+from planner.scheduling.night_plan import FILL_SUFFIX
 from planner.reports.night_report import constraints_json, rounded, site_json, utc_offset_label
 from planner.sky.nights import iso_utc, local_hhmm, utc_hhmm
 

@@ -56,7 +56,7 @@ from planner.scheduling.campaign_nights import (
     visit_minutes,
 )
 from planner.scheduling.night import plan_night
-from planner.scheduling.night_plan import NightPlan
+from planner.scheduling.night_plan import FILL_SUFFIX, NightPlan
 from planner.scheduling.night_sky import night_sky
 from planner.scheduling.visits import Exposure, VisitRequest, body_s, setup_s, shutter_s
 from planner.sky.visibility import angular_separation_deg
@@ -65,9 +65,9 @@ from planner.sky.visibility import angular_separation_deg
 EXPOSURE_AIRMASS = 1.2
 #: Seed of the recovery forecast's simulation (the forecast must be reproducible).
 FORECAST_SEED = 1
-#: Request keys of spare-time work end so (the goals' own keys are ``TARGET/LEVEL-FILTER``
-#: and ``TARGET/variables``); its visits carry :data:`FILL_NOTE`.
-FILL_SUFFIX = "/fill"
+#: Request keys of spare-time work end in FILL_SUFFIX (planner.scheduling.night_plan; the
+#: goals' own keys are ``TARGET/LEVEL-FILTER`` and ``TARGET/variables``); its visits carry
+#: :data:`FILL_NOTE`.
 FILL_NOTE = "extra (beyond the goals)"
 #: A campaign whose goals take less than this share of its usable time is told so (our choice).
 LOW_DEMAND = 0.25
@@ -342,14 +342,16 @@ def night_index(campaign: Campaign, night: dt.date) -> int:
     return campaign.nights.index(night)
 
 
-def plan_campaign_night(campaign: Campaign, night: dt.date, seeing_arcsec: float | None = None, *, cache=None):
+def plan_campaign_night(campaign: Campaign, night: dt.date, seeing_arcsec: float | None = None, *, cache=None,
+                        store=None):
     """The plan of one campaign night, the campaign planned up to it (earlier nights'
     progress counts), and the requests it was planned from."""
-    plan, requests, _covered = plan_through_night(campaign, night, seeing_arcsec, cache=cache)
+    plan, requests, _covered = plan_through_night(campaign, night, seeing_arcsec, cache=cache, store=store)
     return plan, requests
 
 
-def plan_through_night(campaign: Campaign, night: dt.date, seeing_arcsec: float | None = None, *, cache=None):
+def plan_through_night(campaign: Campaign, night: dt.date, seeing_arcsec: float | None = None, *, cache=None,
+                       store=None):
     """The campaign planned from its first night up to ``night`` (earlier nights' progress
     counts; the nights after it still share out the goals, so the night is the one the whole
     campaign's plan gives).  Returns that night's plan, its requests, and the phase bins
@@ -357,21 +359,22 @@ def plan_through_night(campaign: Campaign, night: dt.date, seeing_arcsec: float 
 
     ``cache`` (:mod:`planner.scheduling.plan_cache`): nights planned before under the same
     inputs are taken from it, and the nights planned here are put in it; the result is the
-    same with or without it.
+    same with or without it.  ``store``: the Sun and Moon samples kept between runs
+    (:func:`~planner.scheduling.night_sky.night_sky`); the same values either way.
     """
     k = night_index(campaign, night)
-    entry = _campaign_nights(campaign, seeing_arcsec, k, cache, every=False)[-1]
+    entry = _campaign_nights(campaign, seeing_arcsec, k, cache, every=False, store=store)[-1]
     covered = {key + end: cov.copy() for key, cov in entry.covered_before.items() for end in ("", FILL_SUFFIX)}
     return entry.plan, list(entry.requests), covered
 
 
 def plan_campaign(campaign: Campaign, *, seeing_arcsec: float | None = None, forecast: bool = True,
-                  cache=None) -> CampaignPlan:
+                  cache=None, store=None) -> CampaignPlan:
     """Plan every night of the campaign, then forecast the coverage and period recovery
-    (``cache`` as for :func:`plan_through_night`)."""
+    (``cache`` and ``store`` as for :func:`plan_through_night`)."""
     site = campaign.site
     seeing = seeing_arcsec or campaign.seeing_arcsec or site.sky.typical_seeing_arcsec
-    entries = _campaign_nights(campaign, seeing_arcsec, len(campaign.nights) - 1, cache, every=True)
+    entries = _campaign_nights(campaign, seeing_arcsec, len(campaign.nights) - 1, cache, every=True, store=store)
     plans = [e.plan for e in entries]
     reqs = [e.requests for e in entries]
     done = entries[-1].done_after
@@ -390,7 +393,7 @@ def plan_campaign(campaign: Campaign, *, seeing_arcsec: float | None = None, for
                         usable, required, extra)
 
 
-def _campaign_nights(campaign: Campaign, seeing_arcsec, last: int, cache, *, every: bool) -> list:
+def _campaign_nights(campaign: Campaign, seeing_arcsec, last: int, cache, *, every: bool, store=None) -> list:
     """Nights 0…``last`` as :class:`~planner.scheduling.plan_cache.NightEntry` (``every``: all
     of them; else only the last), planned from the latest night the cache keeps."""
     from planner.scheduling.plan_cache import NightEntry, campaign_key, decode, encode
@@ -415,7 +418,7 @@ def _campaign_nights(campaign: Campaign, seeing_arcsec, last: int, cache, *, eve
         return kept
     site = campaign.site
     seeing = seeing_arcsec or campaign.seeing_arcsec or site.sky.typical_seeing_arcsec
-    frame = night_sky(site, campaign.nights, campaign.constraints)  # the Sun and Moon once for the campaign
+    frame = night_sky(site, campaign.nights, campaign.constraints, store=store)  # the Sun and Moon once
     exposures = goal_exposures(campaign, seeing)
     check_fits_the_night(campaign, exposures, frame)
     tonights = [targets_tonight(site, campaign.constraints, campaign.targets, frame.ephemeris, a, b)

@@ -7,6 +7,8 @@ still wanted); the method and its reasons are in :mod:`planner.scheduling.night`
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from planner.scheduling.slot_table import SLOT_MIN, SlotTable, next_bad_slot
@@ -63,12 +65,17 @@ class DispatchState:
         self.has_phase = np.array([bool(q.phase_periods_d) for q in requests])
         self.patient = np.array([q.patient for q in requests])
         self.remaining = np.array([q.count for q in requests], dtype=int)
+        self.count = self.remaining.copy()  # visits wanted at the start
         self.spacing_d = np.array([q.min_spacing_min for q in requests]) / 1440.0
         self.times: list[list[float]] = [[] for _ in requests]  # science mid-times placed, per request
         self.visits: list[Visit] = []
         self.value_of: dict[int, float] = {}
         self.fixed_ids: set[int] = set()
-        self._slews: dict[tuple[float, float], np.ndarray] = {}
+        # Separations from each request's target to every request's, once (one array call
+        # instead of one per pointing): the slews the dispatch and the local search look up.
+        sep = angular_separation_deg(self.ra[:, None], self.dec[:, None], self.ra[None, :], self.dec[None, :])
+        self._slews: dict[tuple[float, float], np.ndarray] = {
+            (float(a), float(d)): row for a, d, row in zip(self.ra, self.dec, sep)}
         self.phase = []
         for q in requests:
             if q.phase_periods_d:
@@ -80,9 +87,13 @@ class DispatchState:
                 self.phase.append(None)
 
     def slot(self, t):
+        if isinstance(t, float):  # one moment (most calls): the same arithmetic without numpy's overhead
+            return math.floor((t - self.tab.jd[0]) / (SLOT_MIN / 1440.0) + 1e-3)
         return np.floor((np.asarray(t) - self.tab.jd[0]) / (SLOT_MIN / 1440.0) + 1e-3).astype(int)
 
     def slot_up(self, t):
+        if isinstance(t, float):
+            return math.ceil((t - self.tab.jd[0]) / (SLOT_MIN / 1440.0) - 1e-3)
         return np.ceil((np.asarray(t) - self.tab.jd[0]) / (SLOT_MIN / 1440.0) - 1e-3).astype(int)
 
     def holds(self, r, a, b):
@@ -93,20 +104,20 @@ class DispatchState:
         return inside & (self.tab.next_bad[r, _clip(i0, 0, n)] > _clip(i1, 0, n))
 
     def setup(self, r, ra, dec, filt):
-        if ra is None:
-            slew = 0.0
-        else:  # separations from one pointing to every request, computed once per pointing
-            row = self._slews.get((ra, dec))
-            if row is None:
-                row = self._slews[(ra, dec)] = angular_separation_deg(ra, dec, self.ra, self.dec)
-            slew = row[r]
-        slew = np.broadcast_to(np.asarray(slew, dtype=float), np.shape(r))
+        slew = np.zeros(np.shape(r)) if ra is None else self.slews_from(ra, dec)[r]
         changes = self.first_filter[r] != filt
         return setup_s(self.site, slew, changes), slew
 
+    def slews_from(self, ra, dec) -> np.ndarray:
+        """Separations (degrees) from a pointing to every request's target, computed once per pointing."""
+        row = self._slews.get((ra, dec))
+        if row is None:
+            row = self._slews[(ra, dec)] = angular_separation_deg(ra, dec, self.ra, self.dec)
+        return row
+
     def spaced(self, r, mid):
         ok = np.ones(np.shape(r), bool)
-        check = (self.spacing_d[r] > 0) & (self.remaining[r] < np.array([q.count for q in self.requests])[r])
+        check = (self.spacing_d[r] > 0) & (self.remaining[r] < self.count[r])
         for n in np.flatnonzero(np.ravel(check)):
             k = np.ravel(r)[n]
             if self.times[k]:
@@ -400,7 +411,7 @@ def _best_in_gap(state: DispatchState, g0, g1, prev, nxt):
     if nxt is not None:  # the next visit keeps its science start; its slew now comes from the new visit
         k = [n for n, q in enumerate(state.requests) if q.key == nxt.request_key]
         if k and id(nxt) not in state.fixed_ids:
-            slew = angular_separation_deg(state.ra[r], state.dec[r], nxt.ra_deg, nxt.dec_deg)
+            slew = state.slews_from(nxt.ra_deg, nxt.dec_deg)[r]
             changes = state.last_filter[r] != nxt.exposures[0].filter
             su_next = setup_s(state.site, slew, changes) / _DAY_S
             new_start = nxt.science_start_jd - su_next

@@ -14,6 +14,10 @@ import numpy as np
 from planner.model.constraints import Constraints
 from planner.scheduling.visits import Visit
 
+#: Request keys of a campaign's spare-time work end so (:mod:`planner.scheduling.campaign`);
+#: kept here so that writers of a plan need not load the campaign planner.
+FILL_SUFFIX = "/fill"
+
 
 @dataclass(frozen=True)
 class Gap:

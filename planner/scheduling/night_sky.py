@@ -38,17 +38,19 @@ def usable_windows_jd(eph: Ephemeris, geo, span_start_jd, span_end_jd, twilight:
     return dark_windows_for_spans(eph, geo, span_start_jd, span_end_jd, twilight)
 
 
-def night_sky(site, nights, constraints: Constraints, ut1_table=None) -> NightSky:
+def night_sky(site, nights, constraints: Constraints, ut1_table=None, store=None) -> NightSky:
     """The Sun and Moon over ``nights`` once.  ``ut1_table`` (from
     :func:`planner.earth_rotation.load_ut1_table`) saves re-reading the IERS table
-    when a process plans many times."""
+    when a process plans many times; ``store`` (a shell's
+    :class:`~planner.sky.ephemeris.SampleStore`) keeps the Sun and Moon samples between
+    runs — the same values, see :func:`~planner.sky.ephemeris.build_ephemeris`."""
     from planner.sky.ephemeris import build_ephemeris
     from planner.sky.nights import night_spans_jd
 
     nights = list(nights)
     loc = site.location
     s, e = night_spans_jd(nights, loc.timezone)
-    eph = build_ephemeris(float(s.min()), float(e.max()), ut1_table=ut1_table)
+    eph = build_ephemeris(float(s.min()), float(e.max()), ut1_table=ut1_table, store=store)
     geo = site_geometry(loc.latitude_deg, loc.longitude_deg, loc.elevation_m)
     w0, w1 = usable_windows_jd(eph, geo, s, e, constraints.twilight)
     mid = np.where(np.isfinite(w0), 0.5 * (w0 + w1), 0.5 * (s + e))

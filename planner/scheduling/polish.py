@@ -52,7 +52,7 @@ _DAY_S = 86400.0
 
 def reassign(state: DispatchState, t_min: float) -> bool:
     """Give the movable visits' places out again (see the module docstring); True if kept."""
-    from scipy.optimize import linear_sum_assignment
+    from planner.scheduling.highs import linear_sum_assignment
 
     key_index = {q.key: k for k, q in enumerate(state.requests)}
     visits = sorted(state.visits, key=lambda v: v.start_jd)
@@ -62,18 +62,22 @@ def reassign(state: DispatchState, t_min: float) -> bool:
     free_r = [r for r in range(len(state.requests)) if not state.has_phase[r] and state.spacing_d[r] <= 0]
     cols = [r for r in free_r for _ in range(int(state.remaining[r]) + sum(1 for _, _, k in places if k == r))]
     cols = np.array(cols, dtype=int)
-    score = np.full((len(places), len(cols)), -np.inf)  # -inf: the request does not fit the place
-    for i, (_, v, r_own) in enumerate(places):
-        sci = np.full(len(cols), v.science_start_jd)
-        body, _ = state.body_at(cols, sci)
-        own = v.end_jd - v.science_start_jd
-        end = v.science_start_jd + body / _DAY_S
-        mid = 0.5 * (v.science_start_jd + end)
-        ok = state.holds(cols, np.full(len(cols), v.start_jd), end) & (body <= own * _DAY_S + LONGER_S)
-        ok |= cols == r_own  # its own request always fits its place
-        x = state.tab.airmass[cols, np.clip(state.slot(mid), 0, state.tab.airmass.shape[1] - 1)]
-        s = state.value(cols, mid) - AIRMASS_WEIGHT * state.shutter_h[cols] * np.where(np.isfinite(x), x, 40.0)
-        score[i] = np.where(ok, s, -np.inf)
+    # Every place × every column at once (places down, columns across); -inf: the request
+    # does not fit the place.
+    sci0 = np.array([v.science_start_jd for _, v, _ in places])[:, None]
+    start0 = np.array([v.start_jd for _, v, _ in places])[:, None]
+    own = np.array([v.end_jd - v.science_start_jd for _, v, _ in places])[:, None]
+    r_own = np.array([r for _, _, r in places])[:, None]
+    c2 = np.broadcast_to(cols[None, :], (len(places), len(cols)))
+    sci = np.broadcast_to(sci0, c2.shape)
+    body, _ = state.body_at(c2, sci)
+    end = sci + body / _DAY_S
+    mid = 0.5 * (sci + end)
+    ok = state.holds(c2, np.broadcast_to(start0, c2.shape), end) & (body <= own * _DAY_S + LONGER_S)
+    ok |= c2 == r_own  # its own request always fits its place
+    x = state.tab.airmass[c2, np.clip(state.slot(mid), 0, state.tab.airmass.shape[1] - 1)]
+    s = state.value(c2, mid) - AIRMASS_WEIGHT * state.shutter_h[c2] * np.where(np.isfinite(x), x, 40.0)
+    score = np.where(ok, s, -np.inf)
     rows, picked = linear_sum_assignment(-score)
     new_r = {places[i][0]: int(cols[j]) for i, j in zip(rows, picked)}
     if all(new_r[n] == r for n, _, r in places):

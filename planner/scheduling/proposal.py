@@ -197,14 +197,15 @@ class Proposal:
         return self.total_nights / (1.0 - self.weather_loss_fraction)
 
 
-def make_proposal(campaign, nights: list[dt.date], label: str, *, seeing_arcsec: float | None = None) -> Proposal:
+def make_proposal(campaign, nights: list[dt.date], label: str, *, seeing_arcsec: float | None = None,
+                  store=None) -> Proposal:
     """The time request of ``campaign`` over ``nights`` (a semester, or any range)."""
     from planner.scheduling.proposal_forecast import recovery_against_nights
     from planner.scheduling.proposal_sources import proposal_sources
     from planner.sky.night_summary import run_of_nights, seasons
 
     site = campaign.site
-    run = run_of_nights(site, list(campaign.targets), nights, campaign.constraints)
+    run = run_of_nights(site, list(campaign.targets), nights, campaign.constraints, store=store)
     usable = run.almanac.dark_hours(campaign.constraints.twilight)
     if not (usable > 0).any():
         raise SemesterError(f"no {campaign.constraints.twilight} darkness on any night from {nights[0]} to "

@@ -93,7 +93,7 @@ class ReplanResult:
 def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(), logged=(),
                  seeing_arcsec: float | None = None, key=normalize_name, logged_closed=(),
                  assume_done: bool = False, used_ids=(), skipped=(), base=None, stopped=(),
-                 cache=None) -> ReplanResult:
+                 cache=None, store=None) -> ReplanResult:
     """The night's plan, with everything from ``now_jd`` on planned again (see the module docstring).
 
     ``done``: visit ids (or target names) the observer gives as taken; ``logged``: the
@@ -104,13 +104,14 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     part-way (the frames the logbook holds of them count, the rest are owed); ``base``: the
     plan followed so far when it is not the campaign's (an earlier re-plan the observer
     accepted), else the campaign's plan; ``cache``: the campaign's nights kept for re-use
-    (:mod:`planner.scheduling.plan_cache`).
+    (:mod:`planner.scheduling.plan_cache`); ``store``: the Sun and Moon samples kept between
+    runs (the same values either way).
     """
     from planner.scheduling.campaign import add_spare_work, goal_exposures, is_fill, plan_through_night
     from planner.scheduling.campaign_nights import gaps_with_reasons
 
     planned_seeing = campaign.seeing_arcsec or campaign.site.sky.typical_seeing_arcsec
-    original, requests, covered = plan_through_night(campaign, night, cache=cache)
+    original, requests, covered = plan_through_night(campaign, night, cache=cache, store=store)
     if base is not None:
         original = base
     closed = tuple(sorted(tuple(closed) + tuple(logged_closed)))
@@ -148,7 +149,7 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     # as the campaign plans a night.
     goals = [_respaced(q, fixed, start, original.window_end_jd, campaign) for q in requests if not is_fill(q)]
     spare = [q for q in requests if is_fill(q)]
-    w0, w1, eph = original.window_start_jd, original.window_end_jd, _ephemeris(campaign, night)
+    w0, w1, eph = original.window_start_jd, original.window_end_jd, _ephemeris(campaign, night, store)
     plan = plan_night(campaign.site, campaign.constraints, goals, night, w0, w1, eph, closed=closed,
                       seeing_arcsec=seeing, fixed=fixed, not_before_jd=start, covered_bins=covered,
                       id_offset=len(past))
@@ -257,9 +258,9 @@ def _new_exposures(q, exposures, campaign):
     return q.exposures
 
 
-def _ephemeris(campaign, night):
+def _ephemeris(campaign, night, store=None):
     from planner.sky.ephemeris import build_ephemeris
     from planner.sky.nights import night_spans_jd
 
     s, e = night_spans_jd([night], campaign.site.location.timezone)
-    return build_ephemeris(float(s[0]), float(e[0]))
+    return build_ephemeris(float(s[0]), float(e[0]), store=store)

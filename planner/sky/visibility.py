@@ -169,8 +169,9 @@ def angular_separation_deg(ra1, dec1, ra2, dec2):
     ra1, dec1, ra2, dec2 = (np.radians(a) for a in (ra1, dec1, ra2, dec2))
     d_ra = ra2 - ra1
     s1, c1, s2, c2 = np.sin(dec1), np.cos(dec1), np.sin(dec2), np.cos(dec2)
-    num = np.hypot(c2 * np.sin(d_ra), c1 * s2 - s1 * c2 * np.cos(d_ra))
-    den = s1 * s2 + c1 * c2 * np.cos(d_ra)
+    cos_d_ra = np.cos(d_ra)  # once: on targets × times it is the costliest term
+    num = np.hypot(c2 * np.sin(d_ra), c1 * s2 - s1 * c2 * cos_d_ra)
+    den = s1 * s2 + c1 * c2 * cos_d_ra
     return np.degrees(np.arctan2(num, den))
 
 

@@ -55,6 +55,7 @@ class PlannerApp(NightActions, App):
                  campaign_path: str | Path | None = None, logbook: str | Path | None = None) -> None:
         super().__init__()
         self._plan_cache = None  # made with the campaign (see plan_cache)
+        self._sun_moon = None  # the Sun/Moon samples kept between runs (see sun_moon_store)
         self.campaign = campaign
         self.campaign_path = campaign_path
         self.logbook_file = Path(logbook) if logbook else None  # else the campaign's, beside its file
@@ -88,6 +89,15 @@ class PlannerApp(NightActions, App):
 
             self._plan_cache = plan_cache_for(self.campaign.source)
         return self._plan_cache
+
+    @property
+    def sun_moon_store(self):
+        """The Sun and Moon samples kept between runs (None when switched off)."""
+        if self._sun_moon is None:
+            from planner.cache.sun_moon import default_store
+
+            self._sun_moon = default_store() or False
+        return self._sun_moon or None
 
     # ------------------------------------------------------------ start, clock
 
@@ -227,10 +237,11 @@ class PlannerApp(NightActions, App):
         self.call_from_thread(self._set_busy, "planning the night", 1)
         try:
             key = self.key or catalog_key()
-            sky = night_sky_data(self.campaign, night)
+            sky = night_sky_data(self.campaign, night, self.sun_moon_store)
             # The sky first (header, Moon, what is up): useful while the plan is made.
             self.call_from_thread(self._night_ready, sky, key)
-            data = campaign_night_data(self.campaign, night, self.seeing_arcsec, sky, cache=self.plan_cache)
+            data = campaign_night_data(self.campaign, night, self.seeing_arcsec, sky, cache=self.plan_cache,
+                                       store=self.sun_moon_store)
             accepted, why = self._accepted_plan(night, data.plan)
         except Exception as exc:  # noqa: BLE001 - shown in the app, never as a traceback
             self.call_from_thread(self._night_failed, night, str(exc) or type(exc).__name__)

@@ -195,7 +195,8 @@ class NightActions:
             result = replan_night(self.campaign, night, now_jd, done=record.ids_marked("done"), logged=record.frames,
                                   seeing_arcsec=seeing, key=self.key, logged_closed=record.closed,
                                   used_ids=used, skipped=record.ids_marked("skipped"), base=base,
-                                  stopped=record.ids_marked("partial"), cache=self.plan_cache)
+                                  stopped=record.ids_marked("partial"), cache=self.plan_cache,
+                                  store=self.sun_moon_store)
             current = base if base is not None else result.original
             diff = diff_plans(current.visits, result.plan.visits, now_jd)
         except Exception as exc:  # noqa: BLE001 - shown in the box, never as a traceback

@@ -31,12 +31,13 @@ class NightData:
     planning: bool = False  # the sky is known, the plan is still being made
 
 
-def night_sky_data(campaign, night: dt.date) -> NightData:
-    """The night's almanac, windows and places without its plan (shown while it is made)."""
+def night_sky_data(campaign, night: dt.date, store=None) -> NightData:
+    """The night's almanac, windows and places without its plan (shown while it is made);
+    ``store``: the Sun and Moon samples kept between runs (the same values either way)."""
     from planner.sky.nights import night_spans_jd
     from planner.sky.sky_now import night_places
 
-    run = run_of_nights(campaign.site, list(campaign.targets), [night], campaign.constraints)
+    run = run_of_nights(campaign.site, list(campaign.targets), [night], campaign.constraints, store=store)
     s, e = night_spans_jd([night], campaign.site.location.timezone)
     planning = night in campaign.nights
     return NightData(night, run, night_places(run, float(s[0]), float(e[0])), None,
@@ -44,19 +45,19 @@ def night_sky_data(campaign, night: dt.date) -> NightData:
 
 
 def campaign_night_data(campaign, night: dt.date, seeing_arcsec: float | None = None,
-                        sky: NightData | None = None, cache=None) -> NightData:
+                        sky: NightData | None = None, cache=None, store=None) -> NightData:
     """Almanac, target windows, places and (for a campaign night) the plan of ``night``
     (``sky``: the night's :func:`night_sky_data`, if made already; ``cache``: the
     campaign's nights kept for re-use, :mod:`planner.scheduling.plan_cache`)."""
     from planner.scheduling.campaign import plan_campaign_night
 
-    sky = sky or night_sky_data(campaign, night)
+    sky = sky or night_sky_data(campaign, night, store)
     run, places = sky.run, sky.places
     if night not in campaign.nights:
         note = (f"{night} is not a night of this campaign "
                 f"({campaign.nights[0]} to {campaign.nights[-1]}): no plan")
         return NightData(night, run, places, None, note)
-    plan, _requests = plan_campaign_night(campaign, night, seeing_arcsec, cache=cache)
+    plan, _requests = plan_campaign_night(campaign, night, seeing_arcsec, cache=cache, store=store)
     return NightData(night, run, places, plan)
 
 

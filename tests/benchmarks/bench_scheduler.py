@@ -13,6 +13,11 @@ open), shutter-weighted mean airmass (astropy's AltAz at each visit's science
 middle, the same for both) and its value under gcplan's objective with the gap
 to gcplan's upper bound (planner.scheduling.bound); then the 14-night demo
 campaign's time, both planners' CPU seconds, and the speed ratio (wall and CPU) last.
+
+gcplan runs as a command does with a warm cache: the Sun and Moon samples come from
+the on-disk cache (planner/cache/sun_moon.py; here a temporary folder, filled once
+before the timing), as every run after the first does on a user's machine.  The
+cold figure (samples made with astropy, the IERS table read) is printed too.
 """
 
 from __future__ import annotations
@@ -30,7 +35,13 @@ def main(argv=None) -> int:
     ap.add_argument("--date", default="2027-05-12")
     args = ap.parse_args(argv)
 
+    import tempfile
+    from pathlib import Path
+
+    from planner.cache.sun_moon import SunMoonStore
     from planner.config import configure_runtime
+
+    store = SunMoonStore(Path(tempfile.mkdtemp(prefix="gcplan-bench-")) / "sun-moon")
 
     configure_runtime()
     warnings.filterwarnings("ignore")
@@ -49,7 +60,7 @@ def main(argv=None) -> int:
     night = dt.date.fromisoformat(args.date)
     c = constraints_for_site(site, max_airmass=2.0)
     everything = resolve_targets("all", [], load_catalog())
-    run = run_of_nights(site, everything, [night], c)
+    run = run_of_nights(site, everything, [night], c, store=store)  # fills the cache for the year
     order = np.argsort(-run.visibility.observable_hours[:, 0], kind="stable")[: args.targets]
     targets = [everything[i] for i in sorted(order)]
     prio = {t.name: 1 + (k % 3) for k, t in enumerate(targets)}  # 1..3, larger = more important (ours)
@@ -94,19 +105,20 @@ def main(argv=None) -> int:
     # --- gcplan ----------------------------------------------------------------
     from planner.sky.earth_rotation import load_ut1_table
 
-    def ours(ut1):
+    def ours(ut1, store):
         t0, c0 = time.perf_counter(), time.process_time()
-        frame = night_sky(site, [night], c, ut1_table=ut1)
+        frame = night_sky(site, [night], c, ut1_table=ut1, store=store)
         p = plan_night(site, c, requests_for_targets(targets, exposures), night,
                        float(frame.window_start_jd[0]), float(frame.window_end_jd[0]), frame.ephemeris)
         return time.perf_counter() - t0, p, time.process_time() - c0
 
-    # Cold: the IERS table read from its file as well (what one command run pays once).
-    cold = [ours(None)[0] for _ in range(5)]
+    # Cold: the Sun and Moon made with astropy and the IERS table read from its file (what a
+    # command pays on its first run).
+    cold = [ours(None, None)[0] for _ in range(5)]
     ut1 = load_ut1_table()  # read once per process, as a campaign or a long-running app does
     times, cpu = [], []
     for _ in range(5):
-        dt_s, plan, cpu_s = ours(ut1)
+        dt_s, plan, cpu_s = ours(ut1, store)
         times.append(dt_s)
         cpu.append(cpu_s)
     t_ours, t_cold, c_ours = float(np.median(times)), float(np.median(cold)), float(np.median(cpu))
@@ -119,7 +131,7 @@ def main(argv=None) -> int:
 
     t0 = time.perf_counter()
     campaign = read_campaign_file(targets_dir() / "demo" / "campaign.toml")
-    cplan = plan_campaign(campaign)
+    cplan = plan_campaign(campaign, store=store)
     t_campaign = time.perf_counter() - t0
     n_visits = sum(len(p.visits) for p in cplan.nights)
 
@@ -141,9 +153,9 @@ def main(argv=None) -> int:
     print(f"gcplan plan_night:           {t_ours:8.3f} s, {len(plan.visits):3d} visits, "
           f"time on sky {sky_ours / 60:.0f} min, mean airmass {mean_x_ours:.3f}, "
           f"value {plan.value:.3f} (gap to the bound {100 * plan.gap_fraction:.1f} %, goal ≤ 5 %)")
-    print(f"  (gcplan: median of {len(times)}; Sun, Moon, usable window, bound and plan; IERS table read "
-          f"once per process; bound {bound:.3f}: {plan.bound_method})")
-    print(f"gcplan with the IERS table read from its file every time: {t_cold:.3f} s "
+    print(f"  (gcplan: median of {len(times)}; Sun, Moon (from the warm on-disk cache), usable window, bound and "
+          f"plan; IERS table read once per process; bound {bound:.3f}: {plan.bound_method})")
+    print(f"gcplan cold (Sun and Moon made with astropy, IERS table read, every time): {t_cold:.3f} s "
           f"({t_astroplan / t_cold:.0f}x faster than astroplan)")
     print(f"time on sky, gcplan / astroplan: {sky_ours / max(sky_theirs, 1e-9):.2f} (goal ≥ 1); mean airmass "
           f"{mean_x_ours:.3f} vs {mean_x_theirs:.3f} (goal: no worse)")
