@@ -594,3 +594,15 @@ def test_coordinate_site_clock_is_the_hour_nearest_mean_solar_time(lon, zone):
     assert site.location.timezone == zone
     offset_h = ZoneInfo(zone).utcoffset(datetime(2027, 1, 1)).total_seconds() / 3600
     assert abs(offset_h - lon / 15.0) <= 0.5
+
+
+def test_a_folder_named_like_a_bundled_profile_does_not_hide_it(tmp_path, monkeypatch):
+    """A copy of the demo's files in ./demo (as a new user makes one) leaves ``--site demo``
+    the bundled profile: a folder is never a profile."""
+    from planner.inputs.sites import resolve_site
+
+    (tmp_path / "demo").mkdir()
+    monkeypatch.chdir(tmp_path)
+    assert "fictional" in resolve_site("demo").name
+    with pytest.raises(SiteProfileError, match="is a folder"):
+        resolve_site("demo/")

@@ -395,7 +395,9 @@ def resolve_site(spec: str, timezone: str | None = None) -> SiteProfile:
     if not text:
         raise error(SiteProfileError, f"empty site: give a profile file, a bundled profile or {_COORDS}")
     try:
-        is_file = Path(text).exists()  # a pipe or a device too: the reader says what it is
+        # a pipe or a device too (the reader says what it is); not a folder: a folder named
+        # like a bundled profile (a copy of the demo's files, say) must not hide it
+        is_file = Path(text).exists() and not Path(text).is_dir()
     except (OSError, ValueError):  # a name too long for the file system, a NUL
         is_file = False
     is_path = is_file or text.lower().endswith(".toml") or any(c in text for c in "/\\")
