@@ -24,7 +24,6 @@ from __future__ import annotations
 import hashlib
 import json
 import os
-import tempfile
 from pathlib import Path
 
 #: Layout of a night's file.
@@ -89,22 +88,9 @@ class FilePlanCache:
             return
         text = json.dumps({"format": STORE_FORMAT, "code": code_stamp(), "key": key, "entry": data},
                           separators=(",", ":"))
-        tmp = None
-        try:
-            self.folder.mkdir(parents=True, exist_ok=True)
-            fd, tmp = tempfile.mkstemp(prefix=".night-", suffix=".tmp", dir=self.folder)
-            with os.fdopen(fd, "w", encoding="utf-8") as f:
-                f.write(text)
-            os.replace(tmp, self._path(index))
-            tmp = None
-        except OSError:
-            pass  # no cache this time: the plan is the same without it
-        finally:
-            if tmp is not None:
-                try:
-                    os.unlink(tmp)
-                except OSError:
-                    pass
+        from planner.cache.folder import save_whole
+
+        save_whole(self._path(index), lambda f: f.write(text.encode("utf-8")))  # unsaved: the same plan
 
 
 def plan_cache_for(campaign_source: str | os.PathLike) -> FilePlanCache:

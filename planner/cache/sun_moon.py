@@ -25,7 +25,6 @@ from __future__ import annotations
 
 import json
 import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -131,22 +130,11 @@ class SunMoonStore:
     def save(self, year: int, step_d: float, samples: dict[str, np.ndarray]) -> None:
         """Write the year's file whole, or not at all."""
         meta = json.dumps({**self.stamp, "year": year, "step_d": step_d})
-        tmp = None
-        try:
-            self.folder.mkdir(parents=True, exist_ok=True)
-            fd, tmp = tempfile.mkstemp(prefix=f".{year:04d}-", suffix=".tmp", dir=self.folder)
-            with os.fdopen(fd, "wb") as f:
-                np.savez(f, meta=np.array(meta), **{k: np.asarray(samples[k], dtype=float) for k in FIELDS})
-            os.replace(tmp, self.path(year, step_d))
-            tmp = None
-        except OSError:
-            pass  # a read-only or full disk: the run goes on with the samples it computed
-        finally:
-            if tmp is not None:
-                try:
-                    os.unlink(tmp)
-                except OSError:
-                    pass
+        from planner.cache.folder import save_whole
+
+        # unsaved (a read-only or full disk): the run goes on with the samples it computed
+        save_whole(self.path(year, step_d), lambda f: np.savez(
+            f, meta=np.array(meta), **{k: np.asarray(samples[k], dtype=float) for k in FIELDS}))
 
 
 def default_store() -> SunMoonStore | None:
