@@ -234,6 +234,7 @@ def merge_spare_runs(site, visits, is_fill) -> list:
 
     cam, tel = site.camera, site.telescope
     out, run_end = [], -np.inf  # run_end: where the last merged piece ended as placed
+    points: list = []  # the run's (time, airmass) at each piece's science start, middle and end
     for v in sorted(visits, key=lambda v: v.start_jd):
         prev = out[-1] if out else None
         if (prev is not None and is_fill(prev) and is_fill(v) and v.purpose != "variables"
@@ -245,19 +246,28 @@ def merge_spare_runs(site, visits, is_fill) -> list:
             span_s = (v.end_jd - prev.science_start_jd) * 86400.0
             n = max(int((span_s - tel.acquisition_s + 1e-6) // (line.exposure_s + cam.readout_s)), 1)
             exposures = (replace(line, frames=n),)
-            w0, w1 = prev.exposures[0].frames, v.exposures[0].frames
             snr = None if prev.snr_planned is None else prev.snr_planned * (n / line.frames) ** 0.5
             notes = tuple(re.sub(r"^(?:one|\d+) more (.+?) frames?$", rf"{n} more \1 frames", x) if n > 1 else x
                           for x in prev.notes)
-            out[-1] = replace(prev, exposures=exposures,
-                              end_jd=prev.science_start_jd + body_s(site, exposures) / 86400.0,
-                              airmass_end=v.airmass_end, snr_planned=snr, notes=notes,
-                              airmass_mid=(prev.airmass_mid * w0 + v.airmass_mid * w1) / (w0 + w1))
+            points += _airmass_points(v)
+            end = prev.science_start_jd + body_s(site, exposures) / 86400.0
+            # the airmass at the merged visit's own end and middle, from its pieces' (a few
+            # minutes apart, where airmass is nearly straight in time)
+            t, x = np.array(points).T
+            out[-1] = replace(prev, exposures=exposures, end_jd=end, snr_planned=snr, notes=notes,
+                              airmass_end=float(np.interp(end, t, x)),
+                              airmass_mid=float(np.interp(0.5 * (prev.science_start_jd + end), t, x)))
             run_end = v.end_jd
             continue
         out.append(v)
+        points = _airmass_points(v)
         run_end = v.end_jd
     return out
+
+
+def _airmass_points(v) -> list:
+    return [(v.science_start_jd, v.airmass_start), (0.5 * (v.science_start_jd + v.end_jd), v.airmass_mid),
+            (v.end_jd, v.airmass_end)]
 
 
 def free_time(w0: float, w1: float, visits, closed) -> list[tuple[float, float, bool]]:
