@@ -161,8 +161,12 @@ def main(argv=None) -> int:
     from planner.config import configure_runtime
 
     configure_runtime()
-    if args.child:
+    if args.child:  # as `gcplan app` starts (planner.cli.main)
         import json
+
+        from planner.cli import one_blas_thread
+
+        one_blas_thread()
 
         print(json.dumps(asyncio.run(process_run(Path(args.child[0]), float(args.child[1])))))
         return 0
