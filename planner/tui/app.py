@@ -277,6 +277,34 @@ class PlannerApp(NightActions, App):
         self._update_sky()
         self._update_states()
         self.show_all()
+        if not data.planning:
+            self.read_ahead([n for n in (self._step(data.night, 1), self._step(data.night, -1))
+                             if n is not None and n not in self._nights])
+
+    @work(thread=True, exclusive=True, group="ahead")
+    def read_ahead(self, nights: list) -> None:
+        """The nights either side of the one shown, made while the observer reads it: ] and [
+        then show them at once (their plans come from the campaign's nights kept on disk).
+        Not marked busy; a night that fails here is made again, and its error said, when shown."""
+        from planner.tui.night_data import campaign_night_data, night_sky_data
+
+        for night in nights:
+            try:
+                sky = night_sky_data(self.campaign, night, self.sun_moon_store)
+                data = campaign_night_data(self.campaign, night, self.seeing_arcsec, sky, cache=self.plan_cache,
+                                           store=self.sun_moon_store)
+                accepted, _ = self._accepted_plan(night, data.plan)
+            except Exception:  # noqa: BLE001 - said when the night is shown
+                return
+            self.call_from_thread(self._ahead_ready, data, accepted)
+
+    @guarded
+    def _ahead_ready(self, data, accepted) -> None:
+        if data.night in self._nights:
+            return
+        if data.night == self.night and self.data is not None and not self.data.planning:
+            return  # shown already, from its own computation
+        self._night_ready(data, self.key, accepted)
 
     def _night_failed(self, night: dt.date, message: str) -> None:
         if night == self.night:
@@ -386,17 +414,21 @@ class PlannerApp(NightActions, App):
         """The next or previous night: within the campaign by its list, else by a day."""
         if self.campaign is None or self.night is None:
             return
-        nights = list(self.campaign.nights)
-        if self.night in nights:
-            k = nights.index(self.night) + step
-            if not 0 <= k < len(nights):
-                self.say("the campaign's " + ("last" if step > 0 else "first") + " night")
-                return
-            night = nights[k]
-        else:
-            night = self.night + dt.timedelta(days=step)
+        night = self._step(self.night, step)
+        if night is None:
+            self.say("the campaign's " + ("last" if step > 0 else "first") + " night")
+            return
         self.message = ""
         self.set_night(night)
+
+    def _step(self, night: dt.date, step: int) -> dt.date | None:
+        """The night ``step`` away: within the campaign by its list (None past its ends),
+        else by a day."""
+        nights = list(self.campaign.nights)
+        if night in nights:
+            k = nights.index(night) + step
+            return nights[k] if 0 <= k < len(nights) else None
+        return night + dt.timedelta(days=step)
 
     @guarded
     def action_go_night(self) -> None:

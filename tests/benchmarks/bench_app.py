@@ -18,7 +18,8 @@ folder, so its logbook is written there):
 Then the same app as a whole process (``python`` started, imports, the app's start),
 its caches warm (one run before, on the same copy of the campaign): the time from the
 process's launch until the night's almanac and sky are on screen (goal 0.5 s), until
-the plan is, and the next night (``]``) until its plan is on screen (goal 0.2 s).
+the plan is, and the next night (``]``, pressed half a second after the plan showed, as
+an observer reads it first) until its plan is on screen (goal 0.2 s).
 
 The ratio last is the re-plan shown against its 300 ms goal (below 1 meets it).
 """
@@ -106,6 +107,7 @@ async def process_run(campaign_file: Path, launched: float) -> dict:
                      and len(app.screen.query_one(RowList).rows) > 1)
         out["plan on screen"] = time.time() - launched
         await _until(pilot, lambda: not app.busy_text)
+        await asyncio.sleep(0.5)  # the observer reads the night before moving on
         t = time.perf_counter()
         await pilot.press("]")
         await _until(pilot, lambda: app.data is not None and app.data.night == NIGHT + dt.timedelta(days=1)
