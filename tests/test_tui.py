@@ -390,6 +390,10 @@ def test_the_nights_either_side_are_made_ahead_as_the_core_plans_them(campaign_f
         async with app.run_test(size=(80, 24)) as pilot:
             await settle(pilot)
             later, earlier = NIGHT + dt.timedelta(days=1), NIGHT - dt.timedelta(days=1)
+            for _ in range(300):  # made a moment after the night is shown
+                if {later, earlier} <= set(app._nights):
+                    break
+                await asyncio.sleep(0.02)
             assert {later, earlier} <= set(app._nights)
             ahead = app._nights[later]
             await pilot.press("right_square_bracket")

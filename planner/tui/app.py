@@ -38,6 +38,8 @@ NIGHT_THEME = dict(name="gcplan-night", primary="#c07a50", secondary="#9c5a4c", 
 #: How often the clock is read, seconds: the marks move at most this late.
 TICK_S = 10.0
 SCREEN_NAMES = ("plan", "tonight", "phases")
+#: Seconds after a night is shown before its neighbours are made (its screen settles first).
+READ_AHEAD_AFTER_S = 0.2
 
 
 class PlannerApp(NightActions, App):
@@ -277,9 +279,10 @@ class PlannerApp(NightActions, App):
         self._update_sky()
         self._update_states()
         self.show_all()
-        if not data.planning:
-            self.read_ahead([n for n in (self._step(data.night, 1), self._step(data.night, -1))
-                             if n is not None and n not in self._nights])
+        if not data.planning:  # once the night is on screen: not to slow its first screen
+            ahead = [n for n in (self._step(data.night, 1), self._step(data.night, -1))
+                     if n is not None and n not in self._nights]
+            self.set_timer(READ_AHEAD_AFTER_S, lambda: self.read_ahead(ahead))
 
     @work(thread=True, exclusive=True, group="ahead")
     def read_ahead(self, nights: list) -> None:
