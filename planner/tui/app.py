@@ -286,28 +286,24 @@ class PlannerApp(NightActions, App):
 
     @work(thread=True, exclusive=True, group="ahead")
     def read_ahead(self, nights: list) -> None:
-        """The nights either side of the one shown, made while the observer reads it: ] and [
-        then show them at once (their plans come from the campaign's nights kept on disk).
-        Not marked busy; a night that fails here is made again, and its error said, when shown."""
-        from planner.tui.night_data import campaign_night_data, night_sky_data
+        """The nights either side of the one shown, made while the observer reads it (plans from
+        the nights kept on disk): ] and [ show them at once. A failure is said when shown."""
+        from planner.tui.night_data import campaign_night_data
 
         for night in nights:
             try:
-                sky = night_sky_data(self.campaign, night, self.sun_moon_store)
-                data = campaign_night_data(self.campaign, night, self.seeing_arcsec, sky, cache=self.plan_cache,
+                data = campaign_night_data(self.campaign, night, self.seeing_arcsec, cache=self.plan_cache,
                                            store=self.sun_moon_store)
                 accepted, _ = self._accepted_plan(night, data.plan)
-            except Exception:  # noqa: BLE001 - said when the night is shown
+            except Exception:  # noqa: BLE001 - made again, and its error said, when shown
                 return
             self.call_from_thread(self._ahead_ready, data, accepted)
 
     @guarded
     def _ahead_ready(self, data, accepted) -> None:
-        if data.night in self._nights:
-            return
-        if data.night == self.night and self.data is not None and not self.data.planning:
-            return  # shown already, from its own computation
-        self._night_ready(data, self.key, accepted)
+        shown = data.night == self.night and self.data is not None and not self.data.planning
+        if data.night not in self._nights and not shown:  # else made already by its own worker
+            self._night_ready(data, self.key, accepted)
 
     def _night_failed(self, night: dt.date, message: str) -> None:
         if night == self.night:
