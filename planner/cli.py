@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import sys
 
 from planner import __version__
@@ -31,6 +32,9 @@ COMMAND_MODULES = (
     "planner.commands.app",
 )
 
+#: The sub-commands' names: each module registers the command named as it is.
+COMMAND_NAMES = tuple(m.rpartition(".")[2] for m in COMMAND_MODULES)
+
 # Options whose values may start with "-" (a southern latitude, a western
 # longitude): "--site -30.2,-70.8,2200" must work as well as "--site=...".
 DASH_VALUE_OPTIONS = ("--site",)
@@ -41,7 +45,10 @@ class _Parser(argparse.ArgumentParser):
     def error(self, message: str):  # noqa: D401 - argparse API
         self.exit(2, f"gcplan: error: {message} (see '{self.prog} --help')\n")
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(command: str | None = None) -> argparse.ArgumentParser:
+    """gcplan's parser: with ``command`` (a sub-command's name), that sub-command's alone —
+    building every sub-command's parser costs more than some commands' work — else all of
+    them (``gcplan --help`` lists them, an unknown word is told the choices)."""
     parser = _Parser(
         prog="gcplan",
         description=(
@@ -59,9 +66,28 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"gcplan {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
-    for name in COMMAND_MODULES:
+    chosen = [m for m in COMMAND_MODULES if m.rpartition(".")[2] == command] or COMMAND_MODULES
+    for name in chosen:
         importlib.import_module(name).register(sub)
     return parser
+
+
+def chosen_command(argv: list[str]) -> str | None:
+    """The sub-command ``argv`` runs, when its first word names one (None otherwise:
+    ``--help``, ``--version``, nothing, an unknown word)."""
+    return argv[0] if argv and argv[0] in COMMAND_NAMES else None
+
+def one_blas_thread() -> None:
+    """OpenBLAS (numpy's and scipy's) on one thread unless the user chose otherwise.
+
+    Read once, when numpy loads: so set before any command imports it.  OpenBLAS starts
+    a thread per core whose spinning costs about 0.1 s of CPU a process — a third of a
+    ``night`` — while gcplan's products are (…, 3) × (3, …): too thin for threads to pay.
+    Each product's elements are summed as before, so the results are the same.
+    """
+    if "numpy" not in sys.modules:
+        os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+
 
 def join_dash_values(argv: list[str]) -> list[str]:
     """Glue ``--site -30,-70`` into ``--site=-30,-70`` so argparse keeps the value."""
@@ -79,14 +105,15 @@ def join_dash_values(argv: list[str]) -> list[str]:
 
 def main(argv: list[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
-    parser = build_parser()
+    one_blas_thread()
+    parser = build_parser(chosen_command(argv))
     args = parser.parse_args(join_dash_values(argv))
     if args.command is None:
         if not (sys.stdout.isatty() and sys.stdin.isatty()):
             parser.print_help()
             return 0
         # A terminal and no command: open the app on the demo campaign.
-        args = parser.parse_args(["app"])
+        args = build_parser("app").parse_args(["app"])
     from planner.config import configure_runtime
 
     configure_runtime()

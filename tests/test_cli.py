@@ -170,3 +170,43 @@ def test_top_level_help_names_every_kind_of_work(capsys):
     for words in ("almanac", "semester", "exposure", "phase coverage", "period recovery", "night plans",
                   "campaigns", "observing log", "demo", "terminal app"):
         assert words in description, words
+
+
+def test_help_lists_every_command_with_its_one_line_help(capsys):
+    """Only the chosen sub-command's parser is built for a run; ``--help`` still builds them all."""
+    import argparse
+
+    from planner.cli import COMMAND_NAMES, build_parser
+
+    with pytest.raises(SystemExit) as exc:
+        main(["--help"])
+    assert exc.value.code == 0
+    out = capsys.readouterr().out
+    choices = next(a for a in build_parser()._actions if isinstance(a, argparse._SubParsersAction))
+    helps = {c.dest: c.help for c in choices._choices_actions}
+    assert sorted(helps) == sorted(COMMAND_NAMES)
+    for name, text in helps.items():
+        assert text and " ".join(text.split())[:40] in " ".join(out.split()), name
+
+
+@pytest.mark.parametrize("name", ["night", "observability", "expose", "phases", "recover", "demo", "log",
+                                  "schedule", "campaign", "proposal", "replan", "app"])
+def test_each_command_help_is_its_own_parser_whole(capsys, name):
+    from planner.cli import build_parser
+
+    with pytest.raises(SystemExit) as exc:
+        main([name, "--help"])
+    assert exc.value.code == 0
+    alone = capsys.readouterr().out
+    assert alone.startswith(f"usage: gcplan {name} ")
+    with pytest.raises(SystemExit):
+        build_parser().parse_args([name, "--help"])  # from the parser of every command
+    assert capsys.readouterr().out == alone
+
+
+def test_unknown_command_is_one_line_and_status_2(capsys):
+    with pytest.raises(SystemExit) as exc:
+        main(["nigth", "--site", "demo"])
+    assert exc.value.code == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and err.startswith("gcplan: error: ") and "'night'" in err and "'app'" in err

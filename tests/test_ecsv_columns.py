@@ -105,3 +105,63 @@ def test_anything_else_is_left_to_astropy(tmp_path, content):
     path.write_text(content)
     with pytest.raises(NotPlainEcsv):
         read_plain_ecsv(path)
+
+
+_TARGET_TABLE = """# %ECSV 1.0
+# ---
+# datatype:
+# - {name: name, datatype: string}
+# - {name: ra_deg, unit: deg, datatype: float64}
+# - {name: dec_deg, datatype: float64}
+# - {name: priority, datatype: int64}
+# - {name: comment, datatype: string, description: 'a unit: rad in the text'}
+# schema: astropy-2.0
+name ra_deg dec_deg priority comment
+"Field A" 10.5 -30.25 2 "  padded  "
+"Field B" "" nan "" ""
+"""
+
+
+def _native(rows):
+    """astropy's rows with numpy floats (the unit factor's product) as Python floats."""
+    return [({k: float(v) if isinstance(v, float) else v for k, v in cells.items()}, written)
+            for cells, written in rows]
+
+
+@pytest.mark.parametrize("text", [_TARGET_TABLE, (catalog_path().parent / "demo" / "clusters.ecsv").read_text()])
+def test_target_tables_equal_astropy_read(text):
+    """Target lists read without astropy give what astropy's reader gives: the same
+    types, stripped text, None where a cell is empty."""
+    from planner.inputs import target_rows
+
+    fast = target_rows._plain_ecsv_rows(text, "t.ecsv")
+    assert fast is not None
+    assert repr(fast) == repr(_native(target_rows._astropy_ecsv_rows(text, "t.ecsv")))
+
+
+@pytest.mark.parametrize("text", [
+    _TARGET_TABLE,
+    (catalog_path().parent / "demo" / "clusters.ecsv").read_text(),
+    (catalog_path().parent / "demo" / "variables.ecsv").read_text(),
+    catalog_path().read_text(),
+])
+def test_variable_tables_equal_astropy_read(text):
+    from astropy.table import Table
+
+    from planner.inputs import variable_files
+
+    table = Table.read(text, format="ascii.ecsv")
+    columns = [str(c) for c in table.colnames]
+    slow = columns, [{c: variable_files._ecsv_cell(table[c], i) for c in columns} for i in range(len(table))]
+    assert repr(variable_files._plain_ecsv_rows(text)) == repr(slow)
+
+
+@pytest.mark.parametrize("change", [
+    ("ra_deg, unit: deg", "ra_deg, unit: hourangle"),  # a unit to convert
+    ("priority, datatype: int64", "priority, datatype: float32"),  # float32's values differ from float()'s
+    ('"Field A" 10.5', '"Field A" 10,5'),  # a cell astropy reports on
+])
+def test_target_tables_beyond_plain_go_through_astropy(change):
+    from planner.inputs import target_rows
+
+    assert target_rows._plain_ecsv_rows(_TARGET_TABLE.replace(*change), "t.ecsv") is None

@@ -191,3 +191,19 @@ def test_hour_angle_at_altitude_matches_brute_force(lat, dec, limit):
         # Grid step 0.001°; near a culmination dH/dh blows up, so allow more there.
         slope_ok = min(alt[0] - limit, limit - alt[-1]) > 0.01
         assert abs(h0 - brute) < (2e-3 if slope_ok else 0.5)
+
+
+def test_ut1_table_sliced_at_once_equals_row_by_row():
+    """The IERS table's columns sliced from all rows at once are the row-by-row floats
+    (the test of UT1 against astropy covers both); a file with rows of uneven length
+    is read row by row."""
+    from astropy_iers_data import IERS_A_FILE
+
+    from planner.sky import earth_rotation
+
+    with open(IERS_A_FILE, "rb") as f:
+        data = f.read()
+    fast, slow = earth_rotation._fixed_width_columns(data), earth_rotation._line_by_line_columns(data)
+    assert len(slow[0]) > 10000
+    assert all(np.array_equal(a, b) for a, b in zip(fast, slow))
+    assert earth_rotation._fixed_width_columns(data.replace(b"\n", b"\r\n", 1)) is None

@@ -57,3 +57,19 @@ def test_expose_batch_loads_no_astropy_coordinates(tmp_path):
     path.write_text("target,mag,level,filter,snr\nNGC 6397,,hb,V,50\n,17,,I,80\n")
     loaded = _loaded(["expose", "--site", "demo", "--batch", str(path), "--out", str(tmp_path / "a.ecsv")])
     assert not loaded & {"astropy.coordinates", "astropy.table", "scipy", "matplotlib"}, loaded
+
+
+@pytest.mark.parametrize("given, expected", [(None, "1"), ("2", "2")])
+def test_openblas_on_one_thread_unless_the_user_chose(given, expected):
+    """Set before numpy loads (OpenBLAS reads it then); a user's own setting is kept."""
+    import os
+
+    probe = ("import os, sys\nfrom planner.cli import main\nmain(sys.argv[1:])\n"
+             "print(os.environ.get('OPENBLAS_NUM_THREADS'), 'numpy' in sys.modules)")
+    env = {k: v for k, v in os.environ.items() if k != "OPENBLAS_NUM_THREADS"}
+    if given:
+        env["OPENBLAS_NUM_THREADS"] = given
+    done = subprocess.run([sys.executable, "-c", probe, "expose", "--site", "demo", "--filter", "V", "--mag", "17",
+                           "--snr", "50"], capture_output=True, text=True, timeout=120, env=env)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip().splitlines()[-1] == f"{expected} True"

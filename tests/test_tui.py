@@ -382,6 +382,31 @@ def test_switch_night_and_back(campaign_file):
         marks_of(campaign_file, dt.date(2027, 1, 7)) == {} and marks_of(campaign_file) == {})
 
 
+def test_the_nights_either_side_are_made_ahead_as_the_core_plans_them(campaign_file):
+    """While a night is shown its neighbours are made (so ] and [ show them at once): the next
+    night's plan is plan_campaign_night's, and ] shows it with no computation of its own."""
+    async def go():
+        app = make_app(campaign_file, SetClock(NOW))
+        async with app.run_test(size=(80, 24)) as pilot:
+            await settle(pilot)
+            later, earlier = NIGHT + dt.timedelta(days=1), NIGHT - dt.timedelta(days=1)
+            for _ in range(300):  # made a moment after the night is shown
+                if {later, earlier} <= set(app._nights):
+                    break
+                await asyncio.sleep(0.02)
+            assert {later, earlier} <= set(app._nights)
+            ahead = app._nights[later]
+            await pilot.press("right_square_bracket")
+            assert app.data is ahead and not app.busy_text  # at once: no worker was needed
+            await settle(pilot)
+            assert "night Thu 2027-01-07" in screen_text(app)
+            return ahead.plan
+
+    plan = asyncio.run(go())
+    core, _ = plan_campaign_night(read_campaign_file(campaign_file), NIGHT + dt.timedelta(days=1))
+    assert [(v.id, v.start_jd, v.end_jd) for v in plan.visits] == [(v.id, v.start_jd, v.end_jd) for v in core.visits]
+
+
 def test_clock_ticks_update_lines_in_place(campaign_file, demo_plan):
     """Two minutes later the under-way mark moves to the next visit without the list being
     built anew."""

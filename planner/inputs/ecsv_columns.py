@@ -26,6 +26,7 @@ PLAIN_DATATYPES = frozenset(
 # "# - {name: ra_deg, unit: deg, datatype: float64, description: ...}"
 _COLUMN = re.compile(r"^- \{name: (?P<name>'[^']*'|[^,}]+)(?P<rest>.*)\}\s*$")
 _DATATYPE = re.compile(r"[{ ,]datatype: (?P<datatype>[\w]+)")
+_UNIT = re.compile(r"[{ ,]unit: (?P<unit>'[^']*'|[^,}]+)")
 _DELIMITER = re.compile(r"^delimiter: (?P<quote>['\"]?)(?P<delimiter>.)(?P=quote)\s*$")
 
 
@@ -41,9 +42,17 @@ def read_plain_ecsv(path: str | Path) -> tuple[dict[str, str], dict[str, list[st
     """
     with open(path, encoding="utf-8", newline="") as f:
         lines = f.read().splitlines()
+    datatypes, _, cells = parse_plain_ecsv(lines)
+    return datatypes, cells
+
+
+def parse_plain_ecsv(lines: list[str]) -> tuple[dict[str, str], dict[str, str | None], dict[str, list[str]]]:
+    """:func:`read_plain_ecsv` on the file's lines, with each column's unit as written
+    in the header (None without one) between the datatypes and the cells."""
     if not lines or not lines[0].startswith("# %ECSV"):
         raise NotPlainEcsv("no '# %ECSV' first line")
     datatypes: dict[str, str] = {}
+    units: dict[str, str | None] = {}
     delimiter = " "
     section = ""  # the header's top-level key the line belongs to
     body = 0
@@ -61,7 +70,10 @@ def read_plain_ecsv(path: str | Path) -> tuple[dict[str, str], dict[str, list[st
                 raise NotPlainEcsv(f"header line {i + 1}: unread column entry")
             if "subtype:" in match["rest"] or kind["datatype"] not in PLAIN_DATATYPES:
                 raise NotPlainEcsv(f"header line {i + 1}: column type not plain")
-            datatypes[match["name"].strip("'").strip()] = kind["datatype"]
+            name = match["name"].strip("'").strip()
+            datatypes[name] = kind["datatype"]
+            unit = _UNIT.search(match["rest"].split(" description:", 1)[0])
+            units[name] = unit["unit"].strip("'").strip() if unit else None
         elif section == "delimiter":
             found = _DELIMITER.match(text)
             if found is None:
@@ -87,4 +99,4 @@ def read_plain_ecsv(path: str | Path) -> tuple[dict[str, str], dict[str, list[st
                 column.append(value)
     except csv.Error as exc:
         raise NotPlainEcsv(str(exc)) from None
-    return datatypes, cells
+    return datatypes, units, cells

@@ -83,6 +83,10 @@ def _read_table(path: str | Path, what: str) -> _Table:
         raise VariablesError(f"cannot read the {what} file ({exc})", src) from None
     lines = _data_lines(text)
     if text.lstrip().startswith("# %ECSV"):
+        plain = _plain_ecsv_rows(text)
+        if plain is not None:
+            columns, rows = plain
+            return _Table(p, columns, rows, lines if len(lines) == len(rows) else [None] * len(rows))
         from astropy.table import Table
 
         try:
@@ -110,6 +114,29 @@ def _read_table(path: str | Path, what: str) -> _Table:
             )
         rows.append({c: (v.strip() or None) for c, v in zip(columns, values)})
     return _Table(p, columns, rows, lines)
+
+
+def _plain_ecsv_rows(text: str) -> tuple[list[str], list[dict[str, Any]]] | None:
+    """The columns and rows of a plain ECSV file (:mod:`planner.inputs.ecsv_columns`) as
+    astropy's reader and :func:`_ecsv_cell` give them, without astropy (a third of a second
+    a process); None for any other ECSV, which goes through astropy."""
+    from planner.inputs.ecsv_columns import NotPlainEcsv, parse_plain_ecsv
+    from planner.inputs.target_rows import PLAIN_CELL
+
+    try:
+        datatypes, _, cells = parse_plain_ecsv(text.splitlines())
+    except NotPlainEcsv:
+        return None
+    if any(kind not in PLAIN_CELL for kind in datatypes.values()):
+        return None
+    columns = list(datatypes)
+    try:
+        # astropy strips the cells and masks empty ones, whatever the type
+        values = {c: [PLAIN_CELL[datatypes[c]](v.strip()) if v.strip() else None for v in cells[c]] for c in columns}
+    except ValueError:
+        return None  # astropy says what is wrong with the cell
+    n = len(values[columns[0]]) if columns else 0
+    return columns, [{c: values[c][i] for c in columns} for i in range(n)]
 
 
 def _ecsv_cell(column, i: int) -> Any:

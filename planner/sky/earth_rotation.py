@@ -54,17 +54,40 @@ def load_ut1_table(path: str | Path | None = None) -> UT1Table:
         # The file astropy's ``iers.IERS_A_FILE`` names, without importing astropy's
         # IERS module (half a second: astropy.table and astropy.time come with it).
         from astropy_iers_data import IERS_A_FILE as path
-    mjd, dut1 = [], []
     with open(path, "rb") as f:
-        for line in f:
-            value = line[58:68].strip()
-            if not value:
-                continue  # rows past the predictions carry no UT1 value
-            mjd.append(float(line[7:15]))
-            dut1.append(float(value))
-    mjd_a = np.array(mjd)
-    dut1_a = np.array(dut1)
+        data = f.read()
+    mjd_a, dut1_a = _fixed_width_columns(data) or _line_by_line_columns(data)
     return UT1Table(mjd=mjd_a, ut1_minus_tai_s=dut1_a - tai_minus_utc_s(mjd_a + 2400000.5))
+
+
+def _fixed_width_columns(data: bytes) -> tuple[np.ndarray, np.ndarray] | None:
+    """MJD and UT1 − UTC sliced from every row at once (a third of the time of a
+    Python loop over 20,000 rows; the same floats): None unless every row is as
+    long as the first, when :func:`_line_by_line_columns` reads it."""
+    width = data.find(b"\n") + 1
+    if width < 69 or len(data) % width:
+        return None
+    rows = np.frombuffer(data, dtype=np.uint8).reshape(-1, width)
+    if not (rows[:, -1] == ord("\n")).all():
+        return None
+    keep = (rows[:, 58:68] != ord(" ")).any(axis=1)  # rows past the predictions carry no UT1 value
+    try:
+        mjd = np.ascontiguousarray(rows[keep, 7:15]).view("S8").ravel().astype(float)
+        dut1 = np.ascontiguousarray(rows[keep, 58:68]).view("S10").ravel().astype(float)
+    except ValueError:
+        return None
+    return mjd, dut1
+
+
+def _line_by_line_columns(data: bytes) -> tuple[np.ndarray, np.ndarray]:
+    mjd, dut1 = [], []
+    for line in data.splitlines():
+        value = line[58:68].strip()
+        if not value:
+            continue  # rows past the predictions carry no UT1 value
+        mjd.append(float(line[7:15]))
+        dut1.append(float(value))
+    return np.array(mjd), np.array(dut1)
 
 
 def ut1_minus_utc_s(table: UT1Table, jd_utc) -> np.ndarray:

@@ -38,6 +38,8 @@ NIGHT_THEME = dict(name="gcplan-night", primary="#c07a50", secondary="#9c5a4c", 
 #: How often the clock is read, seconds: the marks move at most this late.
 TICK_S = 10.0
 SCREEN_NAMES = ("plan", "tonight", "phases")
+#: Seconds after a night is shown before its neighbours are made (its screen settles first).
+READ_AHEAD_AFTER_S = 0.2
 
 
 class PlannerApp(NightActions, App):
@@ -277,6 +279,31 @@ class PlannerApp(NightActions, App):
         self._update_sky()
         self._update_states()
         self.show_all()
+        if not data.planning:  # once the night is on screen: not to slow its first screen
+            ahead = [n for n in (self._step(data.night, 1), self._step(data.night, -1))
+                     if n is not None and n not in self._nights]
+            self.set_timer(READ_AHEAD_AFTER_S, lambda: self.read_ahead(ahead))
+
+    @work(thread=True, exclusive=True, group="ahead")
+    def read_ahead(self, nights: list) -> None:
+        """The nights either side of the one shown, made while the observer reads it (plans from
+        the nights kept on disk): ] and [ show them at once. A failure is said when shown."""
+        from planner.tui.night_data import campaign_night_data
+
+        for night in nights:
+            try:
+                data = campaign_night_data(self.campaign, night, self.seeing_arcsec, cache=self.plan_cache,
+                                           store=self.sun_moon_store)
+                accepted, _ = self._accepted_plan(night, data.plan)
+            except Exception:  # noqa: BLE001 - made again, and its error said, when shown
+                return
+            self.call_from_thread(self._ahead_ready, data, accepted)
+
+    @guarded
+    def _ahead_ready(self, data, accepted) -> None:
+        shown = data.night == self.night and self.data is not None and not self.data.planning
+        if data.night not in self._nights and not shown:  # else made already by its own worker
+            self._night_ready(data, self.key, accepted)
 
     def _night_failed(self, night: dt.date, message: str) -> None:
         if night == self.night:
@@ -386,17 +413,21 @@ class PlannerApp(NightActions, App):
         """The next or previous night: within the campaign by its list, else by a day."""
         if self.campaign is None or self.night is None:
             return
-        nights = list(self.campaign.nights)
-        if self.night in nights:
-            k = nights.index(self.night) + step
-            if not 0 <= k < len(nights):
-                self.say("the campaign's " + ("last" if step > 0 else "first") + " night")
-                return
-            night = nights[k]
-        else:
-            night = self.night + dt.timedelta(days=step)
+        night = self._step(self.night, step)
+        if night is None:
+            self.say("the campaign's " + ("last" if step > 0 else "first") + " night")
+            return
         self.message = ""
         self.set_night(night)
+
+    def _step(self, night: dt.date, step: int) -> dt.date | None:
+        """The night ``step`` away: within the campaign by its list (None past its ends),
+        else by a day."""
+        nights = list(self.campaign.nights)
+        if night in nights:
+            k = nights.index(night) + step
+            return nights[k] if 0 <= k < len(nights) else None
+        return night + dt.timedelta(days=step)
 
     @guarded
     def action_go_night(self) -> None:

@@ -15,6 +15,12 @@ folder, so its logbook is written there):
   screen, after the dome was closed for 40 minutes — beside ``replan_night``
   alone (what ``gcplan replan`` computes); goal under 300 ms.
 
+Then the same app as a whole process (``python`` started, imports, the app's start),
+its caches warm (one run before, on the same copy of the campaign): the time from the
+process's launch until the night's almanac and sky are on screen (goal 0.5 s), until
+the plan is, and the next night (``]``, pressed half a second after the plan showed, as
+an observer reads it first) until its plan is on screen (goal 0.2 s).
+
 The ratio last is the re-plan shown against its 300 ms goal (below 1 meets it).
 """
 
@@ -33,6 +39,9 @@ NOW = dt.datetime(2027, 1, 7, 3, 0, tzinfo=dt.timezone.utc)
 NIGHT = dt.date(2027, 1, 6)
 REPLAN_GOAL_S = 0.300
 FIRST_SCREEN_GOAL_S = 2.0
+#: Whole process, warm caches: the launch to the almanac on screen; a night to the next.
+PROCESS_FIRST_GOAL_S = 0.5
+NEXT_NIGHT_GOAL_S = 0.2
 
 
 class SetClock:
@@ -84,6 +93,48 @@ async def one_run(campaign_file: Path) -> dict:
     return out
 
 
+async def process_run(campaign_file: Path, launched: float) -> dict:
+    """In a child process: times since ``launched`` (the parent's clock, ``time.time()``)."""
+    from planner.tui.app import PlannerApp
+    from planner.tui.widgets.row_list import RowList
+
+    app = PlannerApp(campaign_path=campaign_file, clock=SetClock(NOW), tick_s=3600.0)
+    out = {}
+    async with app.run_test(size=(80, 24)) as pilot:
+        await _until(pilot, lambda: app.data is not None and app.sky is not None)
+        out["first screen"] = time.time() - launched
+        await _until(pilot, lambda: app.data is not None and app.key is not None
+                     and len(app.screen.query_one(RowList).rows) > 1)
+        out["plan on screen"] = time.time() - launched
+        await _until(pilot, lambda: not app.busy_text)
+        await asyncio.sleep(0.5)  # the observer reads the night before moving on
+        t = time.perf_counter()
+        await pilot.press("]")
+        await _until(pilot, lambda: app.data is not None and app.data.night == NIGHT + dt.timedelta(days=1)
+                     and app.data.plan is not None and not app.busy_text)
+        out["next night"] = time.perf_counter() - t
+        await pilot.press("q")
+    return out
+
+
+def process_times(campaign_file: Path, repeat: int) -> dict:
+    """Medians of whole-process runs (one before them, not counted, warms the caches)."""
+    import json
+    import statistics
+    import subprocess
+
+    import os
+
+    # An installed gcplan has its bytecode compiled: the children may write theirs.
+    env = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
+    runs = []
+    for _ in range(repeat + 1):
+        done = subprocess.run([sys.executable, __file__, "--child", str(campaign_file), repr(time.time())],
+                              capture_output=True, text=True, check=True, env=env)
+        runs.append(json.loads(done.stdout.strip().splitlines()[-1]))
+    return {k: statistics.median(r[k] for r in runs[1:]) for k in runs[0]}
+
+
 def core_times(campaign_file: Path) -> dict:
     from planner.inputs.campaign_file import read_campaign_file
     from planner.logbook.night_record import read_night_record
@@ -107,11 +158,22 @@ def core_times(campaign_file: Path) -> dict:
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser()
     ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--child", nargs=2, metavar=("CAMPAIGN", "LAUNCHED"), help=argparse.SUPPRESS)
     args = ap.parse_args(argv)
     from planner.config import configure_runtime
-    from planner.inputs.resources import targets_dir
 
     configure_runtime()
+    if args.child:  # as `gcplan app` starts (planner.cli.main)
+        import json
+
+        from planner.cli import one_blas_thread
+
+        one_blas_thread()
+
+        print(json.dumps(asyncio.run(process_run(Path(args.child[0]), float(args.child[1])))))
+        return 0
+    from planner.inputs.resources import targets_dir
+
     runs, cores = [], []
     for _ in range(args.repeat):
         folder = Path(tempfile.mkdtemp()) / "demo"
@@ -120,6 +182,10 @@ def main(argv=None) -> int:
         runs.append(asyncio.run(one_run(campaign_file)))
         cores.append(core_times(campaign_file))  # same logbook: the closure the app wrote
         shutil.rmtree(folder.parent, ignore_errors=True)
+    folder = Path(tempfile.mkdtemp()) / "demo"
+    shutil.copytree(targets_dir() / "demo", folder, ignore=shutil.ignore_patterns("logbook.sqlite*"))
+    whole = process_times(folder / "campaign.toml", max(args.repeat, 3))
+    shutil.rmtree(folder.parent, ignore_errors=True)
     best = {k: min(r[k] for r in runs) for k in runs[0]}
     core = {k: min(c[k] for c in cores) for k in cores[0]}
     print(f"app, first useful screen   {best['first screen']:7.3f} s   (goal {FIRST_SCREEN_GOAL_S:g} s)")
@@ -128,6 +194,10 @@ def main(argv=None) -> int:
     print(f"app, one clock tick        {best['tick'] * 1000:7.1f} ms")
     print(f"app, re-plan shown         {best['re-plan shown']:7.3f} s   (goal {REPLAN_GOAL_S * 1000:.0f} ms)")
     print(f"  replan_night alone        {core['replan_night']:7.3f} s")
+    print(f"whole process, caches warm (median of {max(args.repeat, 3)}):")
+    print(f"  launch to the first useful screen {whole['first screen']:7.3f} s   (goal {PROCESS_FIRST_GOAL_S:g} s)")
+    print(f"  launch to the plan on screen      {whole['plan on screen']:7.3f} s")
+    print(f"  next night, its plan on screen    {whole['next night']:7.3f} s   (goal {NEXT_NIGHT_GOAL_S:g} s)")
     print(f"re-plan shown / goal: {best['re-plan shown'] / REPLAN_GOAL_S:.2f}")
     return 0
 
