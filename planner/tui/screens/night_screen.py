@@ -7,9 +7,10 @@ The app holds the night, the clock and the logbook's account; it calls
 
 from __future__ import annotations
 
+from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
-from textual.widgets import Static
+from textual.widgets import Footer, Static
 
 from planner.tui.widgets.night_header import NightHeader
 from planner.tui.widgets.row_list import RowList
@@ -40,10 +41,23 @@ NIGHT_KEYS = [
 
 
 class NightScreen(Screen):
-    """Base of the plan, sky and phase screens: subclasses compose and fill their parts."""
+    """Base of the plan, sky and phase screens: the header, the screen's own parts (``parts``),
+    the list of rows, the message line and the keys; subclasses fill them in ``show_night``."""
 
     BINDINGS = NIGHT_KEYS
     _ready = False
+    ROWS_ID = "rows"  # the id of the screen's RowList
+
+    def parts(self) -> ComposeResult:
+        """The widgets between the header and the list of rows."""
+        return iter(())
+
+    def compose(self) -> ComposeResult:
+        yield NightHeader(id="header")
+        yield from self.parts()
+        yield RowList(id=self.ROWS_ID)
+        yield Static("", id="message", classes="message")
+        yield Footer(show_command_palette=False, compact=True)
 
     def on_mount(self) -> None:
         self._ready = True

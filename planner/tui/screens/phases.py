@@ -4,11 +4,10 @@ the night's remaining variable visits add."""
 from __future__ import annotations
 
 from textual.app import ComposeResult
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from planner.tui.rows import phase_head, phase_rows
 from planner.tui.screens.night_screen import NightScreen
-from planner.tui.widgets.night_header import NightHeader
 from planner.tui.widgets.row_list import RowList
 
 EXPLAIN = ("phase bins covered by the logbook's frames before now; +tonight: bins the plan's "
@@ -16,13 +15,11 @@ EXPLAIN = ("phase bins covered by the logbook's frames before now; +tonight: bin
 
 
 class PhaseScreen(NightScreen):
-    def compose(self) -> ComposeResult:
-        yield NightHeader(id="header")
+    ROWS_ID = "stars"
+
+    def parts(self) -> ComposeResult:
         yield Static(EXPLAIN, id="explain", classes="block")
         yield Static(phase_head(), id="phase-head", classes="head")
-        yield RowList(id="stars")
-        yield Static("", id="message", classes="message")
-        yield Footer(show_command_palette=False, compact=True)
 
     def on_screen_resume(self) -> None:
         super().on_screen_resume()

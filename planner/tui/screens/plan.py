@@ -7,25 +7,22 @@ the visit under way.
 from __future__ import annotations
 
 from textual.app import ComposeResult
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from planner.tui.rows import now_lines, plan_head, plan_rows, plan_summary
 from planner.tui.screens.night_screen import NightScreen
-from planner.tui.widgets.night_header import NightHeader
 from planner.tui.widgets.row_list import RowList
 
 
 class PlanScreen(NightScreen):
     """The night's timed visits, the one under way and the next marked, each with its state."""
 
-    def compose(self) -> ComposeResult:
-        yield NightHeader(id="header")
+    ROWS_ID = "visits"
+
+    def parts(self) -> ComposeResult:
         yield Static("", id="now", classes="panel")
         yield Static("", id="summary", classes="block")
         yield Static(plan_head(), id="plan-head", classes="head")
-        yield RowList(id="visits")
-        yield Static("", id="message", classes="message")
-        yield Footer(show_command_palette=False, compact=True)
 
     def show_night(self) -> None:
         if not self._ready:

@@ -4,24 +4,21 @@ left inside the limits and, for those out, the reason."""
 from __future__ import annotations
 
 from textual.app import ComposeResult
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from planner.tui.rows import almanac_lines, sky_head, sky_rows
 from planner.tui.screens.night_screen import NightScreen
-from planner.tui.widgets.night_header import NightHeader
 from planner.tui.widgets.row_list import RowList
 
 
 class TonightScreen(NightScreen):
     """The night's Sun, twilights and Moon, and what is up right now."""
 
-    def compose(self) -> ComposeResult:
-        yield NightHeader(id="header")
+    ROWS_ID = "targets"
+
+    def parts(self) -> ComposeResult:
         yield Static("", id="almanac", classes="block")
         yield Static(sky_head(), id="target-head", classes="head")
-        yield RowList(id="targets")
-        yield Static("", id="message", classes="message")
-        yield Footer(show_command_palette=False, compact=True)
 
     def show_night(self) -> None:
         if not self._ready:
