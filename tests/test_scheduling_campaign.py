@@ -374,6 +374,37 @@ def test_spare_depth_frames_back_to_back_are_one_visit(demo_plan):
     assert merged > 0
 
 
+def test_spare_depth_frames_leave_no_idle_time_another_frame_would_use(demo_plan):
+    """Where a spare-time depth visit is followed by idle time, one more frame of it would not
+    fit before the next visit, or would take its target outside the limits (the validator
+    holds the frames that are there)."""
+    from planner.scheduling.campaign import is_fill
+    from planner.scheduling.campaign_nights import observable
+    from planner.sky.ephemeris import build_ephemeris
+
+    campaign, plan = demo_plan
+    readout = campaign.site.camera.readout_s
+    eph = build_ephemeris(plan.nights[0].window_start_jd - 0.1, plan.nights[-1].window_end_jd + 0.1)
+    stretched = 0
+    for p in plan.nights:
+        visits = sorted(p.visits, key=lambda v: v.start_jd)
+        for v, nxt in zip(visits, visits[1:] + [None]):
+            if not is_fill(v) or v.purpose == "variables":
+                continue
+            step = (v.exposures[0].exposure_s + readout) / 86400.0
+            room = (nxt.start_jd if nxt is not None else p.window_end_jd) - v.end_jd
+            if room < step - 1e-9:
+                continue
+            goal = next(g for g in campaign.goals if g.level == v.purpose and g.filter == v.exposures[0].filter
+                        and v.target in g.targets)
+            ok, airmass, moon_down = observable(campaign.site, campaign.constraints, [v.ra_deg], [v.dec_deg],
+                                                eph, np.array([v.end_jd + step]))
+            still = ok[0][0] and airmass[0][0] <= (goal.max_airmass or np.inf) and (moon_down[0] or not goal.dark)
+            assert not still, (v.id, room * 1440)
+        stretched += sum(1 for v in visits if is_fill(v) and v.purpose != "variables" and v.exposures[0].frames > 1)
+    assert stretched > 0
+
+
 def test_extra_epochs_keep_the_minimum_spacing_from_the_goals_epochs(demo_plan):
     """Spare-time cadence epochs add phase only when they are apart from every other epoch
     of the cluster that night, the goals' included: no two variables visits of a cluster

@@ -47,6 +47,7 @@ from planner.scheduling.campaign_nights import (
     assign_depth,
     cadence_spacing,
     merge_spare_runs,
+    stretch_spare_frames,
     fits,
     gaps_with_reasons,
     goal_runs,
@@ -510,8 +511,8 @@ def add_spare_work(campaign, night, w0, w1, eph, goal_visits, extra, covered, se
     more = plan_night(site, constraints, extra, night, w0, w1, eph, seeing_arcsec=seeing, fixed=held,
                       covered_bins=bins, id_offset=len(goal_visits), closed=closed, not_before_jd=not_before_jd)
     own = {v.id: v for v in goal_visits}
-    placed = reconcile(site, [own.get(v.id, v) for v in more.visits], is_fill)
-    return merge_spare_runs(site, placed, is_fill), more.value
+    placed = merge_spare_runs(site, reconcile(site, [own.get(v.id, v) for v in more.visits], is_fill), is_fill)
+    return stretch_spare_frames(site, constraints, eph, placed, {q.key: q for q in extra}, w1, closed), more.value
 
 
 def _prefix_ids(plan: NightPlan, night: dt.date) -> NightPlan:

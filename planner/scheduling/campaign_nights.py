@@ -230,8 +230,6 @@ def merge_spare_runs(site, visits, is_fill) -> list:
     frame a visit (so it fits between cadence visits); at the telescope a run of them is one
     pointing.  The merged visit's S/N is its first part's scaled by √(frames ratio), exact
     for a stack of like frames."""
-    import re
-
     cam, tel = site.camera, site.telescope
     out, run_end = [], -np.inf  # run_end: where the last merged piece ended as placed
     points: list = []  # the run's (time, airmass) at each piece's science start, middle and end
@@ -247,8 +245,7 @@ def merge_spare_runs(site, visits, is_fill) -> list:
             n = max(int((span_s - tel.acquisition_s + 1e-6) // (line.exposure_s + cam.readout_s)), 1)
             exposures = (replace(line, frames=n),)
             snr = None if prev.snr_planned is None else prev.snr_planned * (n / line.frames) ** 0.5
-            notes = tuple(re.sub(r"^(?:one|\d+) more (.+?) frames?$", rf"{n} more \1 frames", x) if n > 1 else x
-                          for x in prev.notes)
+            notes = _frames_note(prev.notes, n)
             points += _airmass_points(v)
             end = prev.science_start_jd + body_s(site, exposures) / 86400.0
             # the airmass at the merged visit's own end and middle, from its pieces' (a few
@@ -263,6 +260,51 @@ def merge_spare_runs(site, visits, is_fill) -> list:
         points = _airmass_points(v)
         run_end = v.end_jd
     return out
+
+
+def stretch_spare_frames(site, constraints, eph, visits, requests: dict, w1: float, closed=()) -> list:
+    """A spare-time depth visit followed by idle time takes as many more frames of its kind as
+    fit before the next visit's start (or the usable window's end), while its target stays
+    inside the campaign's limits and its goal's (airmass, dark time) and the dome is open.
+
+    Spare-time work is placed around the goals' visits, which keep room for the widest slew
+    before them; once the real slews are known that room is idle, minutes at a time before
+    most cadence visits.  ``requests``: the spare-time requests by key."""
+    cam = site.camera
+    out = sorted(visits, key=lambda v: v.start_jd)
+    for i, v in enumerate(out):
+        q = requests.get(v.request_key)
+        if q is None or v.purpose == "variables" or len(v.exposures) != 1:
+            continue
+        line = v.exposures[0]
+        limit = out[i + 1].start_jd if i + 1 < len(out) else w1
+        limit = min([limit, w1] + [a for a, b in closed if b > v.end_jd] + ([q.latest_jd] if q.latest_jd else []))
+        step_d = (line.exposure_s + cam.readout_s) / 86400.0
+        more = int((limit - v.end_jd) / step_d + 1e-9)
+        if more < 1:
+            continue
+        jd = v.end_jd + step_d * np.arange(1, more + 1)
+        ok, airmass, moon_down = observable(site, constraints, [v.ra_deg], [v.dec_deg], eph, jd)
+        good = ok[0] & (airmass[0] <= (q.max_airmass or np.inf)) & (moon_down if q.dark else True)
+        more = int(np.argmin(good)) if not good.all() else more  # frames until the first that fails
+        if more < 1:
+            continue
+        n = line.frames + more
+        end = v.end_jd + more * step_d
+        out[i] = replace(v, exposures=(replace(line, frames=n),), end_jd=end,
+                         airmass_end=float(airmass[0][more - 1]),
+                         airmass_mid=float(np.interp(0.5 * (v.science_start_jd + end),
+                                                     *np.array(_airmass_points(v) + [(end, airmass[0][more - 1])]).T)),
+                         snr_planned=None if v.snr_planned is None else v.snr_planned * (n / line.frames) ** 0.5,
+                         notes=_frames_note(v.notes, n))
+    return out
+
+
+def _frames_note(notes, n: int) -> tuple:
+    import re
+
+    return tuple(re.sub(r"^(?:one|\d+) more (.+?) frames?$", rf"{n} more \1 frames", x) if n > 1 else x
+                 for x in notes)
 
 
 def _airmass_points(v) -> list:
