@@ -8,14 +8,11 @@ with the CLI's error handling reproduced (as tests/test_expose_command.py does).
 
 from __future__ import annotations
 
-import argparse
 import json
-import sys
 
 import pytest
 
-from planner.commands import expose
-from planner.errors import InputError
+from helpers.expose_runner import run_expose
 
 # Several filters, a magnitude row, level rows, Moon, seeing, field radius, R_V, a period.
 BATCH_CSV = """target,mag,level,filter,snr,airmass,moon_illumination,moon_separation_deg,moon_altitude_deg,seeing_arcsec,field_radius_arcmin,r_v,shortest_period_d
@@ -34,17 +31,7 @@ OPTION = {"target": "--target", "mag": "--mag", "level": "--level", "filter": "-
           "shortest_period_d": "--shortest-period"}
 
 
-def gcplan(argv, capsys):
-    parser = argparse.ArgumentParser(prog="gcplan")
-    expose.register(parser.add_subparsers(dest="command"))
-    args = parser.parse_args(argv)
-    try:
-        status = args.run(args)
-    except InputError as exc:  # as planner.cli.main does
-        print(f"gcplan: error: {exc}", file=sys.stderr)
-        status = 2
-    out, err = capsys.readouterr()
-    return status, out, err
+gcplan = run_expose
 
 
 def _single_argv(header, cells):

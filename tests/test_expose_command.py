@@ -6,16 +6,14 @@ CLI's error handling (an InputError becomes one line and exit status 2) reproduc
 
 from __future__ import annotations
 
-import argparse
 import json
 import re
 
 import pytest
 
-from planner.commands import expose
-from planner.errors import InputError
 from planner.inputs.sites import resolve_site
 from planner.light.exposure import exposure_for_snr
+from helpers.expose_runner import run_expose
 
 REQUIRED_FIELDS = ("filter", "magnitude", "level", "target", "snr_goal", "exposure_s", "frames", "frame_s",
                 "snr_reached", "saturation_s", "sky_mag_arcsec2", "source_e_per_s", "sky_e_per_s_per_pixel",
@@ -25,17 +23,7 @@ INPUT_FIELDS = ("airmass", "seeing_fwhm_arcsec", "moon_illumination", "moon_sepa
                 "pixel_scale_arcsec", "collecting_area_m2")
 
 
-def gcplan(argv, capsys):
-    parser = argparse.ArgumentParser(prog="gcplan")
-    expose.register(parser.add_subparsers(dest="command"))
-    args = parser.parse_args(argv)
-    try:
-        status = args.run(args)
-    except InputError as exc:  # as planner.cli.main does
-        print(f"gcplan: error: {exc}", file=__import__("sys").stderr)
-        status = 2
-    out, err = capsys.readouterr()
-    return status, out, err
+gcplan = run_expose
 
 
 def test_json_has_the_required_fields(capsys):
