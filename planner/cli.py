@@ -169,8 +169,6 @@ def library_warnings(caught) -> list[str]:
 
 
 def _drop_stdout() -> None:
-    import os
-
     try:
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
     except (OSError, ValueError):  # not a real file (a test's capture)
