@@ -536,3 +536,29 @@ def test_goal_field_radius_adds_the_clusters_light_where_planned(tmp_path):
     assert min(shutter(lit)) > max(shutter(plain))
     snr = [v.snr_planned for v in lit.visits if v.request_key == key]
     assert all(s >= campaign.goals[i].snr * 0.99 for s in snr)
+
+
+def test_a_goal_visits_longer_slew_never_starts_where_its_limits_fail():
+    """A spare-time visit put before a goal's visit lengthens the goal's slew; where that
+    slew would start before the goal may start (its target outside its limits then, e.g.
+    the Moon still up for dark time), the spare-time visit goes and the goal's slew stays
+    as planned.  Without an ``earliest`` the same visits keep the longer slew."""
+    from planner.inputs.sites import resolve_site
+    from planner.scheduling.campaign_nights import reconcile
+    from planner.scheduling.visits import Exposure, Visit
+
+    site = resolve_site("demo")
+    day = 1.0 / 86400.0
+
+    def visit(vid, key, ra, start, sci, end):
+        return Visit(vid, key, key, ra, -30.0, "hb", (Exposure("V", 1, 60.0),), start, sci, end, 1.0, 0.0,
+                     1.1, 1.1, 1.1, 90.0)
+
+    t0 = 2461421.5
+    spare = visit("02", "far" + "/spare", 10.0, t0, t0 + 30 * day, t0 + 200 * day)
+    goal = visit("01", "goal", 100.0, t0 + 290 * day, t0 + 300 * day, t0 + 900 * day)  # 10 s planned slew
+    fill = lambda v: v.request_key.endswith("/spare")  # noqa: E731
+    kept = reconcile(site, [spare, goal], fill)
+    assert [v.id for v in kept] == ["02", "01"] and kept[1].start_jd < goal.start_jd  # the 90° slew
+    kept = reconcile(site, [spare, goal], fill, {"01": goal.start_jd})
+    assert kept == [goal]  # the goal's visit as planned

@@ -256,7 +256,8 @@ def test_the_bound_is_the_relaxations_optimum_from_milp(seed):
         for k in range(n_k):
             a[k, r * n_k + k] = 1.0
             a[n_k + r, r * n_k + k] = 1.0
-    upper = np.where(count[:, None] > 0, ok_min, 0.0).ravel()
+    # a request may take all of a slot where its constraints hold somewhere (bound.py's third row)
+    upper = np.where((count[:, None] > 0) & (ok_min > 1e-9), np.inf, 0.0).ravel()
     res = milp(-c, constraints=LinearConstraint(a, -np.inf, np.concatenate([cap, count * body])),
                bounds=Bounds(np.zeros(c.size), upper), integrality=np.zeros(c.size))
     assert res.status == 0
@@ -265,32 +266,70 @@ def test_the_bound_is_the_relaxations_optimum_from_milp(seed):
 
 def _random_transport(rng):
     n_k, n_req = int(rng.integers(5, 60)), int(rng.integers(2, 25))
-    use = rng.random((n_req, n_k)) > 0.3
-    rr, kk = np.nonzero(use)
-    n = rr.size
-    return (-rng.random(n), np.arange(0, 2 * n + 1, 2), np.column_stack([kk, n_k + rr]).ravel(), np.ones(2 * n),
-            np.concatenate([rng.uniform(0, 5, n_k), rng.uniform(0, 15, n_req)]), rng.uniform(0, 5, n))
+    allowed = rng.random((n_req, n_k)) > 0.3
+    value = np.where(allowed, rng.random((n_req, n_k)), 0.0)
+    return value, allowed, rng.uniform(0, 15, n_req), rng.uniform(0, 5, n_k)
 
 
 @pytest.mark.parametrize("seed", range(8))
-def test_highs_called_directly_gives_what_linprog_gives(seed):
-    """The bound's LP through HiGHS's compiled module against scipy.optimize.linprog (the
-    public API, the same method and options): the same optimum, solution and duals."""
-    from planner.scheduling.highs import _compiled, solve_lp
+def test_the_network_simplex_solves_the_transportation_lp(seed):
+    """POT's network simplex (planner/scheduling/transport.py) against the same problem
+    written as a plain LP for scipy's linprog (HiGHS): the same optimum; its flow feasible
+    and worth that optimum; its duals feasible (p_k + λ_r ≥ value on every allowed pair,
+    both ≥ 0) and their dual objective equal to the optimum (LP duality)."""
+    from scipy.optimize import linprog
 
-    if _compiled("_highspy._core") is None:
-        pytest.skip("this scipy's HiGHS module cannot be loaded directly: linprog is used")
-    args = _random_transport(np.random.default_rng(seed))
-    direct, public = solve_lp(*args), solve_lp(*args, direct=False)
-    assert direct[0] == pytest.approx(public[0], rel=1e-12, abs=1e-12)
-    np.testing.assert_allclose(direct[1], public[1], atol=1e-12)
-    np.testing.assert_allclose(direct[2], public[2], atol=1e-12)
+    from planner.scheduling.transport import max_transport
+
+    value, allowed, demand, supply = _random_transport(np.random.default_rng(seed))
+    n_r, n_k = value.shape
+    got, y, lam, price = max_transport(value, allowed, demand, supply)
+    a = np.zeros((n_k + n_r, n_r * n_k))
+    for r in range(n_r):
+        for k in range(n_k):
+            a[k, r * n_k + k] = a[n_k + r, r * n_k + k] = 1.0
+    res = linprog(-value.ravel(), A_ub=a, b_ub=np.concatenate([supply, demand]),
+                  bounds=list(zip(np.zeros(value.size), np.where(allowed.ravel(), None, 0.0))), method="highs")
+    assert res.status == 0
+    assert got == pytest.approx(-res.fun, rel=1e-9, abs=1e-9)
+    assert np.all(y >= -1e-12) and np.all(y[~allowed] == 0)
+    assert np.all(y.sum(axis=1) <= demand + 1e-9) and np.all(y.sum(axis=0) <= supply + 1e-9)
+    assert np.sum(value * y) == pytest.approx(got, rel=1e-12)
+    assert np.all(lam >= 0) and np.all(price >= 0)
+    assert np.all((price[None, :] + lam[:, None] - value)[allowed] >= -1e-9)
+    assert price @ supply + lam @ demand == pytest.approx(got, rel=1e-9, abs=1e-9)
+
+
+def test_the_network_simplex_loads_without_pot_toolbox_and_pot_still_imports_after():
+    """The solver module is loaded alone (POT's ``ot/__init__`` pulls in scipy.stats and
+    more, 0.6 s); a later ``import ot`` still works and its own solver agrees."""
+    import subprocess
+    import sys
+    import textwrap
+
+    script = textwrap.dedent("""
+        import sys
+        import numpy as np
+        from planner.scheduling.transport import max_transport
+        v = np.array([[3.0, 1.0, 0.0], [2.0, 2.0, 1.0]]); ok = v > 0
+        got = max_transport(v, ok, np.array([1.0, 2.0]), np.array([1.0, 1.0, 1.0]))[0]
+        print(sorted(k for k in sys.modules if k == "ot" or k.startswith("ot.")), got)
+        import ot
+        a = np.array([1.0, 2.0, 3.0]); b = np.array([1.0, 1.0, 1.0, 3.0])
+        m = np.zeros((3, 4)); m[:2, :3] = np.where(ok, -v, 4.0)
+        print(round(-float(ot.emd2(a, b, m)), 9))
+    """)
+    done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    lines = done.stdout.split("\n")
+    assert lines[0] == "['ot.lp.emd_wrap'] 6.0"  # 3 + 2 + 1: each request its best slots
+    assert lines[1] == "6.0"
 
 
 def test_the_linear_assignment_is_scipys():
     from scipy.optimize import linear_sum_assignment as public
 
-    from planner.scheduling.highs import linear_sum_assignment
+    from planner.scheduling.assignment import linear_sum_assignment
 
     cost = np.random.default_rng(3).random((7, 9))
     got, expect = linear_sum_assignment(cost), public(cost)
@@ -308,7 +347,7 @@ def test_a_schedule_loads_no_scipy_optimize_and_scipy_optimize_still_imports_aft
         import sys
         import numpy as np
         from planner.scheduling.bound import night_bound
-        from planner.scheduling.highs import linear_sum_assignment
+        from planner.scheduling.assignment import linear_sum_assignment
         rng = np.random.default_rng(0)
         v = rng.random((4, 60)); ok = v > 0.2
         b = night_bound(v, ok, np.ones(59), np.ones(4), np.full(4, 10.0), np.full(4, 5.0))

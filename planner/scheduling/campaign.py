@@ -52,6 +52,7 @@ from planner.scheduling.campaign_nights import (
     gaps_with_reasons,
     goal_runs,
     longest_run,
+    earliest_starts,
     reconcile,
     targets_tonight,
     visit_minutes,
@@ -60,6 +61,7 @@ from planner.scheduling.night import plan_night
 from planner.scheduling.night_plan import FILL_SUFFIX, NightPlan
 from planner.scheduling.night_sky import night_sky
 from planner.scheduling.visits import Exposure, VisitRequest, body_s, setup_s, shutter_s
+from planner.sky.ephemeris import moon_phase
 from planner.sky.visibility import angular_separation_deg
 
 #: Airmass at which goal exposures are computed: the middle of a typical visit (from memory).
@@ -475,7 +477,8 @@ def _plan_one_night(campaign, k, frame, tonight, exposures, depth, goal_nights, 
     visits, spare_value = list(plan.visits), 0.0
     extra = fill_requests(campaign, exposures, k, goal_nights, tonight) if campaign.fill != "none" else []
     if extra and tonight is not None:
-        visits, spare_value = add_spare_work(campaign, night, w0, w1, eph, plan.visits, extra, covered, seeing)
+        visits, spare_value = add_spare_work(campaign, night, w0, w1, eph, plan.visits, extra, covered, seeing,
+                                             goal_requests=requests)
         _update_coverage(covered, requests, [v for v in visits if is_fill(v)])
     plan = _prefix_ids(replace(plan, visits=tuple(sorted(visits, key=lambda v: v.start_jd))), night)
     visits = list(plan.visits)
@@ -486,11 +489,13 @@ def _plan_one_night(campaign, k, frame, tonight, exposures, depth, goal_nights, 
 
 
 def add_spare_work(campaign, night, w0, w1, eph, goal_visits, extra, covered, seeing, *, closed=(),
-                   not_before_jd=None) -> tuple[list, float]:
+                   not_before_jd=None, goal_requests=()) -> tuple[list, float]:
     """The night's visits with spare-time work (``extra`` requests) placed around the goals'
     visits, which stay where they are; and the value the spare work adds.
 
     Shared by the campaign's nights and by a re-plan, so both put the goals first.
+    ``goal_requests``: the goals' requests, whose limits a goal visit's slew keeps to when a
+    spare-time visit before it makes that slew longer.
     """
     site, constraints = campaign.site, campaign.constraints
     bins = {q.key: covered[q.key[:-len(FILL_SUFFIX)]].copy() for q in extra
@@ -503,7 +508,9 @@ def add_spare_work(campaign, night, w0, w1, eph, goal_visits, extra, covered, se
     # counts it among that key's epochs: an extra epoch keeps the campaign's minimum
     # spacing from the goal's epochs too (two epochs minutes apart add no phase).
     fill_keys = {q.key for q in extra}
-    held = tuple(replace(v, start_jd=min(v.start_jd, v.science_start_jd - pad),
+    earliest = earliest_starts(site, constraints, eph, goal_visits, {q.key: q for q in goal_requests}, pad,
+                               float(moon_phase(eph, 0.5 * (w0 + w1))[0]))
+    held = tuple(replace(v, start_jd=min(v.start_jd, max(v.science_start_jd - pad, earliest.get(v.id, -np.inf))),
                          request_key=(v.request_key + FILL_SUFFIX
                                       if v.request_key + FILL_SUFFIX in fill_keys and v.purpose == "variables"
                                       else v.request_key))
@@ -511,7 +518,8 @@ def add_spare_work(campaign, night, w0, w1, eph, goal_visits, extra, covered, se
     more = plan_night(site, constraints, extra, night, w0, w1, eph, seeing_arcsec=seeing, fixed=held,
                       covered_bins=bins, id_offset=len(goal_visits), closed=closed, not_before_jd=not_before_jd)
     own = {v.id: v for v in goal_visits}
-    placed = merge_spare_runs(site, reconcile(site, [own.get(v.id, v) for v in more.visits], is_fill), is_fill)
+    placed = merge_spare_runs(site, reconcile(site, [own.get(v.id, v) for v in more.visits], is_fill, earliest),
+                              is_fill)
     return stretch_spare_frames(site, constraints, eph, placed, {q.key: q for q in extra}, w1, closed), more.value
 
 

@@ -15,7 +15,8 @@ The campaign planner (:mod:`planner.scheduling.campaign`) uses these pieces:
 * :func:`cadence_spacing` — the spacing that spreads a night's cadence visits
   over the cluster's usable hours instead of packing them at the minimum;
 * :func:`reconcile` — after spare-time work is put between the goals' visits,
-  each visit's slew is recomputed from the visit now before it;
+  each visit's slew is recomputed from the visit now before it, never from
+  earlier than :func:`earliest_starts` allows;
 * :func:`gaps_with_reasons` — the idle time of a night, each stretch with its
   reason: ``nothing observable`` (no campaign target within the constraints),
   ``goals met`` (targets are up, nothing more is wanted) or ``closed``.
@@ -196,13 +197,48 @@ def cadence_spacing(tonight: Tonight | None, row: int, visits: int, visit_min: f
     return max(min_spacing, CADENCE_SPREAD * usable / (visits - 1))
 
 
-def reconcile(site, visits, is_fill) -> list:
+#: Step of the check that a goal's target is within its limits during a longer slew, s.
+SLEW_CHECK_S = 10.0
+
+
+def earliest_starts(site, constraints, eph, visits, requests: dict, pad_d: float, moon_illum: float) -> dict:
+    """For each visit of a known request (by id): the earliest moment its slew may start —
+    from ``pad_d`` before its science start on — with its target inside the campaign's
+    constraints and its request's own limits (airmass, dark time) all the way to the
+    science start.  Never later than the visit's own start, which its plan checked.
+
+    The goals' visits reserve room for the widest slew before them (spare-time work then
+    ends before it); a spare-time visit that comes to precede one may need a longer slew
+    than the visit's planned one, starting where, say, the Moon is still up."""
+    chosen = [v for v in visits if v.request_key in requests]
+    if not chosen:
+        return {}
+    step = SLEW_CHECK_S / 86400.0
+    n = int(np.ceil(pad_d / step)) + 1
+    jd = np.concatenate([v.science_start_jd - step * np.arange(n)[::-1] for v in chosen])
+    coords = sorted({(v.ra_deg, v.dec_deg) for v in chosen})
+    ok, airmass, moon_down = observable(site, constraints, [c[0] for c in coords], [c[1] for c in coords], eph, jd)
+    out = {}
+    for k, v in enumerate(chosen):
+        q, row, part = requests[v.request_key], coords.index((v.ra_deg, v.dec_deg)), slice(k * n, (k + 1) * n)
+        good = ok[row, part] & (airmass[row, part] <= (q.max_airmass or np.inf))
+        if q.dark and moon_illum > q.max_moon_illumination:
+            good &= moon_down[part]
+        bad = np.flatnonzero(~good)
+        first = jd[part][0] if bad.size == 0 else jd[part][min(bad[-1] + 2, n - 1)]  # a sample's margin
+        out[v.id] = min(v.start_jd, float(first))
+    return out
+
+
+def reconcile(site, visits, is_fill, earliest: dict | None = None) -> list:
     """Visits in time order with each slew from the visit now before it.
 
     Spare-time work is placed between the goals' visits, which were planned with
     slews from other neighbours; the science start of each visit stays and its slew
-    starts earlier or later.  Where a longer slew would overlap the visit before,
-    the spare-time visit of the two is dropped (the goals' visits never are)."""
+    starts earlier or later.  Where a longer slew would overlap the visit before, or
+    start before the visit's ``earliest`` moment (:func:`earliest_starts`), the
+    spare-time visit of the two is dropped (the goals' visits never are)."""
+    earliest = earliest or {}
     out = []
     for v in sorted(visits, key=lambda v: v.start_jd):
         while out:
@@ -210,7 +246,7 @@ def reconcile(site, visits, is_fill) -> list:
             slew = float(angular_separation_deg(prev.ra_deg, prev.dec_deg, v.ra_deg, v.dec_deg))
             change = prev.exposures[-1].filter != v.exposures[0].filter
             start = v.science_start_jd - float(setup_s(site, slew, change)) / 86400.0
-            if start >= prev.end_jd - 1e-9:
+            if start >= prev.end_jd - 1e-9 and start >= earliest.get(v.id, -np.inf) - 1e-9:
                 v = replace(v, start_jd=start, slew_deg=slew if slew > 1e-3 else 0.0)
                 break
             if is_fill(prev):

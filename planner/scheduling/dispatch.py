@@ -63,6 +63,7 @@ class DispatchState:
         self.first_filter = np.array([q.exposures[0].filter for q in requests], dtype=object)
         self.last_filter = np.array([q.exposures[-1].filter for q in requests], dtype=object)
         self.has_phase = np.array([bool(q.phase_periods_d) for q in requests])
+        self.any_phase = bool(self.has_phase.any())
         self.patient = np.array([q.patient for q in requests])
         self.remaining = np.array([q.count for q in requests], dtype=int)
         self.count = self.remaining.copy()  # visits wanted at the start
@@ -134,8 +135,11 @@ class DispatchState:
 
     def value(self, r, mid, phase=True):
         i = _clip(self.slot(mid), 0, len(self.tab.jd) - 1)
+        out = self.prio[r] * self.shutter_h[r] * self.tab.eff[r, i]
+        if not (phase and self.any_phase):
+            return out
         gain = np.ones(np.shape(r))
-        for n in np.flatnonzero(np.ravel(self.has_phase[r])) if phase else ():
+        for n in np.flatnonzero(np.ravel(self.has_phase[r])):
             k = np.ravel(r)[n]
             ph = self.phase[k]
             if ph is not None:
@@ -143,7 +147,27 @@ class DispatchState:
                 b = np.floor(np.mod((mid.flat[n] - e) / p, 1.0) * cov.shape[1]).astype(int) % cov.shape[1]
                 new = ~cov[np.arange(len(p)), b]
                 gain.flat[n] = REPEAT_PHASE_VALUE + (1 - REPEAT_PHASE_VALUE) * float(np.mean(new))
-        return self.prio[r] * self.shutter_h[r] * self.tab.eff[r, i] * gain
+        return out * gain
+
+    def value_one(self, r: int, mid: float) -> float:
+        """:meth:`value` of one request at one moment (the same arithmetic, without arrays)."""
+        return float(self.value(np.array([r]), np.array([mid]))[0]) if self.has_phase[r] else float(
+            self.prio[r] * self.shutter_h[r] * self.tab.eff[r, min(max(self.slot(mid), 0), len(self.tab.jd) - 1)])
+
+    def setup_one(self, r: int, ra, dec, filt) -> tuple[float, float]:
+        """:meth:`setup` of one request (set-up seconds, slew degrees), without arrays."""
+        slew = 0.0 if ra is None else float(self.slews_from(ra, dec)[r])
+        tel = self.site.telescope
+        return ((slew / tel.slew_rate_deg_s + tel.settle_s if slew > 1e-3 else 0.0)
+                + (tel.filter_change_s if self.first_filter[r] != filt else 0.0)), slew
+
+    def body_one(self, r: int, sci: float) -> tuple[float, int]:
+        """:meth:`body_at` of one request at one moment, without arrays."""
+        n = len(self.tab.jd) - 1
+        b0 = float(self.tab.body_s[r, min(max(self.slot(sci), 0), n)])
+        i = min(max(self.slot(sci + 0.5 * (b0 if math.isfinite(b0) else 0.0) / _DAY_S), 0), n)
+        b = float(self.tab.body_s[r, i]) if math.isfinite(b0) else math.inf
+        return (b if math.isfinite(b) else 1e7), i
 
     def price(self, a, b):
         """The bound's price of the time [a, b] (value per minute of each slot, summed)."""
@@ -195,25 +219,26 @@ class DispatchState:
         self.next_startable = next_bad_slot(~startable)
 
     def place(self, r, start, ra, dec, filt) -> Visit:
-        su, slew = self.setup(np.array([r]), ra, dec, filt)
-        sci = start + su[0] / _DAY_S
-        body, i = self.body_at(np.array([r]), np.array([sci]))
-        end = sci + body[0] / _DAY_S
+        r = int(r)
+        su, slew = self.setup_one(r, ra, dec, filt)
+        sci = start + su / _DAY_S
+        body, i = self.body_one(r, sci)
+        end = sci + body / _DAY_S
         mid = 0.5 * (sci + end)
         q = self.requests[r]
         exposures = q.exposures
         if q.sized:  # the frames that meet the goal at the visit's middle
             e = q.exposures[0]
-            exposures = (Exposure(e.filter, int(self.tab.frames[r, i[0]]), float(self.tab.frame_s[r, i[0]])),)
+            exposures = (Exposure(e.filter, int(self.tab.frames[r, i]), float(self.tab.frame_s[r, i])),)
         x = np.interp([sci, end, mid], self.tab.jd, np.where(np.isfinite(self.tab.airmass[r]),
                                                               self.tab.airmass[r], np.nan))
         moon_sep = float(np.interp(mid, self.tab.jd, self.tab.moon_sep[r]))
         snr = snr_planned(self.site, q, exposures, x[2], moon_sep, float(np.interp(mid, self.tab.jd,
                           self.tab.moon_alt)), self.moon_illum, self.seeing)
         v = Visit("", q.key, q.target, q.ra_deg, q.dec_deg, q.purpose, exposures, float(start), float(sci),
-                  float(end), q.priority, float(slew[0]), float(x[0]), float(x[1]), float(x[2]),
+                  float(end), q.priority, float(slew), float(x[0]), float(x[1]), float(x[2]),
                   moon_sep, q.notes, best_airmass=float(self.tab.best_airmass[r]), snr_planned=snr)
-        self.value_of[id(v)] = float(self.value(np.array([r]), np.array([mid]))[0])
+        self.value_of[id(v)] = self.value_one(r, mid)
         self.occupy(v, r)
         return v
 

@@ -27,7 +27,7 @@ or after ``i`` — makes "does visit r hold over [t, t + d]?" one array lookup.
 Frames of requests with an S/N goal are sized at every slot at once.
 
 1. **The relaxation.**  The bound's LP (requests share each 5-minute slot's
-   minutes; HiGHS, milliseconds) is solved first.  Its optimum says which
+   minutes; a network simplex, about a millisecond) is solved first.  Its optimum says which
    request should use which part of the night, its duals what each minute is
    worth to the others.
 2. **Dispatch.**  Time moves forward.  At each free moment the request the

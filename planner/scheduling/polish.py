@@ -52,7 +52,7 @@ _DAY_S = 86400.0
 
 def reassign(state: DispatchState, t_min: float) -> bool:
     """Give the movable visits' places out again (see the module docstring); True if kept."""
-    from planner.scheduling.highs import linear_sum_assignment
+    from planner.scheduling.assignment import linear_sum_assignment
 
     key_index = {q.key: k for k, q in enumerate(state.requests)}
     visits = sorted(state.visits, key=lambda v: v.start_jd)

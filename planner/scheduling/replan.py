@@ -155,7 +155,7 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
                       id_offset=len(past))
     if spare:
         visits, value = add_spare_work(campaign, night, w0, w1, eph, plan.visits, spare, covered, seeing,
-                                       closed=closed, not_before_jd=start)
+                                       closed=closed, not_before_jd=start, goal_requests=goals)
         plan = replace(plan, visits=tuple(sorted(visits, key=lambda v: v.start_jd)), spare_value=value)
     used = set(used_ids) | {v.id for v in original.visits}
     kept = {v.id for v in fixed}
