@@ -360,3 +360,53 @@ def test_a_schedule_loads_no_scipy_optimize_and_scipy_optimize_still_imports_aft
     done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, timeout=120)
     assert done.returncode == 0, done.stderr
     assert done.stdout.split() == ["False", "True", "True", "[1,", "0]"]  # the least-cost pairing of eye(2)
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_gaps_searched_at_once_find_what_each_gap_searched_alone_finds(seed, monkeypatch):
+    """The local search asks every gap at once (_best_in_gaps): gaps × requests × starts in
+    one set of arrays, a visit taken out of the plan only in the arithmetic.  Each answer
+    must be the one the gap gives when searched by itself, with that visit really taken out
+    of the plan (as the search did one visit at a time)."""
+    rng = np.random.default_rng(2000 + seed)
+    night = dt.date(2027, 1, 1) + dt.timedelta(days=int(rng.integers(0, 365)))
+    n = int(rng.integers(8, 30))
+    ra = rng.uniform(0, 360, n)
+    dec = np.degrees(np.arcsin(rng.uniform(-1, np.sin(np.radians(30)), n)))
+    requests = [VisitRequest(f"T{i}", f"T{i}", float(ra[i]), float(dec[i]), "visit",
+                             (Exposure("V", int(rng.integers(1, 4)), float(rng.choice([60.0, 300.0, 900.0]))),),
+                             float(rng.integers(1, 4)), count=2 if i % 5 == 0 else 1,
+                             min_spacing_min=45.0 if i % 5 == 0 or i % 3 == 0 else 0.0) for i in range(n)]
+    batched = dispatch_module._best_in_gaps
+    checked = []
+
+    def alone(state, gap):
+        g0, g1, prev, nxt, out = gap
+        if out is None:
+            return batched(state, [gap])[0]
+        old = next(v for v in state.visits if v.request_key == state.requests[out].key
+                   and v.start_jd >= g0 - 1e-9 and v.end_jd <= g1 + 1e-9)
+        saved_visits, saved_times = list(state.visits), state.times[out]
+        state.visits.remove(old)
+        state.remaining[out] += 1
+        state.times[out] = []
+        try:
+            return batched(state, [(g0, g1, prev, nxt, None)])[0]
+        finally:
+            state.visits[:], state.times[out] = saved_visits, saved_times
+            state.remaining[out] -= 1
+
+    def compare(state, gaps):
+        got = batched(state, gaps)
+        for gap, answer in zip(gaps, got):
+            expect = alone(state, gap)
+            assert (answer is None) == (expect is None)
+            if answer is not None:
+                assert answer[:3] == expect[:3] and answer[3] is expect[3] and answer[4] is expect[4]
+        checked.append(len(gaps))
+        return got
+
+    monkeypatch.setattr(dispatch_module, "_best_in_gaps", compare)
+    plan = _plan_requests(requests, night=night)
+    assert validate_plan(SITE, plan, requests) == []
+    assert sum(checked) > 0

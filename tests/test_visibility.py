@@ -25,7 +25,10 @@ from planner.sky.visibility import (
     apparent_places,
     constraint_margin_deg,
     horizon_altitude_deg,
+    sky_at,
     sky_grid,
+    sun_cannot_bind,
+    time_track,
 )
 
 YEAR_START_JD = 2461314.5  # 2026-10-01: a year inside the bundled IERS table
@@ -235,3 +238,31 @@ def test_margin_signs_follow_each_constraint(year_ephemeris):
     disagree = (margin >= 0.0) != (ref_margin >= 0.0)
     assert np.all(np.abs(ref_margin[disagree]) < 0.02)
     assert np.max(np.abs(margin - ref_margin)) < 0.02
+
+
+@pytest.mark.parametrize("twilight, max_airmass, avoid", [("astronomical", 2.0, 45.0), ("nautical", 1.5, 45.0),
+                                                          ("nautical", 2.0, 45.0), ("civil", 3.0, 20.0)])
+def test_the_sun_left_out_only_where_it_cannot_bind(year_ephemeris, twilight, max_airmass, avoid):
+    """The night planner leaves the Sun's separation out when the altitude limit already keeps
+    every target at least the avoidance angle from the Sun (an arc is never shorter than the
+    difference of its ends' altitudes).  Where the rule says so, the margins with and without
+    the Sun are the same; where it does not, a random sky has targets the Sun would bind."""
+    from planner.sky.almanac import TWILIGHT_ALTITUDE_DEG
+
+    rng = np.random.default_rng(7)
+    geo = site_geometry(-30.95, -70.45, 2310.0)
+    jd = YEAR_START_JD + 100.0 + np.linspace(0.0, 60.0, 4000)
+    track = time_track(year_ephemeris, geo, jd)
+    night = track.sun_altitude_deg <= TWILIGHT_ALTITUDE_DEG[twilight]
+    jd, track = jd[night], time_track(year_ephemeris, geo, jd[night])
+    ra, dec = rng.uniform(0, 360, (400, 1)), np.degrees(np.arcsin(rng.uniform(-1, 1, (400, 1))))
+    c = Constraints(10.0, max_airmass, twilight, 0.0, sun_avoidance_deg=avoid)
+    full = sky_at(track, geo.latitude_deg, ra, dec)
+    up = full.altitude_deg >= c.altitude_limit_deg
+    # the closed form behind the rule: separation ≥ altitude difference, everywhere
+    assert np.all(full.sun_separation_deg >= full.altitude_deg - track.sun_altitude_deg - 1e-9)
+    if sun_cannot_bind(c, track.sun_altitude_deg):
+        lean = sky_at(track, geo.latitude_deg, ra, dec, sun_separation=False)
+        assert np.array_equal(constraint_margin_deg(lean, c), constraint_margin_deg(full, c))
+    else:
+        assert np.any(up & (full.sun_separation_deg < avoid))

@@ -182,9 +182,7 @@ class DispatchState:
         to_slot = SLOT_MIN / 1440.0
         lo = _clip(np.floor((np.asarray(a) - self.tab.jd[0]) / to_slot), 0, n).astype(int)
         hi = _clip(np.ceil((np.asarray(b) - self.tab.jd[0]) / to_slot), 0, n).astype(int)
-        rows = np.arange(len(r))
-        c = self.cum_occ[r]
-        got = c[rows, np.broadcast_to(hi, r.shape)] - c[rows, np.broadcast_to(lo, r.shape)]
+        got = self.cum_occ[r, hi] - self.cum_occ[r, lo]
         return got / np.maximum(self.body_min[r], 1e-9)
 
     def set_prices(self, price_per_min, occupancy=None, body_min_min=None):
@@ -398,18 +396,19 @@ def fill_gaps(state: DispatchState, t_min: float) -> None:
     while state.remaining.any():
         best = None
         visits = sorted(state.visits, key=lambda v: v.start_jd)
-        live = {}
+        live, gaps = {}, []
         for g0 in [t_min] + [v.end_jd for v in visits if v.end_jd > t_min]:
             if _busy_until(state, g0) is not None:
                 continue
             prev = max((v for v in visits if v.end_jd <= g0 + 1e-9), key=lambda v: v.end_jd, default=None)
             nxt = next((v for v in visits if v.start_jd >= g0 - 1e-9), None)
             g1 = nxt.start_jd if nxt is not None else state.tab.jd[-1]
-            if g1 - g0 < 2 * SLOT_MIN / 1440.0:
-                continue
-            key = (g0, g1)
-            cand = cache[key] if key in cache else _best_in_gap(state, g0, g1, prev, nxt)
-            live[key] = cand
+            if g1 - g0 >= 2 * SLOT_MIN / 1440.0:
+                gaps.append((g0, g1, prev, nxt, None))
+        new = [gap for gap in gaps if (gap[0], gap[1]) not in cache]  # the gaps searched (again), at once
+        cache.update(zip([(gap[0], gap[1]) for gap in new], _best_in_gaps(state, new) if new else []))
+        for g0, g1, _, _, _ in gaps:
+            cand = live[(g0, g1)] = cache[(g0, g1)]
             if cand is not None and (best is None or cand[0] > best[0]):
                 best = cand
         if best is None:
@@ -423,50 +422,88 @@ def fill_gaps(state: DispatchState, t_min: float) -> None:
 
 
 def _best_in_gap(state: DispatchState, g0, g1, prev, nxt):
-    r = np.flatnonzero(state.remaining > 0)
-    ra, dec, filt = (None, None, None) if prev is None else (prev.ra_deg, prev.dec_deg, prev.exposures[-1].filter)
-    su, _ = state.setup(r, ra, dec, filt)
+    """The most valuable visit that fits the gap [g0, g1] between ``prev`` and ``nxt``:
+    (value, request, start, prev, nxt), or None."""
+    return _best_in_gaps(state, [(g0, g1, prev, nxt, None)])[0]
+
+
+def _best_in_gaps(state: DispatchState, gaps) -> list:
+    """:func:`_best_in_gap` of several gaps at once, ``gaps`` being (g0, g1, prev, nxt, out)
+    with ``out`` a request whose one visit is taken out for the search (the local search
+    asks this of every visit in turn; None: the plan as it is).  The requests still wanting
+    time are searched, with ``out`` among them, over every start slot of each gap: gaps ×
+    requests × starts in one set of array operations, each gap's own rows and starts
+    masked (the same arithmetic, element by element, as one gap at a time)."""
     step = SLOT_MIN / 1440.0
-    offsets = np.arange(0.0, g1 - g0, step)  # candidate starts in the gap, slot by slot
-    starts = g0 + offsets[None, :]
-    sci = starts + su[:, None] / _DAY_S
-    body, _ = state.body_at(r[:, None], sci)
+    base = np.flatnonzero(state.remaining > 0)
+    rows = [base if out is None else np.union1d(base, [out]) for _, _, _, _, out in gaps]
+    n_g, n_r = len(gaps), max(len(x) for x in rows)
+    if n_r == 0:
+        return [None] * n_g
+    r = np.zeros((n_g, n_r), dtype=int)
+    real = np.zeros((n_g, n_r), dtype=bool)
+    out_col = np.zeros((n_g, n_r), dtype=bool)  # the request taken out: its visit is not there
+    for g, (x, gap) in enumerate(zip(rows, gaps)):
+        r[g, :len(x)], real[g, :len(x)] = x, True
+        if gap[4] is not None:
+            out_col[g, :len(x)] = x == gap[4]
+    g0 = np.array([gap[0] for gap in gaps])
+    g1 = np.array([gap[1] for gap in gaps])
+    n_off = [len(np.arange(0.0, b - a, step)) for a, b in zip(g0, g1)]
+    offsets = np.arange(max(n_off)) * step  # candidate starts in the gap, slot by slot
+    in_gap = np.arange(len(offsets))[None, :] < np.array(n_off)[:, None]
+    su = np.empty((n_g, n_r))
+    for g, (_, _, prev, _, _) in enumerate(gaps):
+        ra, dec, filt = (None, None, None) if prev is None else (prev.ra_deg, prev.dec_deg, prev.exposures[-1].filter)
+        su[g] = state.setup(r[g], ra, dec, filt)[0]
+    r3 = r[:, :, None]
+    starts = g0[:, None, None] + offsets[None, None, :]
+    sci = starts + su[:, :, None] / _DAY_S
+    body, _ = state.body_at(r3, sci)
     ends = sci + body / _DAY_S
-    fits = state.holds(r[:, None], starts, ends) & (ends <= g1 + 1e-9)
-    if nxt is not None:  # the next visit keeps its science start; its slew now comes from the new visit
-        k = [n for n, q in enumerate(state.requests) if q.key == nxt.request_key]
-        if k and id(nxt) not in state.fixed_ids:
-            slew = state.slews_from(nxt.ra_deg, nxt.dec_deg)[r]
-            changes = state.last_filter[r] != nxt.exposures[0].filter
-            su_next = setup_s(state.site, slew, changes) / _DAY_S
-            new_start = nxt.science_start_jd - su_next
-            fits &= ends <= new_start[:, None] + 1e-9
-            fits &= state.holds(np.full(len(r), k[0])[:, None], new_start[:, None], nxt.end_jd)
+    fits = state.holds(r3, starts, ends) & (ends <= g1[:, None, None] + 1e-9)
+    fits &= in_gap[:, None, :] & real[:, :, None]
+    # the next visit keeps its science start; its slew now comes from the new visit
+    key_index = {}
+    for k, q in enumerate(state.requests):
+        key_index.setdefault(q.key, k)
+    for g, (_, _, _, nxt, _) in enumerate(gaps):
+        if nxt is None:
+            continue
+        k = key_index.get(nxt.request_key)
+        if k is not None and id(nxt) not in state.fixed_ids:
+            slew = state.slews_from(nxt.ra_deg, nxt.dec_deg)[r[g]]
+            changes = state.last_filter[r[g]] != nxt.exposures[0].filter
+            new_start = nxt.science_start_jd - setup_s(state.site, slew, changes) / _DAY_S
+            fits[g] &= ends[g] <= new_start[:, None] + 1e-9
+            fits[g] &= state.holds(np.full(n_r, k)[:, None], new_start[:, None], nxt.end_jd)
         else:
-            fits &= ends <= nxt.start_jd + 1e-9
+            fits[g] &= ends[g] <= nxt.start_jd + 1e-9
     mids = 0.5 * (sci + ends)
-    for j in np.flatnonzero((state.spacing_d[r] > 0) & fits.any(axis=1)):  # repeats keep their spacing
-        placed = np.array(state.times[r[j]])
+    for g, j in zip(*np.nonzero((state.spacing_d[r] > 0) & real & ~out_col & fits.any(axis=2))):
+        placed = np.array(state.times[r[g, j]])  # repeats keep their spacing
         if placed.size:
-            near = np.min(np.abs(mids[j][:, None] - placed[None, :]), axis=1)
-            fits[j] &= near >= state.spacing_d[r[j]] - 1e-9
-    if not fits.any():
-        return None
+            near = np.min(np.abs(mids[g, j][:, None] - placed[None, :]), axis=1)
+            fits[g, j] &= near >= state.spacing_d[r[g, j]] - 1e-9
     # each request at its most valuable start in the gap (the earliest of equals)
-    val = np.where(fits, state.value(np.broadcast_to(r[:, None], mids.shape), mids, phase=False), -np.inf)
-    first = np.argmax(val, axis=1)
+    val = np.where(fits, state.value(np.broadcast_to(r3, mids.shape), mids, phase=False), -np.inf)
+    first = np.argmax(val, axis=2)
     if state.patient[r].any():  # patient visits take their best airmass within the gap
         i = _clip(state.slot(mids), 0, state.tab.airmass.shape[1] - 1)
-        x = np.where(fits, state.tab.airmass[r[:, None], i], np.inf)
-        first = np.where(state.patient[r], np.argmin(x, axis=1), first)
-    any_fit = fits.any(axis=1)
-    t = g0 + offsets[first]
-    mid = mids[np.arange(len(r)), first]
-    val = np.where(any_fit & state.spaced(r, mid), state.value(r, mid), -np.inf)
-    j = int(np.argmax(val))
-    if not np.isfinite(val[j]):
-        return None
-    return float(val[j]), int(r[j]), float(t[j]), prev, nxt
+        x = np.where(fits, state.tab.airmass[r3, i], np.inf)
+        first = np.where(state.patient[r], np.argmin(x, axis=2), first)
+    any_fit = fits.any(axis=2)
+    t = g0[:, None] + offsets[first]
+    mid = np.take_along_axis(mids, first[:, :, None], axis=2)[:, :, 0]
+    spaced = state.spaced(r, mid) | out_col  # the request taken out has no visit to keep apart from
+    val = np.where(any_fit & spaced, state.value(r, mid), -np.inf)
+    j = np.argmax(val, axis=1)
+    found = []
+    for g, gap in enumerate(gaps):
+        v = val[g, j[g]]
+        found.append((float(v), int(r[g, j[g]]), float(t[g, j[g]]), gap[2], gap[3])
+                     if any_fit[g].any() and np.isfinite(v) else None)
+    return found
 
 
 def _reslew(state: DispatchState, nxt: Visit, new: Visit) -> None:
@@ -485,31 +522,37 @@ def improve(state: DispatchState, t_min: float) -> None:
     """Local search: take each new visit out, least valuable first, and put back the most
     valuable visit that fits its place (itself elsewhere in the span, or a request still
     waiting); keep the change only when the plan's value rises.  Visits of requests with
-    phase coverage or repeats stay (their value depends on the others' places)."""
+    phase coverage or repeats stay (their value depends on the others' places).
+
+    Until a change is kept, every visit's search sees the same plan (less that visit), so
+    those searches are made at once (:func:`_best_in_gaps`); after one, each is made in turn."""
     order = sorted((v for v in state.visits if id(v) not in state.fixed_ids and v.start_jd >= t_min - 1e-9),
                    key=lambda v: state.value_of.get(id(v), 0.0))
     key_index = {q.key: k for k, q in enumerate(state.requests)}
-    for old in order:
-        r = key_index.get(old.request_key)
-        if r is None or state.has_phase[r] or state.requests[r].count > 1 or not any(
-                v is old for v in state.visits):
+    items = [(old, key_index.get(old.request_key)) for old in order]
+    items = [(old, r) for old, r in items
+             if r is not None and not state.has_phase[r] and state.requests[r].count <= 1]
+    in_order = sorted(state.visits, key=lambda v: v.start_jd)
+    gaps = [_gap_without(state, old, t_min, in_order) for old, _ in items]
+    ahead = _best_in_gaps(state, [gap + (r,) for gap, (_, r) in zip(gaps, items)]) if items else []
+    changed = False
+    for (old, r), gap, cand in zip(items, gaps, ahead):
+        if not any(v is old for v in state.visits):
             continue
-        visits = sorted((v for v in state.visits if v is not old), key=lambda v: v.start_jd)
-        prev = max((v for v in visits if v.end_jd <= old.start_jd + 1e-9), key=lambda v: v.end_jd, default=None)
-        nxt = next((v for v in visits if v.start_jd >= old.end_jd - 1e-9), None)
-        g0 = max(t_min, prev.end_jd if prev is not None else t_min)
-        g1 = nxt.start_jd if nxt is not None else state.tab.jd[-1]
+        g0, g1, prev, nxt = _gap_without(state, old, t_min) if changed else gap
         before = state.value_of.get(id(old), 0.0)
-        state.visits.remove(old)
+        _take_out(state.visits, old)
         state.remaining[r] += 1
         saved = state.times[r]
         state.times[r] = []
-        cand = _best_in_gap(state, g0, g1, prev, nxt)
+        if changed:
+            cand = _best_in_gap(state, g0, g1, prev, nxt)
         if cand is None or cand[0] <= before * (1.0 + 1e-6):
             state.visits.append(old)
             state.remaining[r] -= 1
             state.times[r] = saved
             continue
+        changed = True
         state.value_of.pop(id(old), None)
         _, k, start, prev, nxt = cand
         ra, dec, filt = (None, None, None) if prev is None else (prev.ra_deg, prev.dec_deg,
@@ -517,3 +560,22 @@ def improve(state: DispatchState, t_min: float) -> None:
         v = state.place(k, start, ra, dec, filt)
         if nxt is not None and id(nxt) not in state.fixed_ids:
             _reslew(state, nxt, v)
+
+
+def _take_out(visits: list, v) -> None:
+    """Remove visit ``v`` itself from the list (``list.remove`` compares every field of every
+    visit before it)."""
+    del visits[next(n for n, w in enumerate(visits) if w is v)]
+
+
+def _gap_without(state: DispatchState, old, t_min: float, in_order=None):
+    """The gap (g0, g1, prev, nxt) that taking visit ``old`` out of the plan leaves
+    (``in_order``: the plan's visits already sorted by start)."""
+    if in_order is None:
+        in_order = sorted(state.visits, key=lambda v: v.start_jd)
+    visits = [v for v in in_order if v is not old]
+    prev = max((v for v in visits if v.end_jd <= old.start_jd + 1e-9), key=lambda v: v.end_jd, default=None)
+    nxt = next((v for v in visits if v.start_jd >= old.end_jd - 1e-9), None)
+    g0 = max(t_min, prev.end_jd if prev is not None else t_min)
+    g1 = nxt.start_jd if nxt is not None else state.tab.jd[-1]
+    return g0, g1, prev, nxt

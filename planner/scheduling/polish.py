@@ -36,7 +36,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from planner.scheduling.dispatch import DispatchState, _reslew
+from planner.scheduling.dispatch import DispatchState, _reslew, _take_out
 from planner.scheduling.visits import setup_s
 from planner.sky.visibility import angular_separation_deg
 
@@ -97,7 +97,7 @@ def _rebuild(state: DispatchState, visits, places, new_r, t_min: float) -> bool:
     saved = (list(state.visits), dict(state.value_of), state.remaining.copy(), [list(t) for t in state.times])
     before = float(sum(state.value_of.get(id(v), 0.0) for v in state.visits if id(v) not in state.fixed_ids))
     for n, v, r in places:  # take the movable visits out
-        state.visits.remove(v)
+        _take_out(state.visits, v)
         state.value_of.pop(id(v), None)
         state.remaining[r] += 1
         mid = 0.5 * (v.science_start_jd + v.end_jd)

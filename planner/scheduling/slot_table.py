@@ -19,7 +19,7 @@ from planner.scheduling.visits import body_s
 from planner.sky.airmass import altitude_for_airmass
 from planner.sky.almanac import MOONRISE_ALTITUDE_DEG, TWILIGHT_ALTITUDE_DEG
 from planner.sky.ephemeris import site_geometry
-from planner.sky.visibility import apparent_places, constraint_margin_deg, sky_at, time_track
+from planner.sky.visibility import apparent_places, constraint_margin_deg, sky_at, sun_cannot_bind, time_track
 
 #: Slot length, minutes (the planner's time resolution).
 SLOT_MIN = 1.0
@@ -64,7 +64,8 @@ def build_slot_table(site, constraints, requests, eph, jd, closed, moon_illum, s
     places = apparent_places([c[0] for c in coords], [c[1] for c in coords], float(jd[0]), float(jd[-1]))
     ra, dec = places.at([0.5 * (jd[0] + jd[-1])])  # (N, 1): fixed for the night
     track = time_track(eph, geo, jd)  # the Sun, the Moon and sidereal time, once for the night
-    grid = sky_at(track, geo.latitude_deg, ra, dec)  # all targets × slots in one call
+    grid = sky_at(track, geo.latitude_deg, ra, dec,  # all targets × slots in one call
+                  sun_separation=not sun_cannot_bind(constraints, track.sun_altitude_deg))
     margin = constraint_margin_deg(grid, constraints)[rows]
     alt, sep = grid.altitude_deg[rows], grid.moon_separation_deg[rows]
     airmass = np.nan_to_num(grid.airmass[rows], nan=np.inf)

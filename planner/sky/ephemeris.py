@@ -231,8 +231,14 @@ def iers_warning(eph: Ephemeris, jd_end: float) -> str | None:
 
 def _interpolate(eph: Ephemeris, samples: np.ndarray, jd) -> np.ndarray:
     """Four-point Lagrange interpolation on the uniform sample grid."""
+    return _interpolate_all(eph, (samples,), jd)[0]
+
+
+def _interpolate_all(eph: Ephemeris, series, jd) -> list[np.ndarray]:
+    """:func:`_interpolate` of several sample series at the same times, the weights computed
+    once (the scheduler's root finding calls this hundreds of times a night on a few times)."""
     x = (np.asarray(jd, dtype=float) - eph.jd0) / eph.step_d
-    n = len(samples)
+    n = len(series[0])
     if np.any((x < 1.0) | (x > n - 2.0)):
         raise ValueError("time outside the ephemeris span; build it over the whole range")
     i = np.clip(np.floor(x).astype(int), 1, n - 3)
@@ -242,20 +248,22 @@ def _interpolate(eph: Ephemeris, samples: np.ndarray, jd) -> np.ndarray:
     w1 = (p + 1.0) * (p - 1.0) * (p - 2.0) / 2.0
     w2 = -(p + 1.0) * p * (p - 2.0) / 2.0
     w3 = (p + 1.0) * p * (p - 1.0) / 6.0
-    return w0 * samples[i - 1] + w1 * samples[i] + w2 * samples[i + 1] + w3 * samples[i + 2]
+    return [w0 * samples[i - 1] + w1 * samples[i] + w2 * samples[i + 1] + w3 * samples[i + 2] for samples in series]
 
 
 def local_sidereal_deg(eph: Ephemeris, jd_utc, longitude_deg: float) -> np.ndarray:
     """Local apparent sidereal time, degrees [0, 360): Meeus 12.4 + equation of the equinoxes."""
     jd_utc = np.asarray(jd_utc, dtype=float)
-    jd_ut1 = jd_utc + _interpolate(eph, eph.dut1_s, jd_utc) / 86400.0
-    gast = gmst_deg(jd_ut1) + _interpolate(eph, eph.eqeq_deg, jd_utc)
+    dut1, eqeq = _interpolate_all(eph, (eph.dut1_s, eph.eqeq_deg), jd_utc)
+    jd_ut1 = jd_utc + dut1 / 86400.0
+    gast = gmst_deg(jd_ut1) + eqeq
     return np.mod(gast + longitude_deg, 360.0)
 
 
 def sun_radec_deg(eph: Ephemeris, jd_utc) -> tuple[np.ndarray, np.ndarray]:
     """The Sun's geocentric apparent RA and Dec of date (degrees; RA not wrapped)."""
-    return _interpolate(eph, eph.sun_ra_deg, jd_utc), _interpolate(eph, eph.sun_dec_deg, jd_utc)
+    ra, dec = _interpolate_all(eph, (eph.sun_ra_deg, eph.sun_dec_deg), jd_utc)
+    return ra, dec
 
 
 def moon_radec_deg(eph: Ephemeris, geo: SiteGeometry, jd_utc, lst_deg=None):
@@ -268,9 +276,8 @@ def moon_radec_deg(eph: Ephemeris, geo: SiteGeometry, jd_utc, lst_deg=None):
     jd_utc = np.asarray(jd_utc, dtype=float)
     if lst_deg is None:
         lst_deg = local_sidereal_deg(eph, jd_utc, geo.longitude_deg)
-    ra = np.radians(_interpolate(eph, eph.moon_ra_deg, jd_utc))
-    dec = np.radians(_interpolate(eph, eph.moon_dec_deg, jd_utc))
-    dist = _interpolate(eph, eph.moon_distance_km, jd_utc)
+    ra, dec, dist = _interpolate_all(eph, (eph.moon_ra_deg, eph.moon_dec_deg, eph.moon_distance_km), jd_utc)
+    ra, dec = np.radians(ra), np.radians(dec)
     lst = np.radians(lst_deg)
     x = dist * np.cos(dec) * np.cos(ra) - geo.rho_cos_phi_km * np.cos(lst)
     y = dist * np.cos(dec) * np.sin(ra) - geo.rho_cos_phi_km * np.sin(lst)
@@ -282,10 +289,9 @@ def moon_radec_deg(eph: Ephemeris, geo: SiteGeometry, jd_utc, lst_deg=None):
 def moon_phase(eph: Ephemeris, jd_utc) -> tuple[np.ndarray, np.ndarray]:
     """Illuminated fraction and phase angle (degrees) of the Moon, geocentric (Meeus 48.2–48.4)."""
     ra_s, dec_s = (np.radians(v) for v in sun_radec_deg(eph, jd_utc))
-    ra_m = np.radians(_interpolate(eph, eph.moon_ra_deg, jd_utc))
-    dec_m = np.radians(_interpolate(eph, eph.moon_dec_deg, jd_utc))
-    r_sun = _interpolate(eph, eph.sun_distance_km, jd_utc)
-    d_moon = _interpolate(eph, eph.moon_distance_km, jd_utc)
+    ra_m, dec_m, r_sun, d_moon = _interpolate_all(
+        eph, (eph.moon_ra_deg, eph.moon_dec_deg, eph.sun_distance_km, eph.moon_distance_km), jd_utc)
+    ra_m, dec_m = np.radians(ra_m), np.radians(dec_m)
     cos_psi = np.sin(dec_s) * np.sin(dec_m) + np.cos(dec_s) * np.cos(dec_m) * np.cos(ra_s - ra_m)
     psi = np.arccos(np.clip(cos_psi, -1.0, 1.0))  # geocentric elongation
     phase_angle = np.arctan2(r_sun * np.sin(psi), d_moon - r_sun * np.cos(psi))

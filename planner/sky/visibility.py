@@ -144,10 +144,12 @@ def sky_grid(eph: Ephemeris, geo: SiteGeometry, places: ApparentPlaces, jd_utc) 
     return sky_at(time_track(eph, geo, jd), geo.latitude_deg, ra, dec)
 
 
-def sky_at(track: TimeTrack, latitude_deg: float, ra_deg, dec_deg) -> SkyGrid:
+def sky_at(track: TimeTrack, latitude_deg: float, ra_deg, dec_deg, *, sun_separation: bool = True) -> SkyGrid:
     """Altitude, azimuth, hour angle, airmass and Moon separation where RA/Dec and the track broadcast.
 
-    ``ra_deg``/``dec_deg`` are apparent places of date.
+    ``ra_deg``/``dec_deg`` are apparent places of date.  ``sun_separation=False`` leaves the
+    Sun's separation out (+inf): for callers that know it cannot bind (see
+    :func:`sun_cannot_bind`).
     """
     ha = hour_angle_deg(track.lst_deg, ra_deg)
     alt, az = altaz_deg(latitude_deg, dec_deg, ha)
@@ -158,7 +160,8 @@ def sky_at(track: TimeTrack, latitude_deg: float, ra_deg, dec_deg) -> SkyGrid:
         hour_angle_deg=ha,
         airmass=airmass_kasten_young(alt),
         moon_separation_deg=angular_separation_deg(ra_deg, dec_deg, track.moon_ra_deg, track.moon_dec_deg),
-        sun_separation_deg=angular_separation_deg(ra_deg, dec_deg, track.sun_ra_deg, track.sun_dec_deg),
+        sun_separation_deg=(angular_separation_deg(ra_deg, dec_deg, track.sun_ra_deg, track.sun_dec_deg)
+                            if sun_separation else np.inf),
         sun_altitude_deg=track.sun_altitude_deg,
         moon_altitude_deg=track.moon_altitude_deg,
     )
@@ -173,6 +176,18 @@ def angular_separation_deg(ra1, dec1, ra2, dec2):
     num = np.hypot(c2 * np.sin(d_ra), c1 * s2 - s1 * c2 * cos_d_ra)
     den = s1 * s2 + c1 * c2 * cos_d_ra
     return np.degrees(np.arctan2(num, den))
+
+
+def sun_cannot_bind(constraints: Constraints, sun_altitude_deg) -> bool:
+    """True when the sun-avoidance limit cannot be the binding constraint at these Sun
+    altitudes: a target at or above the altitude limit is at least (its altitude − the Sun's)
+    from the Sun, as the arc between two points is never shorter than the difference of their
+    altitudes; so where the altitude limit stands the avoidance limit above the Sun's highest
+    altitude, the altitude margin is always the smaller."""
+    if constraints.sun_avoidance_deg <= 0:
+        return True
+    top = float(np.max(sun_altitude_deg)) if np.size(sun_altitude_deg) else np.inf
+    return constraints.altitude_limit_deg - top >= constraints.sun_avoidance_deg
 
 
 def horizon_altitude_deg(constraints: Constraints, azimuth_deg):
