@@ -64,10 +64,12 @@ class DispatchState:
         self.last_filter = np.array([q.exposures[-1].filter for q in requests], dtype=object)
         self.has_phase = np.array([bool(q.phase_periods_d) for q in requests])
         self.any_phase = bool(self.has_phase.any())
+        self.airmass_nan = np.where(np.isfinite(tab.airmass), tab.airmass, np.nan)  # for interpolation
         self.patient = np.array([q.patient for q in requests])
         self.remaining = np.array([q.count for q in requests], dtype=int)
         self.count = self.remaining.copy()  # visits wanted at the start
         self.spacing_d = np.array([q.min_spacing_min for q in requests]) / 1440.0
+        self.any_spacing = bool(np.any(self.spacing_d > 0))
         self.times: list[list[float]] = [[] for _ in requests]  # science mid-times placed, per request
         self.visits: list[Visit] = []
         self.value_of: dict[int, float] = {}
@@ -118,6 +120,8 @@ class DispatchState:
 
     def spaced(self, r, mid):
         ok = np.ones(np.shape(r), bool)
+        if not self.any_spacing:
+            return ok
         check = (self.spacing_d[r] > 0) & (self.remaining[r] < self.count[r])
         for n in np.flatnonzero(np.ravel(check)):
             k = np.ravel(r)[n]
@@ -228,11 +232,11 @@ class DispatchState:
         if q.sized:  # the frames that meet the goal at the visit's middle
             e = q.exposures[0]
             exposures = (Exposure(e.filter, int(self.tab.frames[r, i]), float(self.tab.frame_s[r, i])),)
-        x = np.interp([sci, end, mid], self.tab.jd, np.where(np.isfinite(self.tab.airmass[r]),
-                                                              self.tab.airmass[r], np.nan))
+        x = np.interp([sci, end, mid], self.tab.jd, self.airmass_nan[r])
         moon_sep = float(np.interp(mid, self.tab.jd, self.tab.moon_sep[r]))
-        snr = snr_planned(self.site, q, exposures, x[2], moon_sep, float(np.interp(mid, self.tab.jd,
-                          self.tab.moon_alt)), self.moon_illum, self.seeing)
+        snr = None if q.magnitude is None else snr_planned(
+            self.site, q, exposures, x[2], moon_sep, float(np.interp(mid, self.tab.jd, self.tab.moon_alt)),
+            self.moon_illum, self.seeing)
         v = Visit("", q.key, q.target, q.ra_deg, q.dec_deg, q.purpose, exposures, float(start), float(sci),
                   float(end), q.priority, float(slew), float(x[0]), float(x[1]), float(x[2]),
                   moon_sep, q.notes, best_airmass=float(self.tab.best_airmass[r]), snr_planned=snr)
