@@ -146,10 +146,12 @@ def read_logbook_night(campaign, night, path: str | None = None):
     with neither present, nothing is known from it."""
     from pathlib import Path
 
+    from planner.logbook import default_logbook_path
     from planner.logbook.night_record import read_night_record
-    from planner.logbook.store import LogbookError, default_logbook_path
 
     p = Path(path) if path else default_logbook_path(campaign.source)
     if path and not p.is_file():
+        from planner.logbook.store import LogbookError
+
         raise LogbookError(f"--logbook {path!r}: no such file")
     return read_night_record(p, night, campaign.site.location.timezone)
