@@ -58,7 +58,12 @@ def optimal_radius_fwhm(psf: Psf = GAUSSIAN) -> float:
     """
     if psf.kind != "moffat":
         return OPTIMAL_RADIUS_FWHM
-    b = psf.beta
+    if psf.beta == DEFAULT_MOFFAT_BETA:
+        return _DEFAULT_MOFFAT_OPTIMUM  # the same root, found once (every S/N asks for it)
+    return _moffat_optimum(psf.beta)
+
+
+def _moffat_optimum(b: float) -> float:
     u = _bisect_root(lambda u: 1.0 - (1.0 + u) ** (1.0 - b) - 2.0 * (b - 1.0) * u * (1.0 + u) ** (-b), 1e-9, 1e6)
     return float(math.sqrt(u) * moffat_alpha(1.0, b))
 
@@ -80,6 +85,9 @@ def _bisect_root(f, lo: float, hi: float) -> float:
         else:
             hi = mid
     return 0.5 * (lo + hi)
+
+
+_DEFAULT_MOFFAT_OPTIMUM = _moffat_optimum(DEFAULT_MOFFAT_BETA)
 
 
 # Gauss-Legendre nodes over one pixel: 40 per axis integrate the Moffat peak pixel to
