@@ -129,10 +129,10 @@ def check_magnitude(value, option: str) -> None:
                           f"fainter than any image has reached (about 32) (got {value:g})")
 
 
-def campaign_from_args(args):
+def campaign_from_args(args, catalog=None):
     from planner.inputs.campaign_file import read_campaign_file
 
-    return read_campaign_file(args.campaign)
+    return read_campaign_file(args.campaign, catalog)
 
 
 def check_campaign_night(campaign, night: dt.date, option: str = "--date") -> int:

@@ -45,20 +45,23 @@ def run(args) -> int:
     from planner.reports.schedule_report import night_sheet, schedule_json
     from planner.cache.plans import plan_cache_for
     from planner.cache.sun_moon import default_store
+    from planner.inputs.catalog import load_catalog
     from planner.scheduling.replan import replan_night
 
     night = common.parse_night_date(args.date)
     common.check_seeing(args.seeing)
-    campaign = common.campaign_from_args(args)
+    catalog = load_catalog()  # read once: the campaign's names and the logbook's
+    campaign = common.campaign_from_args(args, catalog)
     common.check_campaign_night(campaign, night)
     zone = campaign.site.location.timezone
     now = parse_now(args.now, night, zone)
     closed = tuple(parse_closed(text, night, zone) for text in args.closed)
     record = read_logbook_night(campaign, night, args.logbook)
     note = record.note()
-    # The observer's marks in the logbook (the app's done, partial and skip) count as --done does.
+    # The observer's marks in the logbook (the app's done, partial and skip) count as --done does;
+    # names are compared as the catalog's aliases make them one cluster ("M 3" = "NGC 5272").
     result = replan_night(campaign, night, now, closed=closed, done=tuple(args.done) + record.ids_marked("done"),
-                          logged=record.frames, seeing_arcsec=args.seeing, key=_catalog_key(),
+                          logged=record.frames, seeing_arcsec=args.seeing, key=catalog.key,
                           logged_closed=record.closed, assume_done=args.assume_done,
                           used_ids=record.recorded_ids, skipped=record.ids_marked("skipped"),
                           stopped=record.ids_marked("partial"), cache=plan_cache_for(campaign.source),
@@ -131,13 +134,6 @@ def parse_closed(text: str, night: dt.date, zone: str) -> tuple[float, float]:
     if b <= a:
         raise DateError(f"--closed {text!r}: the end ({iso_utc(b)}) is not after the start ({iso_utc(a)})")
     return a, b
-
-
-def _catalog_key():
-    """Names compared as the catalog's aliases make them one cluster ("M 3" = "NGC 5272")."""
-    from planner.inputs.catalog import load_catalog
-
-    return load_catalog().key
 
 
 def read_logbook_night(campaign, night, path: str | None = None):

@@ -58,7 +58,6 @@ from planner.scheduling.campaign_nights import (
 )
 from planner.scheduling.night import plan_night
 from planner.scheduling.night_plan import FILL_SUFFIX, NightPlan
-from planner.scheduling.night_sky import night_sky
 from planner.scheduling.visits import Exposure, VisitRequest, body_s, setup_s, shutter_s
 from planner.sky.visibility import angular_separation_deg
 
@@ -421,6 +420,7 @@ def plan_campaign(campaign: Campaign, *, seeing_arcsec: float | None = None, for
 def _campaign_nights(campaign: Campaign, seeing_arcsec, last: int, cache, *, every: bool, store=None) -> list:
     """Nights 0…``last`` as :class:`~planner.scheduling.plan_cache.NightEntry` (``every``: all
     of them; else only the last), planned from the latest night the cache keeps."""
+    from planner.scheduling.night_sky import night_sky
     from planner.scheduling.plan_cache import NightEntry, campaign_key, decode, encode
     from planner.sky.earth_rotation import load_ut1_table
 
