@@ -45,9 +45,11 @@ def run(args) -> int:
     from planner.reports.schedule_report import night_sheet, schedule_json
     from planner.cache.plans import plan_cache_for
     from planner.cache.sun_moon import default_store
+    from planner.config import skip_final_collection
     from planner.inputs.catalog import load_catalog
     from planner.scheduling.replan import replan_night
 
+    skip_final_collection()  # a re-plan at the telescope: every ms counts, the exit's too
     night = common.parse_night_date(args.date)
     common.check_seeing(args.seeing)
     catalog = load_catalog()  # read once: the campaign's names and the logbook's
