@@ -381,17 +381,6 @@ def covered_before(entry) -> dict:
     return {key + end: cov.copy() for key, cov in entry.covered_before.items() for end in ("", FILL_SUFFIX)}
 
 
-def night_ephemeris(campaign: Campaign, night: dt.date, store=None, ut1_table=None):
-    """The Sun, Moon and Earth rotation of one night, local noon to noon (what a re-plan of
-    the night plans with); ``store`` and ``ut1_table`` as for
-    :func:`~planner.sky.ephemeris.build_ephemeris` (the same values either way)."""
-    from planner.sky.ephemeris import build_ephemeris
-    from planner.sky.nights import night_spans_jd
-
-    s, e = night_spans_jd([night], campaign.site.location.timezone)
-    return build_ephemeris(float(s[0]), float(e[0]), ut1_table=ut1_table, store=store)
-
-
 def plan_campaign(campaign: Campaign, *, seeing_arcsec: float | None = None, forecast: bool = True,
                   cache=None, store=None) -> CampaignPlan:
     """Plan every night of the campaign, then forecast the coverage and period recovery
@@ -420,7 +409,7 @@ def plan_campaign(campaign: Campaign, *, seeing_arcsec: float | None = None, for
 def _campaign_nights(campaign: Campaign, seeing_arcsec, last: int, cache, *, every: bool, store=None) -> list:
     """Nights 0…``last`` as :class:`~planner.scheduling.plan_cache.NightEntry` (``every``: all
     of them; else only the last), planned from the latest night the cache keeps."""
-    from planner.scheduling.night_sky import night_sky
+    from planner.scheduling.night_sky import held_night_ephemeris, night_sky
     from planner.scheduling.plan_cache import NightEntry, campaign_key, decode, encode
     from planner.sky.earth_rotation import load_ut1_table
 
@@ -470,9 +459,9 @@ def _campaign_nights(campaign: Campaign, seeing_arcsec, last: int, cache, *, eve
             for i, g in enumerate(campaign.goals):
                 if v.request_key == f"{v.target}/{g.level}-{g.filter}":
                     done[(i, v.target)] = done.get((i, v.target), 0) + 1
-        # The night's own samples are kept for its re-plans when the Sun and Moon come from a
-        # store (cheap then; without one, a re-plan makes them as before).
-        eph = night_ephemeris(campaign, campaign.nights[k], store, ut1) if store is not None else None
+        # The night's own samples are kept for its re-plans when the Sun and Moon store holds
+        # them (read, not made; otherwise a re-plan makes them as before).
+        eph = held_night_ephemeris(site, campaign.nights[k], store, ut1) if store is not None else None
         entry = NightEntry(plan, tuple(requests), before, {key_: cov.copy() for key_, cov in covered.items()},
                            dict(done), eph)
         if cache is not None:

@@ -107,8 +107,8 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     (:mod:`planner.scheduling.plan_cache`); ``store``: the Sun and Moon samples kept between
     runs (the same values either way).
     """
-    from planner.scheduling.campaign import (add_spare_work, covered_before, goal_exposures, is_fill,
-                                             night_entry, night_ephemeris)
+    from planner.scheduling.campaign import add_spare_work, covered_before, goal_exposures, is_fill, night_entry
+    from planner.scheduling.night_sky import night_ephemeris
     from planner.scheduling.campaign_nights import gaps_with_reasons
 
     planned_seeing = campaign.seeing_arcsec or campaign.site.sky.typical_seeing_arcsec
@@ -152,7 +152,7 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     goals = [_respaced(q, fixed, start, original.window_end_jd, campaign) for q in requests if not is_fill(q)]
     spare = [q for q in requests if is_fill(q)]
     # The night's own Sun and Moon: kept with its entry, else made (the same values).
-    eph = entry.ephemeris if entry.ephemeris is not None else night_ephemeris(campaign, night, store)
+    eph = entry.ephemeris if entry.ephemeris is not None else night_ephemeris(campaign.site, night, store)
     w0, w1 = original.window_start_jd, original.window_end_jd
     plan = plan_night(campaign.site, campaign.constraints, goals, night, w0, w1, eph, closed=closed,
                       seeing_arcsec=seeing, fixed=fixed, not_before_jd=start, covered_bins=covered,
