@@ -108,8 +108,8 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     runs (the same values either way).
     """
     from planner.scheduling.campaign import add_spare_work, covered_before, goal_exposures, is_fill, night_entry
-    from planner.scheduling.night_sky import night_ephemeris
     from planner.scheduling.campaign_nights import gaps_with_reasons
+    from planner.scheduling.night_sky import night_ephemeris
 
     planned_seeing = campaign.seeing_arcsec or campaign.site.sky.typical_seeing_arcsec
     entry = night_entry(campaign, night, cache=cache, store=store)
