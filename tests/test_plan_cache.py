@@ -21,6 +21,7 @@ from planner.reports.schedule_report import schedule_json
 from planner.scheduling.campaign import plan_campaign, plan_through_night
 from planner.scheduling.plan_cache import MemoryCache, NightEntry, campaign_key, decode, encode
 from planner.scheduling.replan import replan_night
+from planner.sky import ephemeris
 
 DEMO = targets_dir() / "demo" / "campaign.toml"
 
@@ -143,6 +144,47 @@ def test_a_replan_with_a_logged_frame_and_a_closure_is_the_same_with_the_cache(c
         assert [(v.status, v.status_source) for v in got.plan.visits] == [
             (v.status, v.status_source) for v in want.plan.visits]
         assert got.plan.visits[0].status == "done"
+
+
+def test_a_replan_takes_the_nights_own_sun_and_moon_from_its_entry(campaign, uncached, tmp_path, monkeypatch):
+    """With a Sun and Moon store, each kept night holds its own samples (noon to noon): the
+    very values a re-plan would make again, with the store or without it; a re-plan from
+    them is the re-plan without any cache."""
+    from planner.cache.sun_moon import SunMoonStore
+    from planner.scheduling.campaign import night_entry
+    from planner.scheduling.night_sky import night_ephemeris
+
+    sky = SunMoonStore(tmp_path / "sun-moon")
+    folder = tmp_path / "plans"
+    night = campaign.nights[2]
+    made = night_entry(campaign, night, cache=FilePlanCache(folder), store=sky).ephemeris
+    read = decode(FilePlanCache(folder).get(campaign_key(campaign, None), 2)).ephemeris  # from the file
+    for fresh in (night_ephemeris(campaign.site, night, sky), night_ephemeris(campaign.site, night)):
+        for kept in (made, read):
+            for f in fresh.__dataclass_fields__:
+                x, y = getattr(kept, f), getattr(fresh, f)
+                assert np.array_equal(x, y) and np.asarray(x).dtype == np.asarray(y).dtype, f
+    assert decode(FilePlanCache(folder).get(campaign_key(campaign, None), 1)).ephemeris.jd0 < read.jd0
+    now = uncached[2][0].visits[6].end_jd + 1e-4
+    closed = ((now + 0.5 / 24, now + 1.5 / 24),)
+    got = replan_night(campaign, night, now, closed=closed, cache=FilePlanCache(folder), store=sky)
+    want = replan_night(campaign, night, now, closed=closed)
+    assert got.reasons == want.reasons and got.reasons
+    assert _times(got.plan) == _times(want.plan)
+    assert _text(campaign.site, got.plan) == _text(campaign.site, want.plan)
+    # A store that keeps nothing (its folder cannot be made): no year is made again for each
+    # night; the entry keeps no samples and a re-plan makes them, to the same plan.
+    blocker = tmp_path / "a file"
+    blocker.write_text("x")
+    calls = []
+    made = ephemeris.sun_moon_samples
+    monkeypatch.setattr(ephemeris, "sun_moon_samples", lambda jd: calls.append(len(jd)) or made(jd))
+    kept = night_entry(campaign, night, cache=MemoryCache(), store=SunMoonStore(blocker / "sun-moon"))
+    monkeypatch.undo()
+    assert kept.ephemeris is None and len(calls) == 1  # the campaign's span once, no night's own
+    again = replan_night(campaign, night, now, closed=closed, cache=MemoryCache(),
+                         store=SunMoonStore(blocker / "sun-moon"))
+    assert _times(again.plan) == _times(want.plan)
 
 
 def test_damaged_or_foreign_files_are_ignored_and_rebuilt(campaign, uncached, tmp_path):

@@ -73,3 +73,50 @@ def test_openblas_on_one_thread_unless_the_user_chose(given, expected):
                            "--snr", "50"], capture_output=True, text=True, timeout=120, env=env)
     assert done.returncode == 0, done.stderr
     assert done.stdout.strip().splitlines()[-1] == f"{expected} True"
+
+
+def test_a_warm_replan_without_a_logbook_reads_neither_sqlite_nor_the_iers_table(tmp_path, monkeypatch):
+    """With the night kept in the cache, a re-plan takes the night's Sun and Moon from it
+    (no IERS table, no year of samples) and, with no logbook file, opens no SQLite."""
+    import shutil
+
+    from planner.inputs.resources import targets_dir
+
+    shutil.copytree(targets_dir() / "demo", tmp_path / "demo")
+    monkeypatch.setenv("GCPLAN_CACHE_DIR", str(tmp_path / "cache"))
+    monkeypatch.delenv("GCPLAN_NO_CACHE", raising=False)
+    argv = ["replan", "--campaign", str(tmp_path / "demo" / "campaign.toml"), "--date", "2027-01-06",
+            "--now", "01:00", "--closed", "01:30-02:30", "--json"]
+    probe = _PROBE.replace('"matplotlib")', '"matplotlib", "sqlite3", "planner.logbook.store", "astropy_iers_data")')
+    done = []
+    for _ in range(2):  # cold (the nights planned and kept), then warm
+        run = subprocess.run([sys.executable, "-c", probe, *argv], capture_output=True, text=True, timeout=300)
+        assert run.returncode == 0, run.stderr
+        done.append(json.loads(run.stdout.strip().splitlines()[-1]))
+    assert done[0]["status"] == done[1]["status"] == 0
+    assert "astropy_iers_data" in done[0]["loaded"]  # cold: the IERS table was read
+    assert not set(done[1]["loaded"]) & {"sqlite3", "planner.logbook.store", "astropy_iers_data", "astropy.time",
+                                          "astropy.coordinates"}, done[1]["loaded"]
+
+
+def test_the_exit_leaves_out_the_last_collection_but_not_the_output():
+    """skip_final_collection: a cycle left at exit is not collected (its __del__ never runs),
+    while what was printed still reaches the pipe."""
+    code = """
+from planner.config import skip_final_collection
+class Loop:
+    def __del__(self):
+        print("collected", end="")
+def loop():
+    a = Loop()
+    a.me = a
+if __import__("sys").argv[1] == "skip":
+    skip_final_collection()
+    skip_final_collection()
+loop()
+print("written", end="")
+"""
+    runs = {how: subprocess.run([sys.executable, "-c", code, how], capture_output=True, text=True, timeout=60)
+            for how in ("skip", "keep")}
+    assert runs["keep"].stdout == "writtencollected"  # Python's own exit collects the cycle
+    assert runs["skip"].stdout == "written" and runs["skip"].returncode == 0, runs["skip"].stderr

@@ -42,18 +42,37 @@ def code_stamp() -> str:
 
         h = hashlib.sha256()
         package = Path(__file__).resolve().parent.parent
-        for p in sorted(package.rglob("*.py")):
-            st = p.stat()
-            h.update(f"{p.relative_to(package)} {st.st_size} {st.st_mtime_ns}\n".encode())
+        for name, st in sorted(_modules(str(package), ""), key=lambda m: m[0]):
+            h.update(f"{name} {st.st_size} {st.st_mtime_ns}\n".encode())
         # The libraries' installed versions, from their dist-info folders' names (without
-        # importing them, and faster than importlib.metadata).
+        # importing them, and faster than importlib.metadata); each folder listed once.
+        listed: dict[str, list[str]] = {}
         for module, dist in _LIBRARIES:
             spec = find_spec(module)
-            where = Path(spec.origin).parent.parent if spec is not None and spec.origin else None
-            names = sorted(d.name for d in where.glob(f"{dist}-*.dist-info")) if where is not None else []
+            where = os.path.dirname(os.path.dirname(spec.origin)) if spec is not None and spec.origin else None
+            if where is not None and where not in listed:
+                try:
+                    listed[where] = os.listdir(where)
+                except OSError:
+                    listed[where] = []
+            names = sorted(n for n in listed[where] if n.startswith(f"{dist}-") and n.endswith(".dist-info")
+                           ) if where is not None else []
             h.update(f"{module} {names}\n".encode())
         _stamp = h.hexdigest()
     return _stamp
+
+
+def _modules(folder: str, prefix: str) -> list:
+    """(path inside the package, stat) of every ``.py`` file under ``folder``, bytecode folders left out."""
+    out = []
+    with os.scandir(folder) as entries:
+        for e in entries:
+            if e.is_dir(follow_symlinks=False):
+                if e.name != "__pycache__":
+                    out += _modules(e.path, f"{prefix}{e.name}/")
+            elif e.name.endswith(".py"):
+                out.append((prefix + e.name, e.stat()))
+    return out
 
 
 class FilePlanCache:

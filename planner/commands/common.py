@@ -15,7 +15,6 @@ import json
 import math
 import os
 import re
-import secrets
 import sys
 from pathlib import Path
 from typing import Any
@@ -130,10 +129,10 @@ def check_magnitude(value, option: str) -> None:
                           f"fainter than any image has reached (about 32) (got {value:g})")
 
 
-def campaign_from_args(args):
+def campaign_from_args(args, catalog=None):
     from planner.inputs.campaign_file import read_campaign_file
 
-    return read_campaign_file(args.campaign)
+    return read_campaign_file(args.campaign, catalog)
 
 
 def check_campaign_night(campaign, night: dt.date, option: str = "--date") -> int:
@@ -346,6 +345,8 @@ def output_file(path, option: str):
             return
     except OSError as exc:
         raise OutputError(f"{option} {str(p)!r}: cannot write ({exc.strerror or exc})") from None
+    import secrets  # only where a file is written (with hmac and random, a few ms of every command)
+
     tmp = real.with_name(f".{real.stem}.{os.getpid()}-{secrets.token_hex(3)}.partial{real.suffix}")
     try:
         os.close(os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666))  # umask applies

@@ -45,20 +45,25 @@ def run(args) -> int:
     from planner.reports.schedule_report import night_sheet, schedule_json
     from planner.cache.plans import plan_cache_for
     from planner.cache.sun_moon import default_store
+    from planner.config import skip_final_collection
+    from planner.inputs.catalog import load_catalog
     from planner.scheduling.replan import replan_night
 
+    skip_final_collection()  # a re-plan at the telescope: every ms counts, the exit's too
     night = common.parse_night_date(args.date)
     common.check_seeing(args.seeing)
-    campaign = common.campaign_from_args(args)
+    catalog = load_catalog()  # read once: the campaign's names and the logbook's
+    campaign = common.campaign_from_args(args, catalog)
     common.check_campaign_night(campaign, night)
     zone = campaign.site.location.timezone
     now = parse_now(args.now, night, zone)
     closed = tuple(parse_closed(text, night, zone) for text in args.closed)
     record = read_logbook_night(campaign, night, args.logbook)
     note = record.note()
-    # The observer's marks in the logbook (the app's done, partial and skip) count as --done does.
+    # The observer's marks in the logbook (the app's done, partial and skip) count as --done does;
+    # names are compared as the catalog's aliases make them one cluster ("M 3" = "NGC 5272").
     result = replan_night(campaign, night, now, closed=closed, done=tuple(args.done) + record.ids_marked("done"),
-                          logged=record.frames, seeing_arcsec=args.seeing, key=_catalog_key(),
+                          logged=record.frames, seeing_arcsec=args.seeing, key=catalog.key,
                           logged_closed=record.closed, assume_done=args.assume_done,
                           used_ids=record.recorded_ids, skipped=record.ids_marked("skipped"),
                           stopped=record.ids_marked("partial"), cache=plan_cache_for(campaign.source),
@@ -133,23 +138,18 @@ def parse_closed(text: str, night: dt.date, zone: str) -> tuple[float, float]:
     return a, b
 
 
-def _catalog_key():
-    """Names compared as the catalog's aliases make them one cluster ("M 3" = "NGC 5272")."""
-    from planner.inputs.catalog import load_catalog
-
-    return load_catalog().key
-
-
 def read_logbook_night(campaign, night, path: str | None = None):
     """What the logbook says of a night (:func:`planner.logbook.night_record.read_night_record`,
     the app's reader too): the file is ``path``, else ``logbook.sqlite`` beside the campaign file;
     with neither present, nothing is known from it."""
     from pathlib import Path
 
+    from planner.logbook import default_logbook_path
     from planner.logbook.night_record import read_night_record
-    from planner.logbook.store import LogbookError, default_logbook_path
 
     p = Path(path) if path else default_logbook_path(campaign.source)
     if path and not p.is_file():
+        from planner.logbook.store import LogbookError
+
         raise LogbookError(f"--logbook {path!r}: no such file")
     return read_night_record(p, night, campaign.site.location.timezone)

@@ -58,7 +58,12 @@ def optimal_radius_fwhm(psf: Psf = GAUSSIAN) -> float:
     """
     if psf.kind != "moffat":
         return OPTIMAL_RADIUS_FWHM
-    b = psf.beta
+    if psf.beta == DEFAULT_MOFFAT_BETA:
+        return _DEFAULT_MOFFAT_OPTIMUM  # the same root, found once (every S/N asks for it)
+    return _moffat_optimum(psf.beta)
+
+
+def _moffat_optimum(b: float) -> float:
     u = _bisect_root(lambda u: 1.0 - (1.0 + u) ** (1.0 - b) - 2.0 * (b - 1.0) * u * (1.0 + u) ** (-b), 1e-9, 1e6)
     return float(math.sqrt(u) * moffat_alpha(1.0, b))
 
@@ -82,6 +87,9 @@ def _bisect_root(f, lo: float, hi: float) -> float:
     return 0.5 * (lo + hi)
 
 
+_DEFAULT_MOFFAT_OPTIMUM = _moffat_optimum(DEFAULT_MOFFAT_BETA)
+
+
 # Gauss-Legendre nodes over one pixel: 40 per axis integrate the Moffat peak pixel to
 # better than 1e-6 for FWHM ≥ 0.5 px (checked against scipy's dblquad in the tests).
 _NODES, _WEIGHTS = np.polynomial.legendre.leggauss(40)
@@ -101,9 +109,15 @@ def peak_pixel_fraction(fwhm_pixels, psf: Psf = GAUSSIAN):
     """
     fwhm = np.asarray(fwhm_pixels, dtype=float)
     if psf.kind == "moffat":
-        alpha = moffat_alpha(fwhm, psf.beta)[..., None]
-        profile = (psf.beta - 1.0) / (np.pi * alpha**2) * (1.0 + _R2 / alpha**2) ** (-psf.beta)
-        return np.sum(profile * _W, axis=-1)
+        alpha2 = moffat_alpha(fwhm, psf.beta)[..., None] ** 2
+        # (fwhm…, nodes) worked in place: the same operations on the same numbers, without the
+        # four temporaries of that size (a slot table asks for hundreds of FWHM at once)
+        profile = _R2 / alpha2
+        profile += 1.0
+        np.power(profile, -psf.beta, out=profile)
+        profile *= (psf.beta - 1.0) / (np.pi * alpha2)
+        profile *= _W
+        return np.sum(profile, axis=-1)
     from scipy.special import erf
 
     sigma = fwhm / FWHM_PER_SIGMA

@@ -149,7 +149,7 @@ def _rates(s: BandSetup, magnitude, airmass, seeing, illumination, separation, m
     seeing = s.typical_seeing_arcsec if seeing is None else seeing
     check_conditions(airmass, seeing, illumination, separation, moon_alt)
     m = np.asarray(magnitude, dtype=float)
-    if not np.all(np.isfinite(m)):
+    if not (math.isfinite(m) if m.ndim == 0 else np.all(np.isfinite(m))):
         raise LevelError("magnitudes must be finite numbers")
     sky_mag = sky_brightness_mag_arcsec2(s.dark_sky_mag_arcsec2, s.extinction_mag_per_airmass, airmass,
                                          illumination, separation, moon_alt, s.sun_minus_v_mag)
@@ -176,6 +176,10 @@ def _snr_frame(r: _Rates, t):
 
 
 def _check_positive(value, label):
+    if isinstance(value, (int, float)):  # a plain number: the same test without arrays
+        if not (math.isfinite(value) and value > 0):
+            raise SnrGoalError(f"{label} must be a positive number (got {float(value):g})")
+        return
     v = np.asarray(value, dtype=float)
     good = np.isfinite(v) & (v > 0)
     if not np.all(good):

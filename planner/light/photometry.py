@@ -162,6 +162,10 @@ def check_conditions(airmass=1.0, seeing_fwhm_arcsec=1.0, moon_illumination=0.0,
         ("moon altitude (deg)", moon_altitude_deg, lambda v: (v >= -90.0) & (v <= 90.0), "within -90..90"),
     )
     for label, value, ok, valid in checks:
+        if isinstance(value, (int, float)):  # a plain number (most calls): the same test without arrays
+            if not (ok(float(value)) and math.isfinite(value)):
+                raise ConditionsError(f"{label} must be {valid} (got {float(value):g})")
+            continue
         v = np.asarray(value, dtype=float)
         good = ok(v) & np.isfinite(v)
         if not np.all(good):

@@ -13,7 +13,6 @@ import datetime as dt
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from planner.logbook.store import Logbook, closed_periods
 from planner.sky.nights import local_noon_jd
 
 
@@ -54,6 +53,8 @@ def read_night_record(path: str | Path, night: dt.date, zone: str) -> NightRecor
     p = Path(path)
     if not p.is_file():
         return NightRecord(p, False)
+    from planner.logbook.store import Logbook, closed_periods  # SQLite only when there is a file
+
     a, b = night_span_jd(night, zone)
     with Logbook(p, readonly=True) as book:  # reading never creates, migrates or writes
         frames = tuple(book.entries(a, b))

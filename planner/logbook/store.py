@@ -55,11 +55,11 @@ from typing import Iterable, Sequence
 import numpy as np
 
 from planner.errors import InputError
+# Where the logbook is lives in the package (a reader with no file to read needs no more).
+from planner.logbook import DEFAULT_LOGBOOK_NAME, default_logbook_path  # noqa: F401
 
 #: The schema this code writes; files from older versions are migrated on open.
 SCHEMA_VERSION = 3
-#: Name of the default logbook file (in the user's data folder, or beside a campaign file).
-DEFAULT_LOGBOOK_NAME = "logbook.sqlite"
 #: How long a writer waits for another (a watcher and a manual entry at once), seconds.
 BUSY_TIMEOUT_S = 30.0
 WEATHER_STATES = ("closed", "open")
@@ -246,15 +246,6 @@ def closed_periods(events, end_jd: float) -> list[tuple[float, float]]:
     if start is not None:
         out.append((start, float(end_jd)))
     return out
-
-
-def default_logbook_path(campaign_file: str | Path | None = None) -> Path:
-    """Beside the campaign file if one is given, else in the user's data folder (platformdirs)."""
-    if campaign_file is not None:
-        return Path(campaign_file).with_name(DEFAULT_LOGBOOK_NAME)
-    from platformdirs import user_data_path
-
-    return user_data_path("gcplan", appauthor=False) / DEFAULT_LOGBOOK_NAME
 
 
 def _open_for_reading(p: Path) -> sqlite3.Connection:

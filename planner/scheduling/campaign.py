@@ -59,7 +59,6 @@ from planner.scheduling.campaign_nights import (
 )
 from planner.scheduling.night import plan_night
 from planner.scheduling.night_plan import FILL_SUFFIX, NightPlan
-from planner.scheduling.night_sky import night_sky
 from planner.scheduling.visits import Exposure, VisitRequest, body_s, setup_s, shutter_s
 from planner.sky.ephemeris import moon_phase
 from planner.sky.visibility import angular_separation_deg
@@ -365,10 +364,23 @@ def plan_through_night(campaign: Campaign, night: dt.date, seeing_arcsec: float 
     same with or without it.  ``store``: the Sun and Moon samples kept between runs
     (:func:`~planner.scheduling.night_sky.night_sky`); the same values either way.
     """
-    k = night_index(campaign, night)
-    entry = _campaign_nights(campaign, seeing_arcsec, k, cache, every=False, store=store)[-1]
-    covered = {key + end: cov.copy() for key, cov in entry.covered_before.items() for end in ("", FILL_SUFFIX)}
-    return entry.plan, list(entry.requests), covered
+    entry = night_entry(campaign, night, seeing_arcsec, cache=cache, store=store)
+    return entry.plan, list(entry.requests), covered_before(entry)
+
+
+def night_entry(campaign: Campaign, night: dt.date, seeing_arcsec: float | None = None, *, cache=None,
+                store=None):
+    """What :func:`plan_through_night` gives, as the night's whole
+    :class:`~planner.scheduling.plan_cache.NightEntry` (with the night's own Sun and Moon
+    samples when it keeps them)."""
+    return _campaign_nights(campaign, seeing_arcsec, night_index(campaign, night), cache, every=False,
+                            store=store)[-1]
+
+
+def covered_before(entry) -> dict:
+    """The phase bins covered before the entry's night, under each cadence key and its
+    spare-time key (what the night's planning values new phases against)."""
+    return {key + end: cov.copy() for key, cov in entry.covered_before.items() for end in ("", FILL_SUFFIX)}
 
 
 def plan_campaign(campaign: Campaign, *, seeing_arcsec: float | None = None, forecast: bool = True,
@@ -399,7 +411,9 @@ def plan_campaign(campaign: Campaign, *, seeing_arcsec: float | None = None, for
 def _campaign_nights(campaign: Campaign, seeing_arcsec, last: int, cache, *, every: bool, store=None) -> list:
     """Nights 0…``last`` as :class:`~planner.scheduling.plan_cache.NightEntry` (``every``: all
     of them; else only the last), planned from the latest night the cache keeps."""
+    from planner.scheduling.night_sky import held_night_ephemeris, night_sky
     from planner.scheduling.plan_cache import NightEntry, campaign_key, decode, encode
+    from planner.sky.earth_rotation import load_ut1_table
 
     key = campaign_key(campaign, seeing_arcsec) if cache is not None else ""
     kept: list = []
@@ -421,7 +435,8 @@ def _campaign_nights(campaign: Campaign, seeing_arcsec, last: int, cache, *, eve
         return kept
     site = campaign.site
     seeing = seeing_arcsec or campaign.seeing_arcsec or site.sky.typical_seeing_arcsec
-    frame = night_sky(site, campaign.nights, campaign.constraints, store=store)  # the Sun and Moon once
+    ut1 = load_ut1_table()  # read once for the campaign's span and each kept night's own samples
+    frame = night_sky(site, campaign.nights, campaign.constraints, ut1_table=ut1, store=store)  # the Sun and Moon once
     exposures = goal_exposures(campaign, seeing)
     check_fits_the_night(campaign, exposures, frame)
     tonights = [targets_tonight(site, campaign.constraints, campaign.targets, frame.ephemeris, a, b)
@@ -446,8 +461,11 @@ def _campaign_nights(campaign: Campaign, seeing_arcsec, last: int, cache, *, eve
             for i, g in enumerate(campaign.goals):
                 if v.request_key == f"{v.target}/{g.level}-{g.filter}":
                     done[(i, v.target)] = done.get((i, v.target), 0) + 1
+        # The night's own samples are kept for its re-plans when the Sun and Moon store holds
+        # them (read, not made; otherwise a re-plan makes them as before).
+        eph = held_night_ephemeris(site, campaign.nights[k], store, ut1) if store is not None else None
         entry = NightEntry(plan, tuple(requests), before, {key_: cov.copy() for key_, cov in covered.items()},
-                           dict(done))
+                           dict(done), eph)
         if cache is not None:
             cache.put(key, k, encode(entry))
         kept = kept + [entry] if every else [entry]

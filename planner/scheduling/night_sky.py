@@ -57,6 +57,43 @@ def night_sky(site, nights, constraints: Constraints, ut1_table=None, store=None
     return NightSky(tuple(nights), eph, w0, w1, np.asarray(moon_phase(eph, mid)[0], dtype=float))
 
 
+def night_ephemeris(site, night: dt.date, store=None, ut1_table=None) -> Ephemeris:
+    """The Sun, Moon and Earth rotation of one night, local noon to noon (what a re-plan of
+    the night plans with); ``store`` and ``ut1_table`` as for :func:`night_sky` (the same
+    values either way)."""
+    from planner.sky.ephemeris import build_ephemeris
+    from planner.sky.nights import night_spans_jd
+
+    s, e = night_spans_jd([night], site.location.timezone)
+    return build_ephemeris(float(s[0]), float(e[0]), ut1_table=ut1_table, store=store)
+
+
+def held_night_ephemeris(site, night: dt.date, store, ut1_table=None) -> Ephemeris | None:
+    """:func:`night_ephemeris` from the years ``store`` holds already; None where it holds
+    none (an unwritable cache folder): the samples are then not made for it."""
+    try:
+        return night_ephemeris(site, night, _HeldYears(store), ut1_table)
+    except LookupError:
+        return None
+
+
+class _HeldYears:
+    """A Sun and Moon store as it stands: a year it does not hold stops the build before
+    any sample is made."""
+
+    def __init__(self, store):
+        self._store = store
+
+    def load(self, year: int, step_d: float):
+        samples = self._store.load(year, step_d)
+        if samples is None:
+            raise LookupError(year)
+        return samples
+
+    def save(self, year: int, step_d: float, samples) -> None:  # only for a year not held whole
+        raise LookupError(year)
+
+
 def requests_for_targets(targets, exposures, purpose: str = "visit") -> list[VisitRequest]:
     """One visit per target (the ad-hoc form of ``gcplan schedule``), keyed by target name."""
     seen: dict[str, int] = {}

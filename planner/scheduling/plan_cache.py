@@ -17,9 +17,12 @@ the nights before them, as without a cache.  A change anywhere in the campaign
 changes the key, so every night is planned again.
 
 Each entry holds night k's plan and requests, the phase bins covered before it
-(what a re-plan of night k values new phases against), and the campaign's state
+(what a re-plan of night k values new phases against), the campaign's state
 after it (goal visits planned so far, bins covered), so that night k + 1 is
-planned from it without planning nights 1…k again.
+planned from it without planning nights 1…k again, and the night's own Sun,
+Moon and Earth-rotation samples (noon to noon, what a re-plan of the night
+plans with; the same values it would make again from the Sun and Moon store
+and the IERS table, which the file store's code stamp covers).
 
 The cache is an explicit object passed in (the core keeps no state and reads no
 file): anything with ``get(key, index) -> dict | None`` and ``put(key, index,
@@ -40,11 +43,13 @@ import numpy as np
 from planner.model.constraints import Constraints
 from planner.scheduling.night_plan import Gap, NightPlan, Unplanned
 from planner.scheduling.visits import Exposure, Visit, VisitRequest
+from planner.sky.ephemeris import Ephemeris
 
 #: Changes whenever an entry's layout changes: entries of another format are not read.
-FORMAT = 1
+FORMAT = 2
 #: The data classes an entry may hold (nothing else is rebuilt from a stored entry).
-_CLASSES = {c.__name__: c for c in (NightPlan, Gap, Unplanned, Visit, Exposure, VisitRequest, Constraints)}
+_CLASSES = {c.__name__: c for c in (NightPlan, Gap, Unplanned, Visit, Exposure, VisitRequest, Constraints,
+                                    Ephemeris)}
 
 
 @dataclasses.dataclass(frozen=True)
@@ -56,6 +61,7 @@ class NightEntry:
     covered_before: dict  # request key -> (stars, bins) phase bins covered before night k
     covered_after: dict  # the campaign's coverage after night k (cadence request keys)
     done_after: dict  # (goal index, target) -> goal visits planned up to night k
+    ephemeris: Ephemeris | None = None  # the night's own samples (noon to noon); None: not kept
 
 
 class MemoryCache:
@@ -115,7 +121,8 @@ def encode(entry: NightEntry) -> dict:
     """A JSON-able dict of ``entry`` (floats exact; NaN and infinities as JSON's extensions)."""
     return {"format": FORMAT, "plan": _enc(entry.plan), "requests": _enc(entry.requests),
             "covered_before": _enc(entry.covered_before), "covered_after": _enc(entry.covered_after),
-            "done_after": [[i, name, n] for (i, name), n in sorted(entry.done_after.items(), key=repr)]}
+            "done_after": [[i, name, n] for (i, name), n in sorted(entry.done_after.items(), key=repr)],
+            "ephemeris": _enc(entry.ephemeris)}
 
 
 def decode(data) -> NightEntry | None:
@@ -128,7 +135,10 @@ def decode(data) -> NightEntry | None:
         if not isinstance(plan, NightPlan) or not isinstance(requests, tuple):
             return None
         done = {(int(i), str(name)): int(n) for i, name, n in data["done_after"]}
-        return NightEntry(plan, requests, _dec(data["covered_before"]), _dec(data["covered_after"]), done)
+        eph = _dec(data["ephemeris"])
+        if eph is not None and not isinstance(eph, Ephemeris):
+            return None
+        return NightEntry(plan, requests, _dec(data["covered_before"]), _dec(data["covered_after"]), done, eph)
     except (KeyError, TypeError, ValueError, AttributeError):
         return None
 

@@ -107,11 +107,13 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     (:mod:`planner.scheduling.plan_cache`); ``store``: the Sun and Moon samples kept between
     runs (the same values either way).
     """
-    from planner.scheduling.campaign import add_spare_work, goal_exposures, is_fill, plan_through_night
+    from planner.scheduling.campaign import add_spare_work, covered_before, goal_exposures, is_fill, night_entry
     from planner.scheduling.campaign_nights import gaps_with_reasons
+    from planner.scheduling.night_sky import night_ephemeris
 
     planned_seeing = campaign.seeing_arcsec or campaign.site.sky.typical_seeing_arcsec
-    original, requests, covered = plan_through_night(campaign, night, cache=cache, store=store)
+    entry = night_entry(campaign, night, cache=cache, store=store)
+    original, requests, covered = entry.plan, list(entry.requests), covered_before(entry)
     if base is not None:
         original = base
     closed = tuple(sorted(tuple(closed) + tuple(logged_closed)))
@@ -149,7 +151,9 @@ def replan_night(campaign, night: dt.date, now_jd: float, *, closed=(), done=(),
     # as the campaign plans a night.
     goals = [_respaced(q, fixed, start, original.window_end_jd, campaign) for q in requests if not is_fill(q)]
     spare = [q for q in requests if is_fill(q)]
-    w0, w1, eph = original.window_start_jd, original.window_end_jd, _ephemeris(campaign, night, store)
+    # The night's own Sun and Moon: kept with its entry, else made (the same values).
+    eph = entry.ephemeris if entry.ephemeris is not None else night_ephemeris(campaign.site, night, store)
+    w0, w1 = original.window_start_jd, original.window_end_jd
     plan = plan_night(campaign.site, campaign.constraints, goals, night, w0, w1, eph, closed=closed,
                       seeing_arcsec=seeing, fixed=fixed, not_before_jd=start, covered_bins=covered,
                       id_offset=len(past))
@@ -256,11 +260,3 @@ def _new_exposures(q, exposures, campaign):
         if q.key == f"{q.target}/{g.level}-{g.filter}":
             return exposures.get((i, q.target), q.exposures)
     return q.exposures
-
-
-def _ephemeris(campaign, night, store=None):
-    from planner.sky.ephemeris import build_ephemeris
-    from planner.sky.nights import night_spans_jd
-
-    s, e = night_spans_jd([night], campaign.site.location.timezone)
-    return build_ephemeris(float(s[0]), float(e[0]), store=store)
