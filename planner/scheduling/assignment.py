@@ -30,9 +30,8 @@ def _compiled(name: str):
         import importlib.util
         from pathlib import Path
 
-        import scipy
-
-        folder = Path(scipy.__file__).parent / "optimize" / Path(*name.split(".")[:-1])
+        found = importlib.util.find_spec("scipy")  # where scipy is, without running its __init__
+        folder = Path(found.submodule_search_locations[0]) / "optimize" / Path(*name.split(".")[:-1])
         stem = name.split(".")[-1]
         path = next(folder / (stem + s) for s in importlib.machinery.EXTENSION_SUFFIXES
                     if (folder / (stem + s)).is_file())

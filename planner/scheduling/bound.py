@@ -105,7 +105,7 @@ def window_max_rows(v: np.ndarray, half_widths: np.ndarray) -> np.ndarray:
         levels.append(np.maximum(a[:, :-span], a[:, span:]))
     out = np.empty_like(v, dtype=float)
     i = np.arange(n)
-    for j in np.unique(top):
+    for j in sorted(set(top.tolist())):  # (np.unique would load numpy.ma on a process's first plan)
         rows = np.flatnonzero(top == j)
         lo = pad + i[None, :] - h[rows, None]
         hi = lo + length[rows, None] - (1 << int(j))
