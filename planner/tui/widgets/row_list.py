@@ -75,6 +75,8 @@ class RowList(ScrollView, can_focus=True):
             self.cursor = keys.index(old_key) if old_key in keys else self._first_keyed(0, 1)
             self._shown = rows
         self.virtual_size = Size(0, len(self._shown))
+        # The scrollbar shown or hidden now, not a frame later (each frame waits 1/60 s).
+        self._refresh_scrollbars()
         self.refresh()
 
     def render_line(self, y: int) -> Strip:
@@ -117,7 +119,9 @@ class RowList(ScrollView, can_focus=True):
         if 0 <= old < len(self.rows):
             self.refresh_line(old)
         self.refresh_line(i)
-        if scroll:
+        if scroll and self.size.height:  # laid out: at once (the list's height is known)
+            self._scroll_to_cursor()
+        elif scroll:
             self.call_after_refresh(self._scroll_to_cursor)
         self.post_message(self.Moved(self.current))
 
