@@ -20,6 +20,7 @@ from textual.binding import Binding
 
 from planner.errors import InputError
 from planner.sky.nights import datetime_to_jd
+from planner.tui import collector
 from planner.tui.clock import Clock, system_clock
 from planner.tui.night_actions import NightActions, guarded
 from planner.tui.screens.dialogs import AskScreen
@@ -103,6 +104,12 @@ class PlannerApp(NightActions, App):
 
     # ------------------------------------------------------------ start, clock
 
+    def on_load(self) -> None:
+        collector.pause()  # until the first night is on screen (planner.tui.collector)
+
+    def on_unmount(self) -> None:
+        collector.release()
+
     def on_mount(self) -> None:
         from textual.theme import Theme
 
@@ -136,6 +143,7 @@ class PlannerApp(NightActions, App):
         self.call_from_thread(self._campaign_ready, campaign)
 
     def _campaign_failed(self, text: str) -> None:
+        collector.resume()
         self.load_error = text
         self.message = "the campaign could not be read: fix the file and start again (q quits)"
         self.show_all()
@@ -280,6 +288,7 @@ class PlannerApp(NightActions, App):
         self._update_states()
         self.show_all()
         if not data.planning:  # once the night is on screen: not to slow its first screen
+            collector.resume()
             ahead = [n for n in (self._step(data.night, 1), self._step(data.night, -1))
                      if n is not None and n not in self._nights]
             self.set_timer(READ_AHEAD_AFTER_S, lambda: self.read_ahead(ahead))
@@ -306,6 +315,7 @@ class PlannerApp(NightActions, App):
             self._night_ready(data, self.key, accepted)
 
     def _night_failed(self, night: dt.date, message: str) -> None:
+        collector.resume()
         if night == self.night:
             self.load_error = f"error: {message}"
             self.show_all()
