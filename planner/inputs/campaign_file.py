@@ -85,8 +85,9 @@ def _path(top: Table, key: str, base: Path, required: bool, special: tuple[str, 
     return str(p)
 
 
-def read_campaign_file(path: str | Path):
-    """The :class:`~planner.model.campaign.Campaign` in the file at ``path``."""
+def read_campaign_file(path: str | Path, catalog=None):
+    """The :class:`~planner.model.campaign.Campaign` in the file at ``path`` (``catalog``:
+    the bundled catalog if read already, else it is read here)."""
     from planner.inputs.catalog import load_catalog
     from planner.inputs.sites import resolve_site
     from planner.inputs.targets import resolve_targets
@@ -106,7 +107,7 @@ def read_campaign_file(path: str | Path):
         top.fail(f"site must be a profile file or a bundled profile's name (got {show(site_spec)})")
     local = base / site_spec
     site = resolve_site(str(local) if local.is_file() else site_spec)
-    catalog = load_catalog()
+    catalog = catalog if catalog is not None else load_catalog()
     targets_path = _path(top, "targets", base, True, special=("all",))
     targets = resolve_targets(targets_path, [], catalog)
     variables_path = _path(top, "variables", base, False)

@@ -128,10 +128,12 @@ class PlannerApp(NightActions, App):
     @work(thread=True, exclusive=True, group="campaign")
     def load_campaign(self) -> None:
         from planner.inputs.campaign_file import read_campaign_file
+        from planner.inputs.catalog import load_catalog
 
         self.call_from_thread(self._set_busy, "reading the campaign", 1)
         try:
-            campaign = read_campaign_file(self.campaign_path)
+            catalog = load_catalog()  # read once: the campaign's targets and the name key
+            campaign = read_campaign_file(self.campaign_path, catalog)
         except InputError as exc:
             self.call_from_thread(self._campaign_failed, f"error: {exc}")
             return
@@ -140,7 +142,7 @@ class PlannerApp(NightActions, App):
             return
         finally:
             self.call_from_thread(self._set_busy, "reading the campaign", -1)
-        self.call_from_thread(self._campaign_ready, campaign)
+        self.call_from_thread(self._campaign_ready, campaign, catalog.key)
 
     def _campaign_failed(self, text: str) -> None:
         collector.resume()
@@ -149,8 +151,9 @@ class PlannerApp(NightActions, App):
         self.show_all()
 
     @guarded
-    def _campaign_ready(self, campaign) -> None:
+    def _campaign_ready(self, campaign, key) -> None:
         self.campaign = campaign
+        self.key = key
         self._start()
 
     def _start(self) -> None:
