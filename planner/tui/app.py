@@ -57,6 +57,11 @@ class PlannerApp(NightActions, App):
                  seeing_arcsec: float | None = None, tick_s: float = TICK_S,
                  campaign_path: str | Path | None = None, logbook: str | Path | None = None) -> None:
         super().__init__()
+        from textual.theme import Theme
+
+        # The theme before the stylesheet is first parsed: set in on_mount, it parsed it all again.
+        self.register_theme(Theme(**NIGHT_THEME))
+        self.theme = "gcplan-night"
         self._plan_cache = None  # made with the campaign (see plan_cache)
         self._sun_moon = None  # the Sun/Moon samples kept between runs (see sun_moon_store)
         self.campaign = campaign
@@ -111,10 +116,6 @@ class PlannerApp(NightActions, App):
         collector.release()
 
     def on_mount(self) -> None:
-        from textual.theme import Theme
-
-        self.register_theme(Theme(**NIGHT_THEME))
-        self.theme = "gcplan-night"
         for name, screen in zip(SCREEN_NAMES, (PlanScreen(), TonightScreen(), PhaseScreen())):
             self.install_screen(screen, name)
         self.push_screen("plan")
