@@ -39,6 +39,9 @@ def register(sub) -> None:
 def run_app(args) -> int:
     """Run the app until q.  The campaign is read inside the app: a file that fails shows its
     one-line error there."""
+    from planner.tui import collector
+
+    collector.pause()  # from before the app's imports until its first night shows (planner.tui.collector)
     from planner.tui.app import PlannerApp
     from planner.tui.clock import rehearsal_clock, system_clock
 
