@@ -41,16 +41,28 @@ def code_stamp() -> str:
         from importlib.util import find_spec
 
         h = hashlib.sha256()
-        package = Path(__file__).resolve().parent.parent
-        for p in sorted(package.rglob("*.py")):
-            st = p.stat()
-            h.update(f"{p.relative_to(package)} {st.st_size} {st.st_mtime_ns}\n".encode())
+        # os.walk and os.stat rather than Path.rglob: the same lines in the same order, in a
+        # third of the time (this runs before a process's first plan, the app's first screen).
+        package = os.path.dirname(os.path.dirname(os.path.realpath(__file__)))
+        found = []
+        for folder, dirs, files in os.walk(package):
+            dirs[:] = [d for d in dirs if d != "__pycache__"]  # compiled files: no .py in them
+            rel = os.path.relpath(folder, package)
+            parts = () if rel == "." else tuple(rel.split(os.sep))
+            found += [(parts + (name,), os.path.join(folder, name)) for name in files if name.endswith(".py")]
+        for parts, path in sorted(found):
+            st = os.stat(path)
+            h.update(f"{'/'.join(parts)} {st.st_size} {st.st_mtime_ns}\n".encode())
         # The libraries' installed versions, from their dist-info folders' names (without
         # importing them, and faster than importlib.metadata).
+        listed: dict = {}
         for module, dist in _LIBRARIES:
             spec = find_spec(module)
-            where = Path(spec.origin).parent.parent if spec is not None and spec.origin else None
-            names = sorted(d.name for d in where.glob(f"{dist}-*.dist-info")) if where is not None else []
+            where = os.path.dirname(os.path.dirname(spec.origin)) if spec is not None and spec.origin else None
+            if where is not None and where not in listed:
+                listed[where] = sorted(os.listdir(where)) if os.path.isdir(where) else []
+            names = [d for d in listed[where] if d.startswith(f"{dist}-") and d.endswith(".dist-info")
+                     and len(d) >= len(dist) + 11] if where is not None else []  # "{dist}-*.dist-info"
             h.update(f"{module} {names}\n".encode())
         _stamp = h.hexdigest()
     return _stamp
