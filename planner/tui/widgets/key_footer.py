@@ -21,11 +21,13 @@ class KeyFooter(Footer):
     _shown: tuple | None = None  # the keys of the last rebuild
 
     def _keys(self, screen) -> tuple:
-        """What the footer shows of ``screen``'s bindings: each one's key (as displayed),
-        description, action, whether shown and enabled, its tooltip."""
+        """What the footer shows of ``screen``'s bindings: those shown (and the command
+        palette's, when the footer shows it), each with its key as displayed, description,
+        action, group, whether enabled, its tooltip."""
         app = self.app
-        return tuple((b.key, app.get_key_display(b), b.description, b.action, b.show, enabled, tooltip)
-                     for _, b, enabled, tooltip in screen.active_bindings.values())
+        palette = app.COMMAND_PALETTE_BINDING if self.show_command_palette and app.ENABLE_COMMAND_PALETTE else None
+        return tuple((key, b.key, app.get_key_display(b), b.description, b.action, b.group, enabled, tooltip)
+                     for key, (_, b, enabled, tooltip) in screen.active_bindings.items() if b.show or key == palette)
 
     def bindings_changed(self, screen) -> None:
         self._bindings_ready = True
