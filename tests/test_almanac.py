@@ -337,6 +337,39 @@ def test_many_nights_equal_one_at_a_time():
         assert_events_agree(a, b, tol_d=1.0 / 86400.0, label=str(night))
 
 
+def test_events_refined_together_equal_each_refined_alone():
+    # The almanac refines its ten crossings in one pass; each is the same number,
+    # to the bit, as that crossing refined by itself (common practice, no source).
+    from planner.sky import almanac as al
+
+    site = _site("demo", None)
+    nights = [dt.date(2027, 1, 1) + dt.timedelta(days=9 * i) for i in range(41)]
+    got = almanac_for_nights(site, nights)
+    loc = site.location
+    geo = al.site_geometry(loc.latitude_deg, loc.longitude_deg, loc.elevation_m)
+    s0, s1 = al.night_spans_jd(nights, loc.timezone)
+    eph = al.build_ephemeris(float(s0.min()), float(s1.max()))
+    grid = al.night_grid_jd(s0, s1, al._GRID_STEP_D)
+    sun_fn = lambda t: al.sun_altitude_deg(eph, geo, t)  # noqa: E731
+    moon_fn = lambda t: al.moon_limb_above_rise_level_deg(eph, geo, t)  # noqa: E731
+    sun, moon = sun_fn(grid), moon_fn(grid)
+    low = np.argmin(sun, axis=1)
+    alone = {"sunset": al._crossing(grid, sun, al.SUNRISE_ALTITUDE_DEG, sun_fn, -1, before=low, last=True),
+             "sunrise": al._crossing(grid, sun, al.SUNRISE_ALTITUDE_DEG, sun_fn, +1, after=low),
+             "moonrise": al._crossing(grid, moon, 0.0, moon_fn, +1),
+             "moonset": al._crossing(grid, moon, 0.0, moon_fn, -1)}
+    for name, level in al.TWILIGHT_ALTITUDE_DEG.items():
+        alone[f"evening {name}"] = al._crossing(grid, sun, level, sun_fn, -1, before=low, last=True)
+        alone[f"morning {name}"] = al._crossing(grid, sun, level, sun_fn, +1, after=low)
+    together = {"sunset": got.sunset_jd, "sunrise": got.sunrise_jd, "moonrise": got.moonrise_jd,
+                "moonset": got.moonset_jd, **{f"evening {k}": v for k, v in got.evening_jd.items()},
+                **{f"morning {k}": v for k, v in got.morning_jd.items()}}
+    assert together.keys() == alone.keys()
+    for name in alone:
+        assert np.array_equal(together[name], alone[name], equal_nan=True), name
+    assert np.isfinite(together["moonrise"]).sum() > 30 and np.isfinite(together["sunset"]).all()
+
+
 # --- the edge cases the sky really has ---------------------------------------
 
 

@@ -207,3 +207,21 @@ def test_ut1_table_sliced_at_once_equals_row_by_row():
     assert len(slow[0]) > 10000
     assert all(np.array_equal(a, b) for a, b in zip(fast, slow))
     assert earth_rotation._fixed_width_columns(data.replace(b"\n", b"\r\n", 1)) is None
+
+
+def test_ut1_table_of_a_span_gives_the_whole_tables_values():
+    """The rows an ephemeris's span needs give the same UT1 − UTC as the whole table at
+    every date of the span — inside the table, across its start and its last value, and
+    past both ends (held there) — and the same last date."""
+    from planner.sky.earth_rotation import load_ut1_table, ut1_minus_utc_s
+
+    whole = load_ut1_table()
+    start, end = float(whole.mjd[0]) + 2400000.5, whole.end_jd
+    spans = [(2461411.5, 2461413.5), (2451544.5, 2451910.5), (start - 40.0, start + 3.25), (start - 9.0, start - 2.0),
+             (end - 6.75, end + 30.0), (end + 100.0, end + 400.0), (2450000.0, 2450000.0)]
+    for a, b in spans:
+        part = load_ut1_table(span_jd=(a, b))
+        assert len(part.mjd) < 400 and part.end_jd == end
+        jd = np.concatenate([np.linspace(a, b, 1001), np.floor(np.linspace(a, b, 40)) + 0.5])
+        jd = jd[(jd >= a) & (jd <= b)]
+        assert np.array_equal(ut1_minus_utc_s(part, jd), ut1_minus_utc_s(whole, jd)), (a, b)

@@ -39,13 +39,17 @@ def register(sub) -> None:
 def run_app(args) -> int:
     """Run the app until q.  The campaign is read inside the app: a file that fails shows its
     one-line error there."""
-    from planner.tui.app import PlannerApp
-    from planner.tui.clock import rehearsal_clock, system_clock
-
     night = common.parse_night_date(args.date) if getattr(args, "date", None) else None
     seeing = getattr(args, "seeing", None)
     common.check_seeing(seeing)
-    clock = rehearsal_clock(parse_now(args.now)) if getattr(args, "now", None) else system_clock
+    now = parse_now(args.now) if getattr(args, "now", None) else None
+    from planner.tui import collector
+
+    collector.pause()  # from before the app's imports until its first night shows (planner.tui.collector)
+    from planner.tui.app import PlannerApp
+    from planner.tui.clock import rehearsal_clock, system_clock
+
+    clock = rehearsal_clock(now) if now is not None else system_clock
     path = getattr(args, "campaign", None) or demo_campaign_path()
     PlannerApp(night=night, clock=clock, seeing_arcsec=seeing, campaign_path=path,
                logbook=getattr(args, "logbook", None)).run()

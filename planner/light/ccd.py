@@ -7,6 +7,7 @@ profile and plans frames with these.
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 
@@ -90,15 +91,21 @@ def _bisect_root(f, lo: float, hi: float) -> float:
 _DEFAULT_MOFFAT_OPTIMUM = _moffat_optimum(DEFAULT_MOFFAT_BETA)
 
 
-# Gauss-Legendre nodes over one pixel: 40 per axis integrate the Moffat peak pixel to
-# better than 1e-6 for FWHM ≥ 0.5 px (checked against scipy's dblquad in the tests).
-_NODES, _WEIGHTS = np.polynomial.legendre.leggauss(40)
-# The integrand depends on x² + y² only: the nodes with x ≥ y > 0 (one eighth of the grid,
-# the diagonal once) carry it, each weighted by how many of the 40 × 40 it stands for.
-_HALF = _NODES > 0
-_I, _J = np.triu_indices(int(np.sum(_HALF)))
-_R2 = (0.5 * _NODES[_HALF][_I]) ** 2 + (0.5 * _NODES[_HALF][_J]) ** 2  # the pixel spans -½..½
-_W = 0.25 * _WEIGHTS[_HALF][_I] * _WEIGHTS[_HALF][_J] * np.where(_I == _J, 4.0, 8.0)
+@functools.cache
+def _pixel_nodes() -> tuple[np.ndarray, np.ndarray]:
+    """Squared radii and weights of the quadrature over one pixel (made on first use:
+    numpy.polynomial's import and the nodes cost 3 ms, a tenth of a night plan's start).
+
+    Gauss-Legendre nodes: 40 per axis integrate the Moffat peak pixel to better than
+    1e-6 for FWHM ≥ 0.5 px (checked against scipy's dblquad in the tests).  The
+    integrand depends on x² + y² only: the nodes with x ≥ y > 0 (one eighth of the grid,
+    the diagonal once) carry it, each weighted by how many of the 40 × 40 it stands for.
+    """
+    nodes, weights = np.polynomial.legendre.leggauss(40)
+    half = nodes > 0
+    i, j = np.triu_indices(int(np.sum(half)))
+    r2 = (0.5 * nodes[half][i]) ** 2 + (0.5 * nodes[half][j]) ** 2  # the pixel spans -½..½
+    return r2, 0.25 * weights[half][i] * weights[half][j] * np.where(i == j, 4.0, 8.0)
 
 
 def peak_pixel_fraction(fwhm_pixels, psf: Psf = GAUSSIAN):
@@ -110,13 +117,14 @@ def peak_pixel_fraction(fwhm_pixels, psf: Psf = GAUSSIAN):
     fwhm = np.asarray(fwhm_pixels, dtype=float)
     if psf.kind == "moffat":
         alpha2 = moffat_alpha(fwhm, psf.beta)[..., None] ** 2
+        r2, w = _pixel_nodes()
         # (fwhm…, nodes) worked in place: the same operations on the same numbers, without the
         # four temporaries of that size (a slot table asks for hundreds of FWHM at once)
-        profile = _R2 / alpha2
+        profile = r2 / alpha2
         profile += 1.0
         np.power(profile, -psf.beta, out=profile)
         profile *= (psf.beta - 1.0) / (np.pi * alpha2)
-        profile *= _W
+        profile *= w
         return np.sum(profile, axis=-1)
     from scipy.special import erf
 

@@ -134,8 +134,7 @@ def dark_windows_for_spans(eph: Ephemeris, geo: SiteGeometry, span_start_jd, spa
     sun_alt = sun_fn(grid)
     low = np.argmin(sun_alt, axis=1)
     level = TWILIGHT_ALTITUDE_DEG[twilight]
-    evening = _crossing(grid, sun_alt, level, sun_fn, -1, before=low, last=True)
-    morning = _crossing(grid, sun_alt, level, sun_fn, +1, after=low)
+    evening, morning = _crossings(grid, sun_alt, sun_fn, [(level, -1, None, low, True), (level, +1, low, None, False)])
     return _dark_window(evening, morning, s0, s1, sun_alt.min(axis=1), sun_alt.max(axis=1), level)
 
 
@@ -195,26 +194,45 @@ def _crossing(grid_jd, values, level, func, direction: int, *, after=None, befor
     at index ≥ ``after`` and ending at index ≤ ``before`` (per-row arrays) are
     considered; ``last`` picks the latest of them instead of the earliest.
     """
-    above = values >= level
-    if direction < 0:
-        cross = above[:, :-1] & ~above[:, 1:]
-    else:
-        cross = ~above[:, :-1] & above[:, 1:]
-    seg = np.arange(cross.shape[1])[None, :]
-    if after is not None:
-        cross &= seg >= np.asarray(after)[:, None]
-    if before is not None:
-        cross &= seg + 1 <= np.asarray(before)[:, None]
-    has = cross.any(axis=1)
-    idx = (cross.shape[1] - 1 - np.argmax(cross[:, ::-1], axis=1)) if last else np.argmax(cross, axis=1)
-    rows = np.nonzero(has)[0]
-    out = np.full(grid_jd.shape[0], np.nan)
-    if rows.size:
+    return _crossings(grid_jd, values, func, [(level, direction, after, before, last)])[0]
+
+
+def _crossings(grid_jd, values, func, specs) -> list[np.ndarray]:
+    """:func:`_crossing` for several ``(level, direction, after, before, last)`` at once: the
+    brackets of all of them refined in one pass (one evaluation of ``func`` per iteration
+    instead of one per crossing — a night's almanac makes ten).  Every step is elementwise,
+    so each root is the number :func:`_crossing` alone gives."""
+    found, lo, hi, f_lo, f_hi, levels = [], [], [], [], [], []
+    for level, direction, after, before, last in specs:
+        above = values >= level
+        if direction < 0:
+            cross = above[:, :-1] & ~above[:, 1:]
+        else:
+            cross = ~above[:, :-1] & above[:, 1:]
+        seg = np.arange(cross.shape[1])[None, :]
+        if after is not None:
+            cross &= seg >= np.asarray(after)[:, None]
+        if before is not None:
+            cross &= seg + 1 <= np.asarray(before)[:, None]
+        has = cross.any(axis=1)
+        idx = (cross.shape[1] - 1 - np.argmax(cross[:, ::-1], axis=1)) if last else np.argmax(cross, axis=1)
+        rows = np.nonzero(has)[0]
         k = idx[rows]
-        lo, hi = grid_jd[rows, k], grid_jd[rows, k + 1]
-        f_lo, f_hi = values[rows, k] - level, values[rows, k + 1] - level
-        out[rows] = _refine(lambda t: func(t) - level, lo, hi, f_lo, f_hi)
-    return out
+        found.append(rows)
+        lo.append(grid_jd[rows, k])
+        hi.append(grid_jd[rows, k + 1])
+        f_lo.append(values[rows, k] - level)
+        f_hi.append(values[rows, k + 1] - level)
+        levels.append(np.full(rows.size, float(level)))
+    outs = [np.full(grid_jd.shape[0], np.nan) for _ in specs]
+    if sum(r.size for r in found):
+        level_at = np.concatenate(levels)
+        roots = _refine(lambda t: func(t) - level_at, *(np.concatenate(a) for a in (lo, hi, f_lo, f_hi)))
+        start = 0
+        for out, rows in zip(outs, found):
+            out[rows] = roots[start:start + rows.size]
+            start += rows.size
+    return outs
 
 
 def almanac_for_nights(
@@ -239,17 +257,14 @@ def almanac_for_nights(
     # the next night.
     low = np.argmin(sun_alt, axis=1)
 
-    def evening_morning(level):
-        evening = _crossing(grid, sun_alt, level, sun_fn, -1, before=low, last=True)
-        morning = _crossing(grid, sun_alt, level, sun_fn, +1, after=low)
-        return evening, morning
-
-    sunset, sunrise = evening_morning(SUNRISE_ALTITUDE_DEG)
-    evening, morning = {}, {}
-    for name in TWILIGHTS:
-        evening[name], morning[name] = evening_morning(TWILIGHT_ALTITUDE_DEG[name])
-    moonrise = _crossing(grid, moon_alt, 0.0, moon_fn, +1)
-    moonset = _crossing(grid, moon_alt, 0.0, moon_fn, -1)
+    # Sunset, sunrise and each twilight's evening and morning: refined together.
+    levels = [SUNRISE_ALTITUDE_DEG] + [TWILIGHT_ALTITUDE_DEG[name] for name in TWILIGHTS]
+    sun_events = _crossings(grid, sun_alt, sun_fn, [spec for level in levels for spec in (
+        (level, -1, None, low, True), (level, +1, low, None, False))])
+    sunset, sunrise = sun_events[0], sun_events[1]
+    evening = {name: sun_events[2 + 2 * i] for i, name in enumerate(TWILIGHTS)}
+    morning = {name: sun_events[3 + 2 * i] for i, name in enumerate(TWILIGHTS)}
+    moonrise, moonset = _crossings(grid, moon_alt, moon_fn, [(0.0, +1, None, None, False), (0.0, -1, None, None, False)])
 
     rows = np.arange(len(grid))
     solar_midnight = grid[rows, low]

@@ -119,10 +119,10 @@ def build_ephemeris(
     instants, so the same values.  UT1 − UTC comes from the IERS table.  Dates
     beyond the bundled IERS table work; :func:`iers_warning` says so.
     """
-    if ut1_table is None:
-        ut1_table = load_ut1_table()
     k_lo = int(np.floor((jd_start - GRID_ORIGIN_JD) / step_d)) - 2
     k_hi = int(np.ceil((jd_end - GRID_ORIGIN_JD) / step_d)) + 2
+    if ut1_table is None:  # the rows of this span only: the same values, a tenth of the time
+        ut1_table = load_ut1_table(span_jd=(GRID_ORIGIN_JD + step_d * k_lo, GRID_ORIGIN_JD + step_d * k_hi))
     if store is None:
         samples = sun_moon_samples(GRID_ORIGIN_JD + step_d * np.arange(k_lo, k_hi + 1))
     else:

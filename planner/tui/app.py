@@ -20,6 +20,7 @@ from textual.binding import Binding
 
 from planner.errors import InputError
 from planner.sky.nights import datetime_to_jd
+from planner.tui import collector
 from planner.tui.clock import Clock, system_clock
 from planner.tui.night_actions import NightActions, guarded
 from planner.tui.screens.dialogs import AskScreen
@@ -56,6 +57,11 @@ class PlannerApp(NightActions, App):
                  seeing_arcsec: float | None = None, tick_s: float = TICK_S,
                  campaign_path: str | Path | None = None, logbook: str | Path | None = None) -> None:
         super().__init__()
+        from textual.theme import Theme
+
+        # The theme before the stylesheet is first parsed: set in on_mount, it parsed it all again.
+        self.register_theme(Theme(**NIGHT_THEME))
+        self.theme = "gcplan-night"
         self._plan_cache = None  # made with the campaign (see plan_cache)
         self._sun_moon = None  # the Sun/Moon samples kept between runs (see sun_moon_store)
         self.campaign = campaign
@@ -103,11 +109,13 @@ class PlannerApp(NightActions, App):
 
     # ------------------------------------------------------------ start, clock
 
-    def on_mount(self) -> None:
-        from textual.theme import Theme
+    def on_load(self) -> None:
+        collector.pause()  # until the first night is on screen (planner.tui.collector)
 
-        self.register_theme(Theme(**NIGHT_THEME))
-        self.theme = "gcplan-night"
+    def on_unmount(self) -> None:
+        collector.release()
+
+    def on_mount(self) -> None:
         for name, screen in zip(SCREEN_NAMES, (PlanScreen(), TonightScreen(), PhaseScreen())):
             self.install_screen(screen, name)
         self.push_screen("plan")
@@ -121,10 +129,12 @@ class PlannerApp(NightActions, App):
     @work(thread=True, exclusive=True, group="campaign")
     def load_campaign(self) -> None:
         from planner.inputs.campaign_file import read_campaign_file
+        from planner.inputs.catalog import load_catalog
 
         self.call_from_thread(self._set_busy, "reading the campaign", 1)
         try:
-            campaign = read_campaign_file(self.campaign_path)
+            catalog = load_catalog()  # read once: the campaign's targets and the name key
+            campaign = read_campaign_file(self.campaign_path, catalog)
         except InputError as exc:
             self.call_from_thread(self._campaign_failed, f"error: {exc}")
             return
@@ -133,16 +143,18 @@ class PlannerApp(NightActions, App):
             return
         finally:
             self.call_from_thread(self._set_busy, "reading the campaign", -1)
-        self.call_from_thread(self._campaign_ready, campaign)
+        self.call_from_thread(self._campaign_ready, campaign, catalog.key)
 
     def _campaign_failed(self, text: str) -> None:
+        collector.resume()
         self.load_error = text
         self.message = "the campaign could not be read: fix the file and start again (q quits)"
         self.show_all()
 
     @guarded
-    def _campaign_ready(self, campaign) -> None:
+    def _campaign_ready(self, campaign, key) -> None:
         self.campaign = campaign
+        self.key = key
         self._start()
 
     def _start(self) -> None:
@@ -280,6 +292,7 @@ class PlannerApp(NightActions, App):
         self._update_states()
         self.show_all()
         if not data.planning:  # once the night is on screen: not to slow its first screen
+            collector.resume()
             ahead = [n for n in (self._step(data.night, 1), self._step(data.night, -1))
                      if n is not None and n not in self._nights]
             self.set_timer(READ_AHEAD_AFTER_S, lambda: self.read_ahead(ahead))
@@ -306,6 +319,7 @@ class PlannerApp(NightActions, App):
             self._night_ready(data, self.key, accepted)
 
     def _night_failed(self, night: dt.date, message: str) -> None:
+        collector.resume()
         if night == self.night:
             self.load_error = f"error: {message}"
             self.show_all()

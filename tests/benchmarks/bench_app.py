@@ -163,12 +163,14 @@ def main(argv=None) -> int:
     from planner.config import configure_runtime
 
     configure_runtime()
-    if args.child:  # as `gcplan app` starts (planner.cli.main)
+    if args.child:  # as `gcplan app` starts (planner.cli.main, planner.commands.app.run_app)
         import json
 
         from planner.cli import one_blas_thread
+        from planner.tui import collector
 
         one_blas_thread()
+        collector.pause()
 
         print(json.dumps(asyncio.run(process_run(Path(args.child[0]), float(args.child[1])))))
         return 0

@@ -10,8 +10,9 @@ from __future__ import annotations
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
+from planner.tui.widgets.key_footer import KeyFooter
 from planner.tui.widgets.night_header import NightHeader
 from planner.tui.widgets.row_list import RowList
 
@@ -57,7 +58,7 @@ class NightScreen(Screen):
         yield from self.parts()
         yield RowList(id=self.ROWS_ID)
         yield Static("", id="message", classes="message")
-        yield Footer(show_command_palette=False, compact=True)
+        yield KeyFooter(show_command_palette=False, compact=True)
 
     def on_mount(self) -> None:
         self._ready = True
