@@ -268,7 +268,10 @@ def _random_transport(rng):
     n_k, n_req = int(rng.integers(5, 60)), int(rng.integers(2, 25))
     allowed = rng.random((n_req, n_k)) > 0.3
     value = np.where(allowed, rng.random((n_req, n_k)), 0.0)
-    return value, allowed, rng.uniform(0, 15, n_req), rng.uniform(0, 5, n_k)
+    demand, supply = rng.uniform(0, 15, n_req), rng.uniform(0, 5, n_k)
+    demand[rng.random(n_req) < 0.15] = 0.0  # nothing more wanted of a request
+    supply[rng.random(n_k) < 0.15] = 0.0  # a slot taken by a fixed visit, or before "now"
+    return value, allowed, demand, supply
 
 
 @pytest.mark.parametrize("seed", range(8))

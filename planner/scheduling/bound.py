@@ -147,6 +147,7 @@ def night_bound(v_point, ok_point, free, count, body_min_min, reach_min, slot_mi
     if res is None:
         return Bound(float("nan"), METHOD + " — not solved", np.zeros(n_int), np.zeros((n_req, n_int)))
     value, y, _, price_k = res
+    price_k = np.where(cap > 0, price_k, 0.0)  # time no visit can take (before "now", fixed visits): no price
     ok_w = np.maximum(ok_min, 1e-12)
     # spread each slot's minutes over its usable free intervals, in proportion to their free time
     occ = (y / ok_w)[:, k_of] * ok_int * free[None, :]

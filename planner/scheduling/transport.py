@@ -105,13 +105,20 @@ def max_transport(value: np.ndarray, allowed: np.ndarray, demand: np.ndarray, su
     cost[:n_r, :n_k] = np.where(allowed, -worth, big)
     a = np.concatenate([demand, [supply.sum()]])
     b = np.concatenate([supply, [demand.sum()]])
-    flow, total, alpha, beta, code = _load_solver().emd_c(a, b, cost, 1_000_000, True)
+    # (a, b, costs, iteration limit, threads: one, as everywhere in gcplan)
+    flow, total, alpha, beta, code = _load_solver().emd_c(a, b, cost, 1_000_000, 1)
     if code != 1:  # POT's OPTIMAL
         return None
     y = flow[:n_r, :n_k]
     if np.any(y[~allowed] > 1e-9 * max(1.0, float(b.sum()))):
         return None
     # Potentials: alpha[i] + beta[j] ≤ cost[i, j].  With the dummies' potentials as the zero:
-    price = np.where(supply > 0, np.maximum(-(alpha[n_r] + beta[:n_k]), 0.0), 0.0)
-    lam = np.where(demand > 0, np.maximum(-(alpha[:n_r] + beta[n_k]), 0.0), 0.0)
+    price = np.maximum(-(alpha[n_r] + beta[:n_k]), 0.0)
+    lam = np.maximum(-(alpha[:n_r] + beta[n_k]), 0.0)
+    # The solver leaves out rows and columns of zero weight, and their potentials with them;
+    # the least duals that keep every allowed pair covered (their weight is 0: the dual
+    # objective does not change).
+    price = np.where(supply > 0, price, np.max(np.where(allowed & (demand > 0)[:, None],
+                                                        worth - lam[:, None], 0.0), axis=0, initial=0.0))
+    lam = np.where(demand > 0, lam, np.max(np.where(allowed, worth - price[None, :], 0.0), axis=1, initial=0.0))
     return float(np.sum(worth * y)), y, lam, price
