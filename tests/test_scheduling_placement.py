@@ -303,6 +303,25 @@ def test_the_network_simplex_solves_the_transportation_lp(seed):
     assert price @ supply + lam @ demand == pytest.approx(got, rel=1e-9, abs=1e-9)
 
 
+def test_pots_public_solver_gives_the_same_answer_when_its_compiled_call_is_refused(monkeypatch):
+    """Another POT whose compiled function takes other arguments: ``ot.emd`` serves instead."""
+    from planner.scheduling import transport
+
+    value, allowed, demand, supply = _random_transport(np.random.default_rng(11))
+    direct = transport.max_transport(value, allowed, demand, supply)
+
+    class Refusing:
+        @staticmethod
+        def emd_c(*args):
+            raise TypeError("emd_c() takes other arguments")
+
+    monkeypatch.setattr(transport, "_load_solver", lambda: Refusing)
+    public = transport.max_transport(value, allowed, demand, supply)
+    assert public[0] == pytest.approx(direct[0], rel=1e-12)
+    np.testing.assert_allclose(public[1].sum(axis=0), direct[1].sum(axis=0), atol=1e-9)
+    assert np.all((public[3][None, :] + public[2][:, None] - value)[allowed] >= -1e-9)
+
+
 def test_the_network_simplex_loads_without_pot_toolbox_and_pot_still_imports_after():
     """The solver module is loaded alone (POT's ``ot/__init__`` pulls in scipy.stats and
     more, 0.6 s); a later ``import ot`` still works and its own solver agrees."""

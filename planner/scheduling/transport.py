@@ -105,9 +105,8 @@ def max_transport(value: np.ndarray, allowed: np.ndarray, demand: np.ndarray, su
     cost[:n_r, :n_k] = np.where(allowed, -worth, big)
     a = np.concatenate([demand, [supply.sum()]])
     b = np.concatenate([supply, [demand.sum()]])
-    # (a, b, costs, iteration limit, threads: one, as everywhere in gcplan)
-    flow, total, alpha, beta, code = _load_solver().emd_c(a, b, cost, 1_000_000, 1)
-    if code != 1:  # POT's OPTIMAL
+    flow, alpha, beta, optimal = _network_simplex(a, b, cost)
+    if not optimal:
         return None
     y = flow[:n_r, :n_k]
     if np.any(y[~allowed] > 1e-9 * max(1.0, float(b.sum()))):
@@ -122,3 +121,18 @@ def max_transport(value: np.ndarray, allowed: np.ndarray, demand: np.ndarray, su
                                                         worth - lam[:, None], 0.0), axis=0, initial=0.0))
     lam = np.where(demand > 0, lam, np.max(np.where(allowed, worth - price[None, :], 0.0), axis=1, initial=0.0))
     return float(np.sum(worth * y)), y, lam, price
+
+
+def _network_simplex(a, b, cost):
+    """POT's exact solver: (flow, row potentials, column potentials, optimal?).  Its compiled
+    function's arguments have changed between POT versions; when the call as written for
+    POT 0.9 is refused, POT's public ``ot.emd`` (the same solver) is used."""
+    try:
+        # (a, b, costs, iteration limit, threads: one, as everywhere in gcplan)
+        flow, _, alpha, beta, code = _load_solver().emd_c(a, b, cost, 1_000_000, 1)
+        return flow, alpha, beta, code == 1  # 1: POT's OPTIMAL
+    except TypeError:
+        import ot
+
+        flow, log = ot.emd(a, b, cost, numItermax=1_000_000, log=True)
+        return np.asarray(flow), np.asarray(log["u"]), np.asarray(log["v"]), log.get("warning") is None
