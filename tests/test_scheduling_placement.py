@@ -188,6 +188,44 @@ def test_a_night_with_nothing_observable_has_a_zero_bound():
     assert plan.visits == () and plan.bound_value == 0.0 and plan.gap_fraction == 0.0
 
 
+def test_requests_that_can_have_no_visit_leave_the_bound_as_it_is():
+    """A target never up tonight, and one up for less time than its visit takes, add nothing
+    to the bound: neither can be observed (the first of them once made the bound count a
+    parked first visit of its own, the second let the relaxation use its short window)."""
+    base = _targets(["NGC 6752", "NGC 104", "NGC 362"])
+    requests = requests_for_targets(base, (Exposure("V", 2, 300.0),))
+    never = VisitRequest("n", "north", 0.0, 85.0, "visit", (Exposure("V", 1, 60.0),), 3.0)
+    plan = _plan_requests(requests)
+    c = constraints_for_site(SITE)
+    frame = night_sky(SITE, [NIGHT], c)
+    w0 = float(frame.window_start_jd[0])
+    # the same cluster allowed only a 5-minute window, for a 12-minute visit
+    short = replace(requests[0], key="short", priority=3.0, earliest_jd=w0 + 120 / 1440.0,
+                    latest_jd=w0 + 125 / 1440.0)
+    more = _plan_requests(requests + [never, short])
+    assert more.bound_value == pytest.approx(plan.bound_value, rel=1e-12)
+    assert {v.request_key for v in more.visits} == {v.request_key for v in plan.visits}
+
+
+def test_the_longest_runs_are_found_row_by_row():
+    from planner.scheduling.bound import in_long_runs
+
+    rng = np.random.default_rng(4)
+    ok = rng.random((6, 80)) > 0.3
+    need = rng.integers(1, 8, 6)
+    expect = np.zeros_like(ok)
+    for r in range(6):
+        i = 0
+        while i < 80:
+            j = i
+            while j < 80 and ok[r, j]:
+                j += 1
+            if j - i >= need[r]:
+                expect[r, i:j] = True
+            i = max(j, i + 1)
+    assert np.array_equal(in_long_runs(ok, need), expect)
+
+
 def test_the_bound_holds_with_fixed_visits_and_a_late_start():
     """Re-planning: visits already made stay, nothing starts before "now"; the bound is on
     the new visits and still holds."""

@@ -18,9 +18,10 @@ let ``y[r, k]`` be the minutes of slot k that request r occupies.  Maximise
   possible predecessor (another request, itself when it repeats, a fixed
   visit; slew and settle, no filter change);
 * ``y[r, k] ≥ 0``, and ``y[r, k] = 0`` unless every constraint of r holds
-  somewhere in slot k (a request may take more of such a slot than the part where
-  its constraints hold: dropping that cap only loosens the relaxation, by 10⁻⁵ of
-  the bound on a 60-target night, and leaves a plain transportation problem);
+  somewhere in slot k, on a stretch of the grid long enough for a visit of r
+  (a request may take more of such a slot than the part where its constraints
+  hold: dropping that cap only loosens the relaxation, by 10⁻⁵ of the bound on a
+  60-target night, and leaves a plain transportation problem);
 
 with ``c[r, k] = U[r, k] / b_r`` and ``U[r, k]`` the largest value a visit of r
 can have with its middle within ``h_r`` of slot k, where ``h_r`` = half the
@@ -42,7 +43,10 @@ time, so the densities of all visits sum to at most 1 at every instant: the
 slot totals satisfy the first row.  Each visit contributes exactly b_r minutes,
 at most n_r visits of r: the second row.  A visit covers only slots where its
 constraints hold, and no more of a slot than that part: the third (and
-more).  So the plan maps to a feasible y.  Its objective
+more).  (It also lies inside one run of grid points where they all hold, as the
+planner checks them — every point from the one at or before its start to the
+one at or after its end — so runs shorter than its shortest visit take no part:
+the caller passes ``ok_point`` with such runs removed, :func:`in_long_runs`.)  So the plan maps to a feasible y.  Its objective
 there is, per visit, ``∫ (b_r / D) · U/b_r dτ = mean of U over the visit ≥
 value(visit)``, because every slot the visit touches has U at least the
 visit's value (its middle lies within h_r of every instant of it; phase gain ≤ 1).
@@ -112,6 +116,16 @@ def window_max_rows(v: np.ndarray, half_widths: np.ndarray) -> np.ndarray:
         tab = levels[int(j)][rows]
         out[rows] = np.maximum(np.take_along_axis(tab, lo, axis=1), np.take_along_axis(tab, hi, axis=1))
     return out
+
+
+def in_long_runs(ok: np.ndarray, min_points: np.ndarray) -> np.ndarray:
+    """Points of each row ``r`` inside a run of at least ``min_points[r]`` consecutive True."""
+    n_rows, n = ok.shape
+    idx = np.arange(n)[None, :]
+    bad = np.where(ok, n, idx)
+    next_bad = np.minimum.accumulate(bad[:, ::-1], axis=1)[:, ::-1]
+    prev_bad = np.maximum.accumulate(np.where(ok, -1, idx), axis=1)
+    return ok & (next_bad - prev_bad - 1 >= np.asarray(min_points)[:, None])
 
 
 def night_bound(v_point, ok_point, free, count, body_min_min, reach_min, slot_min=1.0) -> Bound:

@@ -78,7 +78,7 @@ from dataclasses import replace
 import numpy as np
 
 from planner.model.constraints import Constraints
-from planner.scheduling.bound import night_bound
+from planner.scheduling.bound import in_long_runs, night_bound
 from planner.scheduling.dispatch import DispatchState, dispatch, fill_gaps, improve
 from planner.scheduling.night_plan import Gap, NightPlan, Unplanned
 from planner.scheduling.polish import reassign
@@ -208,17 +208,26 @@ def _bound(site, state: DispatchState, fixed, start_jd: float):
     # its shortest setup joins its shortest time; the first visit's missing setup is paid
     # for by ``first`` (the value of the share of a visit that setup would be).
     # Predecessors: the other requests, the request itself when it repeats, the fixed visits.
+    # A visit's grid points run unbroken from the one at or before its start to the one at or
+    # after its end (DispatchState.holds): at least its shortest body's minutes + 1 of them,
+    # less the holds check's 10⁻³-slot rounding at either end.  Only a request with such a run
+    # (and a visit still wanted) can have a visit tonight, and so precede another.
+    ok = in_long_runs(tab.ok, np.ceil(body_min / 60.0 / SLOT_MIN - 0.01).astype(int) + 1)
+    can = ok.any(axis=1) & (state.remaining > 0)
     ra = np.concatenate([state.ra, [v.ra_deg for v in fixed]])
     dec = np.concatenate([state.dec, [v.dec_deg for v in fixed]])
     sep = angular_separation_deg(ra[:, None], dec[:, None], state.ra[None, :], state.dec[None, :])
     n = len(state.ra)
+    sep[:n][~can] = np.inf
     sep[np.arange(n), np.arange(n)] = np.where(state.remaining > 1, 0.0, np.inf)
     cost = np.where(np.isfinite(sep), setup_s(site, np.where(np.isfinite(sep), sep, 0.0), False), np.inf)
     least_setup = np.min(cost, axis=0) if len(cost) else np.zeros(n)
     least_setup = np.where(np.isfinite(least_setup), least_setup, 0.0)  # a lone request: no predecessor
     shortest = body_min + least_setup
-    first = float(np.max(np.where(shortest > 0, scale * least_setup / np.maximum(shortest, 1e-9), 0.0)))
-    b = night_bound(v_point, tab.ok, free, state.remaining.astype(float), shortest / 60.0,
+    # only a request that can have a visit tonight can have the night's first
+    first = float(np.max(np.where(can & (shortest > 0), scale * least_setup / np.maximum(shortest, 1e-9), 0.0),
+                         initial=0.0))
+    b = night_bound(np.where(ok, v_point, 0.0), ok, free, state.remaining.astype(float), shortest / 60.0,
                     (0.5 * body_max + longest_setup) / 60.0, SLOT_MIN)
     return replace(b, value=b.value + first), body_min
 
