@@ -562,3 +562,15 @@ def test_a_goal_visits_longer_slew_never_starts_where_its_limits_fail():
     assert [v.id for v in kept] == ["02", "01"] and kept[1].start_jd < goal.start_jd  # the 90° slew
     kept = reconcile(site, [spare, goal], fill, {"01": goal.start_jd})
     assert kept == [goal]  # the goal's visit as planned
+
+
+def test_the_goals_depth_visits_sit_near_their_best_airmass(demo_plan):
+    """The goals' deep frames (tip, HB, turnoff) go where their target is near the least
+    airmass it reaches that night: within 10 % of it (the readout an observer makes first).
+    The cadence's epochs are spread over the hours on purpose and spare-time frames fill
+    what is left, so they are not held to it."""
+    _, plan = demo_plan
+    off = [(str(n.night), v.id, round(v.airmass_mid, 2), round(v.best_airmass, 2))
+           for n in plan.nights for v in n.visits
+           if not is_fill(v) and v.purpose != "variables" and v.airmass_mid > 1.1 * v.best_airmass]
+    assert off == []

@@ -398,17 +398,7 @@ def fill_gaps(state: DispatchState, t_min: float) -> None:
     searched again."""
     cache: dict[tuple[float, float], tuple | None] = {}
     while state.remaining.any():
-        best = None
-        visits = sorted(state.visits, key=lambda v: v.start_jd)
-        live, gaps = {}, []
-        for g0 in [t_min] + [v.end_jd for v in visits if v.end_jd > t_min]:
-            if _busy_until(state, g0) is not None:
-                continue
-            prev = max((v for v in visits if v.end_jd <= g0 + 1e-9), key=lambda v: v.end_jd, default=None)
-            nxt = next((v for v in visits if v.start_jd >= g0 - 1e-9), None)
-            g1 = nxt.start_jd if nxt is not None else state.tab.jd[-1]
-            if g1 - g0 >= 2 * SLOT_MIN / 1440.0:
-                gaps.append((g0, g1, prev, nxt, None))
+        best, live, gaps = None, {}, _idle_gaps(state, t_min)
         new = [gap for gap in gaps if (gap[0], gap[1]) not in cache]  # the gaps searched (again), at once
         cache.update(zip([(gap[0], gap[1]) for gap in new], _best_in_gaps(state, new) if new else []))
         for g0, g1, _, _, _ in gaps:
@@ -425,21 +415,73 @@ def fill_gaps(state: DispatchState, t_min: float) -> None:
             _reslew(state, nxt, v)
 
 
+def _idle_gaps(state: DispatchState, t_min: float) -> list:
+    """The plan's idle gaps of two slots or more after ``t_min``, as (g0, g1, prev, nxt, None)."""
+    visits = sorted(state.visits, key=lambda v: v.start_jd)
+    gaps = []
+    for g0 in [t_min] + [v.end_jd for v in visits if v.end_jd > t_min]:
+        if _busy_until(state, g0) is not None:
+            continue
+        prev = max((v for v in visits if v.end_jd <= g0 + 1e-9), key=lambda v: v.end_jd, default=None)
+        nxt = next((v for v in visits if v.start_jd >= g0 - 1e-9), None)
+        g1 = nxt.start_jd if nxt is not None else state.tab.jd[-1]
+        if g1 - g0 >= 2 * SLOT_MIN / 1440.0:
+            gaps.append((g0, g1, prev, nxt, None))
+    return gaps
+
+
+def relocate_patient(state: DispatchState, t_min: float) -> None:
+    """Local search for patient visits (deep frames): one placed clearly above the least
+    airmass its target reaches tonight (:data:`PATIENCE_AIRMASS`) is taken out and put in
+    the idle gap where it is worth most, when that is worth more than where it was.
+
+    The dispatch follows the relaxed optimum, which may give a short deep frame a poor
+    airmass because the minutes at its best are priced by longer visits; on the night as
+    planned there is often room near its best all the same.  The take-one-out search
+    (:func:`improve`) looks only at a visit's own place; this looks at every gap."""
+    key_index = {q.key: k for k, q in enumerate(state.requests)}
+    for old in sorted(state.visits, key=lambda v: v.start_jd):
+        r = key_index.get(old.request_key)
+        if (r is None or not state.patient[r] or state.has_phase[r] or state.requests[r].count > 1
+                or id(old) in state.fixed_ids or old.start_jd < t_min - 1e-9
+                or not old.airmass_mid > PATIENCE_AIRMASS * state.tab.best_airmass[r]):
+            continue
+        before = state.value_of.get(id(old), 0.0)
+        saved = (list(state.visits), state.times[r])
+        _take_out(state.visits, old)
+        state.remaining[r] += 1
+        state.times[r] = []
+        gaps = _idle_gaps(state, t_min)
+        found = [c for c in (_best_in_gaps(state, gaps, only=r) if gaps else []) if c is not None]
+        best = max(found, key=lambda c: c[0], default=None)
+        if best is None or best[0] <= before * (1.0 + 1e-6):
+            state.visits[:], state.times[r] = saved
+            state.remaining[r] -= 1
+            continue
+        state.value_of.pop(id(old), None)
+        _, k, start, prev, nxt = best
+        ra, dec, filt = (None, None, None) if prev is None else (prev.ra_deg, prev.dec_deg, prev.exposures[-1].filter)
+        v = state.place(k, start, ra, dec, filt)
+        if nxt is not None and id(nxt) not in state.fixed_ids:
+            _reslew(state, nxt, v)
+
+
 def _best_in_gap(state: DispatchState, g0, g1, prev, nxt):
     """The most valuable visit that fits the gap [g0, g1] between ``prev`` and ``nxt``:
     (value, request, start, prev, nxt), or None."""
     return _best_in_gaps(state, [(g0, g1, prev, nxt, None)])[0]
 
 
-def _best_in_gaps(state: DispatchState, gaps) -> list:
+def _best_in_gaps(state: DispatchState, gaps, only: int | None = None) -> list:
     """:func:`_best_in_gap` of several gaps at once, ``gaps`` being (g0, g1, prev, nxt, out)
     with ``out`` a request whose one visit is taken out for the search (the local search
     asks this of every visit in turn; None: the plan as it is).  The requests still wanting
     time are searched, with ``out`` among them, over every start slot of each gap: gaps ×
     requests × starts in one set of array operations, each gap's own rows and starts
-    masked (the same arithmetic, element by element, as one gap at a time)."""
+    masked (the same arithmetic, element by element, as one gap at a time).  ``only``: search
+    that one request alone."""
     step = SLOT_MIN / 1440.0
-    base = np.flatnonzero(state.remaining > 0)
+    base = np.flatnonzero(state.remaining > 0) if only is None else np.array([only])
     rows = [base if out is None else np.union1d(base, [out]) for _, _, _, _, out in gaps]
     n_g, n_r = len(gaps), max(len(x) for x in rows)
     if n_r == 0:

@@ -44,7 +44,9 @@ Frames of requests with an S/N goal are sized at every slot at once.
    time, each at its most valuable start inside the gap, including the slew
    into it and the changed slew out of it; then each single visit is taken
    out in turn and the most valuable visit that fits its place put back
-   (itself moved, or a request left out), and the gaps are filled again.
+   (itself moved, or a request left out); a patient visit (deep frames) placed
+   clearly above its best airmass is offered every idle gap; and the gaps are
+   filled again.
 4. **Places given out again.**  The plan's places are re-assigned among the
    requests as a linear assignment (value, with airmass as a small tie-breaker:
    :mod:`planner.scheduling.polish`), so a target taken early at a poor airmass
@@ -79,7 +81,7 @@ import numpy as np
 
 from planner.model.constraints import Constraints
 from planner.scheduling.bound import in_long_runs, night_bound
-from planner.scheduling.dispatch import DispatchState, dispatch, fill_gaps, improve
+from planner.scheduling.dispatch import DispatchState, dispatch, fill_gaps, improve, relocate_patient
 from planner.scheduling.night_plan import Gap, NightPlan, Unplanned
 from planner.scheduling.polish import reassign
 from planner.scheduling.slot_table import SLOT_MIN, build_slot_table
@@ -88,7 +90,8 @@ from planner.sky.ephemeris import Ephemeris, moon_phase
 from planner.sky.visibility import angular_separation_deg
 
 METHOD = ("forward dispatch guided by the LP relaxation's time shares and prices (waits while a later start "
-          "is clearly better), then gap filling, remove-and-reinsert local search and a re-assignment of the plan's "
+          "is clearly better), then gap filling, remove-and-reinsert local search, deep frames moved nearer their best "
+          "airmass, and a re-assignment of the plan's "
           "places (1-minute slots)")
 
 
@@ -148,6 +151,7 @@ def plan_night(
     dispatch(state, start, fixed)
     fill_gaps(state, start)
     improve(state, start)
+    relocate_patient(state, start)
     fill_gaps(state, start)
     if reassign(state, start):
         fill_gaps(state, start)
