@@ -43,7 +43,7 @@ NIGHT_KEYS = [
 
 class NightScreen(Screen):
     """Base of the plan, sky and phase screens: the header, the screen's own parts (``parts``),
-    the list of rows, the message line and the keys; subclasses fill them in ``show_night``."""
+    the list of rows, the message line and the keys; subclasses fill theirs in ``fill``."""
 
     BINDINGS = NIGHT_KEYS
     _ready = False
@@ -91,7 +91,21 @@ class NightScreen(Screen):
         if self._ready:
             self.query_one("#message", Static).update(text)
 
-    def show_night(self) -> None:  # pragma: no cover - every subclass defines it
+    def show_night(self) -> None:
+        """The header and the message line, then the screen's own body (``fill``)."""
+        if not self._ready:
+            return
+        app = self.app
+        self.set_header()
+        self.query_one("#message", Static).update(self.message_text(app))
+        self.fill(app)
+
+    def message_text(self, app) -> str:
+        """The message line: the app's last word (a screen may say more)."""
+        return app.message
+
+    def fill(self, app) -> None:  # pragma: no cover - every subclass defines it
+        """The screen's own parts and rows, from the app's night."""
         raise NotImplementedError
 
     def tick(self) -> None:

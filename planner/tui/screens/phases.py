@@ -25,12 +25,7 @@ class PhaseScreen(NightScreen):
         super().on_screen_resume()
         self.app.load_phases()
 
-    def show_night(self) -> None:
-        if not self._ready:
-            return
-        app = self.app
-        self.set_header()
-        self.query_one("#message", Static).update(app.message)
+    def fill(self, app) -> None:
         table = app.phase_table
         if table is None:
             self.query_one(RowList).show([], empty="computing phase coverage…" if app.data else "")

@@ -24,12 +24,7 @@ class PlanScreen(NightScreen):
         yield Static("", id="summary", classes="block")
         yield Static(plan_head(), id="plan-head", classes="head")
 
-    def show_night(self) -> None:
-        if not self._ready:
-            return
-        app = self.app
-        self.set_header()
-        self.query_one("#message", Static).update(app.message)
+    def fill(self, app) -> None:
         data, plan = app.data, app.plan
         rows = self.query_one(RowList)
         if data is None:

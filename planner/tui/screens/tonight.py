@@ -20,19 +20,17 @@ class TonightScreen(NightScreen):
         yield Static("", id="almanac", classes="block")
         yield Static(sky_head(), id="target-head", classes="head")
 
-    def show_night(self) -> None:
-        if not self._ready:
-            return
-        app = self.app
-        self.set_header()
+    def message_text(self, app) -> str:
         data = app.data
-        message = app.message or ("; ".join(data.run.warnings) if data else "")
         if data is not None and app.sky is not None and abs(app.sky.jd - app.now_jd) > 1e-6:
             from planner.sky.nights import local_hhmm
 
-            message = (f"the sky at {local_hhmm(app.sky.jd, data.run.site.location.timezone)}, mid-dark: "
-                       "the clock is in another night (t: tonight)")
-        self.query_one("#message", Static).update(message)
+            return (f"the sky at {local_hhmm(app.sky.jd, data.run.site.location.timezone)}, mid-dark: "
+                    "the clock is in another night (t: tonight)")
+        return app.message or ("; ".join(data.run.warnings) if data else "")
+
+    def fill(self, app) -> None:
+        data = app.data
         if data is None or app.sky is None:
             self.query_one("#almanac", Static).update(app.load_error or "computing the night…")
             self.query_one(RowList).show([], empty="")
